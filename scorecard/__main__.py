@@ -1,0 +1,3 @@
+from scorecard.cli import main
+
+main(prog_name="scorecard")

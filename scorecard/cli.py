@@ -1,0 +1,66 @@
+"""The `scorecard` command: a thin click layer. Each verb lives in `scorecard/commands/<verb>.py` and exports
+`command`; this module only finds them, orders them along the pipeline, and turns errors into exit codes.
+"""
+
+from __future__ import annotations
+
+import importlib
+import pkgutil
+
+import click
+
+from scorecard import __version__
+from scorecard.errors import CheckFailed, UserError
+
+# the order a newcomer meets the verbs in `scorecard --help`: along the pipeline
+PIPELINE_ORDER = ["demo", "fit", "import", "predict", "review", "edit", "explain", "quantize", "render", "score", "check", "verify"]
+
+
+class PipelineGroup(click.Group):
+    """Discovers verb modules lazily and reports user errors as one line with the right exit code."""
+
+    def _modules(self) -> list[str]:
+        import scorecard.commands as pkg
+
+        names = [m.name for m in pkgutil.iter_modules(pkg.__path__) if not m.name.startswith("_")]
+        return names
+
+    def list_commands(self, ctx: click.Context) -> list[str]:
+        verbs = [m.replace("_", "-").removesuffix("-cmd") for m in self._modules()]
+        return sorted(verbs, key=lambda v: (PIPELINE_ORDER.index(v) if v in PIPELINE_ORDER else 99, v))
+
+    def get_command(self, ctx: click.Context, name: str) -> click.Command | None:
+        for module_name in self._modules():
+            if module_name.replace("_", "-").removesuffix("-cmd") == name:
+                return importlib.import_module(f"scorecard.commands.{module_name}").command
+        return None
+
+    def invoke(self, ctx: click.Context):
+        try:
+            return super().invoke(ctx)
+        except UserError as exc:
+            click.echo(f"error: {exc}", err=True)
+            ctx.exit(UserError.exit_code)
+        except CheckFailed as exc:
+            click.echo(f"check failed: {exc}", err=True)
+            ctx.exit(CheckFailed.exit_code)
+
+
+@click.group(cls=PipelineGroup, context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100})
+@click.version_option(__version__, prog_name="scorecard")
+def main() -> None:
+    """Turn an additive risk model into printable bedside point sheets, and prove the paper agrees.
+
+    \b
+    The pipeline, one verb per step:
+      data.csv --fit--> model.json --review/edit--> model.json --quantize--> sheet.json --render--> sheet.pdf
+      other model --import--^                      cohort.csv --check--> report     sheet.pdf --verify--> report
+
+    Start with `scorecard demo -o DIR`, which runs the whole pipeline on an invented cohort.
+
+    Exit codes: 0 done; 1 internal error; 2 bad input or usage (one line says which file, row or field,
+    and what to do); 3 a check ran and failed its bound.
+
+    Decision support only: a sheet does not replace clinical judgement, is valid only for the population and
+    outcome it states, shows associations, not causes, and defers to local protocols and licensed clinicians.
+    """

@@ -1,0 +1,1 @@
+"""One module per verb; each exports `command` (a click command). `scorecard.cli` discovers them."""

@@ -1,0 +1,26 @@
+"""Small pieces every command shares: output checks and stderr messages."""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import click
+
+from scorecard.errors import UserError
+
+
+def output_path(path: str, *inputs: str) -> Path:
+    """Refuse an output that would overwrite one of the inputs (DESIGN: never silently overwrite an input)."""
+    out = Path(path)
+    for given in inputs:
+        if given and Path(given).exists() and out.exists() and out.resolve() == Path(given).resolve():
+            raise UserError(f"{out}: is also an input of this command; choose another path with -o")
+    parent = out.parent if str(out.parent) else Path(".")
+    if not parent.is_dir():
+        raise UserError(f"{out}: folder {parent} does not exist; create it or choose another -o path")
+    return out
+
+
+def say(message: str) -> None:
+    """Progress and notes go to stderr so stdout stays clean for results."""
+    click.echo(message, err=True)

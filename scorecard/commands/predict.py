@@ -1,0 +1,44 @@
+"""`scorecard predict`: the exact model's log-odds and risk for every patient (the software score)."""
+
+from __future__ import annotations
+
+import click
+
+from scorecard.commands._common import output_path, say
+from scorecard.errors import UserError
+from scorecard.jsondoc import atomic_write_text
+from scorecard.model import contributions, load_model, logistic
+from scorecard.tabular import read_csv
+
+
+@click.command()
+@click.argument("model_path", metavar="MODEL.json", type=click.Path(dir_okay=False))
+@click.argument("cohort_path", metavar="COHORT.csv", type=click.Path(dir_okay=False))
+@click.option("-o", "--output", "output", required=True, type=click.Path(dir_okay=False), help="CSV to write (one row per patient).")
+@click.option("--contributions", "with_parts", is_flag=True, help="Add one column per term: its log-odds contribution.")
+@click.option("--keep", multiple=True, metavar="COLUMN", help="Copy this cohort column into the output (e.g. a patient id); repeatable.")
+def command(model_path: str, cohort_path: str, output: str, with_parts: bool, keep: tuple[str, ...]) -> None:
+    """Compute the exact model's log-odds and risk for every patient in COHORT.csv.
+
+    Writes `logodds` and `risk` columns (risk as a fraction, 0-1), in cohort order. This is the software
+    score the printed sheet is later checked against. Values outside the training range are scored in the
+    end bin and counted on stderr; not-measured values follow each feature's policy.
+    """
+    out = output_path(output, model_path, cohort_path)
+    model = load_model(model_path)
+    cohort = read_csv(cohort_path)
+    for name in keep:
+        if name not in cohort.columns:
+            raise UserError(f"{cohort_path}: --keep column {name!r} is not in the file")
+    parts, report = contributions(model, cohort)
+    logodds = model.intercept + parts.to_numpy().sum(axis=1)
+    table = cohort[list(keep)].copy()
+    table["logodds"] = logodds
+    table["risk"] = logistic(logodds)
+    if with_parts:
+        for name in parts.columns:
+            table[f"term:{name}"] = parts[name].to_numpy()
+    for line in report.lines():
+        say(f"note: {line}")
+    atomic_write_text(out, table.to_csv(index=False, float_format="%.10g"))
+    say(f"wrote {len(table)} patients to {out}")

@@ -1,0 +1,113 @@
+"""Canonical JSON, fingerprints and atomic writes shared by the model and sheet documents.
+
+The canonical form is what is hashed: sorted keys, no insignificant whitespace, UTF-8, floats in
+Python's shortest round-trip form (so load -> save -> load never changes a number), -0.0 written as 0.0,
+and NaN/inf refused. The file on disk is the same content, indented for people.
+"""
+
+from __future__ import annotations
+
+import hashlib
+import json
+import math
+import os
+import tempfile
+from pathlib import Path
+from typing import Any
+
+from scorecard.errors import UserError
+
+
+def normalise(value: Any) -> Any:
+    """Plain JSON types only: numpy scalars and arrays become floats/ints/lists; -0.0 becomes 0.0."""
+    if isinstance(value, dict):
+        return {str(k): normalise(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [normalise(v) for v in value]
+    if hasattr(value, "tolist") and not isinstance(value, (str, bytes)):
+        return normalise(value.tolist())
+    if isinstance(value, bool) or value is None or isinstance(value, str):
+        return value
+    if isinstance(value, int):
+        return int(value)
+    if isinstance(value, float):
+        if not math.isfinite(value):
+            raise ValueError("NaN or infinite number cannot be written to a document")
+        return 0.0 if value == 0 else float(value)
+    raise TypeError(f"cannot write {type(value).__name__} to a JSON document")
+
+
+def canonical_bytes(document: dict) -> bytes:
+    """The exact bytes a fingerprint is computed from."""
+    return json.dumps(
+        normalise(document), sort_keys=True, separators=(",", ":"), ensure_ascii=False, allow_nan=False
+    ).encode("utf-8")
+
+
+def fingerprint(document: dict, exclude: tuple[str, ...] = ()) -> str:
+    """SHA-256 (hex) of the canonical form, leaving out top-level keys in `exclude`."""
+    body = {k: v for k, v in document.items() if k not in exclude}
+    return hashlib.sha256(canonical_bytes(body)).hexdigest()
+
+
+def pretty_text(document: dict) -> str:
+    return json.dumps(normalise(document), sort_keys=True, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
+
+
+def atomic_write_bytes(path: str | os.PathLike, data: bytes, protect: tuple[str | os.PathLike, ...] = ()) -> None:
+    """Write to a temporary file beside `path`, then rename, so a reader never sees half a file.
+
+    `protect` lists input files this output must not overwrite (DESIGN: never silently overwrite an input).
+    """
+    target = Path(path)
+    for other in protect:
+        try:
+            if target.exists() and Path(other).exists() and target.resolve() == Path(other).resolve():
+                raise UserError(f"{target}: this is also an input file; choose another output path with -o")
+        except OSError:
+            pass
+    directory = target.parent if str(target.parent) else Path(".")
+    if not directory.is_dir():
+        raise UserError(f"{target}: folder {directory} does not exist; create it or choose another -o path")
+    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=directory)
+    try:
+        with os.fdopen(fd, "wb") as handle:
+            handle.write(data)
+        os.replace(tmp, target)
+    except BaseException:
+        try:
+            os.unlink(tmp)
+        except FileNotFoundError:
+            pass
+        raise
+
+
+def atomic_write_text(path: str | os.PathLike, text: str, protect: tuple[str | os.PathLike, ...] = ()) -> None:
+    atomic_write_bytes(path, text.encode("utf-8"), protect=protect)
+
+
+def read_json_file(path: str | os.PathLike, what: str) -> Any:
+    """Parse a JSON file, turning every failure into one line naming the file."""
+    p = Path(path)
+    try:
+        raw = p.read_bytes()
+    except FileNotFoundError:
+        raise UserError(f"{p}: no such file; check the path of the {what}") from None
+    except IsADirectoryError:
+        raise UserError(f"{p}: is a folder, expected a {what} file") from None
+    except OSError as exc:
+        raise UserError(f"{p}: cannot read ({exc.strerror}); check permissions") from None
+    if not raw.strip():
+        raise UserError(f"{p}: file is empty; expected a {what}")
+    try:
+        return json.loads(raw.decode("utf-8"), parse_constant=_refuse_constant)
+    except UnicodeDecodeError:
+        raise UserError(f"{p}: not UTF-8 text; expected a {what} (JSON)") from None
+    except json.JSONDecodeError as exc:
+        raise UserError(f"{p}: not valid JSON at line {exc.lineno} column {exc.colno} ({exc.msg}); expected a {what}") from None
+    except ValueError as exc:
+        raise UserError(f"{p}: {exc}; numbers must be finite") from None
+
+
+def _refuse_constant(name: str) -> Any:
+    raise ValueError(f"{name} is not allowed in a document")

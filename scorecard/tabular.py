@@ -1,0 +1,117 @@
+"""Reading patient tables: CSV files into DataFrames, and columns into the values a model expects.
+
+Every stage that reads a cohort goes through here so that a bad cell is reported the same way everywhere:
+one line naming the file, the row (1-based data row, the header is not counted) and the column.
+"""
+
+from __future__ import annotations
+
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+from scorecard.errors import UserError
+
+MISSING_TOKENS = frozenset({"", "na", "n/a", "nan", "null", "none", "missing", "not measured", "."})
+FLAG_TRUE = frozenset({"1", "1.0", "true", "yes", "y", "t"})
+FLAG_FALSE = frozenset({"0", "0.0", "false", "no", "n", "f"})
+
+
+def read_csv(path: str | Path, what: str = "cohort") -> pd.DataFrame:
+    """Read a CSV as text cells (parsing happens per feature, so errors can name the cell)."""
+    p = Path(path)
+    if not p.exists():
+        raise UserError(f"{p}: no such file; check the path of the {what} CSV")
+    if p.is_dir():
+        raise UserError(f"{p}: is a folder, expected a {what} CSV file")
+    try:
+        frame = pd.read_csv(p, dtype=str, keep_default_na=False, skipinitialspace=True)
+    except pd.errors.EmptyDataError:
+        raise UserError(f"{p}: file is empty; expected a {what} CSV with a header row") from None
+    except (pd.errors.ParserError, UnicodeDecodeError) as exc:
+        raise UserError(f"{p}: not a readable CSV ({str(exc).splitlines()[0]}); save it as comma-separated UTF-8") from None
+    header = [str(c) for c in frame.columns]
+    dupes = sorted({c.split(".")[0] for c in header if _is_pandas_dupe(c, header)})
+    if dupes:
+        raise UserError(f"{p}: column {dupes[0]!r} appears more than once in the header; rename or remove the copy")
+    if len(frame) == 0:
+        raise UserError(f"{p}: has a header but no data rows; expected at least one patient")
+    frame.columns = [c.strip() for c in header]
+    frame.attrs["source"] = str(p)
+    return frame
+
+
+def _is_pandas_dupe(name: str, header: list[str]) -> bool:
+    # pandas renames a repeated column "x" to "x.1"; only report it when "x" itself is present
+    base, dot, suffix = name.rpartition(".")
+    return bool(dot) and suffix.isdigit() and base in header
+
+
+def source_of(frame: pd.DataFrame) -> str:
+    return frame.attrs.get("source", "data")
+
+
+def is_missing_text(values: pd.Series) -> np.ndarray:
+    return values.astype(str).str.strip().str.lower().isin(MISSING_TOKENS).to_numpy() | values.isna().to_numpy()
+
+
+def require_columns(frame: pd.DataFrame, names: list[str], what: str = "the model") -> None:
+    missing = [n for n in names if n not in frame.columns]
+    if missing:
+        raise UserError(
+            f"{source_of(frame)}: column {missing[0]!r} needed by {what} is missing"
+            f"{f' (and {len(missing) - 1} more)' if len(missing) > 1 else ''}; add it (empty cells mean not measured)"
+        )
+
+
+def numeric_column(frame: pd.DataFrame, name: str) -> np.ndarray:
+    """Float values with NaN for not measured; text that is not a number is an error naming the row."""
+    col = frame[name]
+    if pd.api.types.is_numeric_dtype(col) and not pd.api.types.is_bool_dtype(col):
+        values = col.to_numpy(dtype=float)
+        bad = ~np.isfinite(values) & ~np.isnan(values)
+        if bad.any():
+            row = int(np.flatnonzero(bad)[0])
+            raise UserError(f"{source_of(frame)}: row {row + 1}, column {name!r}: infinite value; give a measurement or leave it empty")
+        return values
+    missing = is_missing_text(col)
+    parsed = pd.to_numeric(col.where(~missing, None), errors="coerce").to_numpy(dtype=float)
+    bad = np.isnan(parsed) & ~missing
+    bad |= np.isinf(parsed)
+    if bad.any():
+        row = int(np.flatnonzero(bad)[0])
+        raise UserError(
+            f"{source_of(frame)}: row {row + 1}, column {name!r}: {col.iloc[row]!r} is not a number; "
+            "use digits with a decimal point, or leave the cell empty for not measured"
+        )
+    return parsed
+
+
+def flag_column(frame: pd.DataFrame, name: str) -> np.ndarray:
+    """1.0 / 0.0 / NaN from 1/0, yes/no, true/false (any case)."""
+    col = frame[name]
+    if pd.api.types.is_bool_dtype(col):
+        return col.to_numpy(dtype=float)
+    missing = is_missing_text(col)
+    text = col.astype(str).str.strip().str.lower()
+    values = np.full(len(col), np.nan)
+    values[text.isin(FLAG_TRUE).to_numpy()] = 1.0
+    values[text.isin(FLAG_FALSE).to_numpy()] = 0.0
+    bad = np.isnan(values) & ~missing
+    if bad.any():
+        row = int(np.flatnonzero(bad)[0])
+        raise UserError(
+            f"{source_of(frame)}: row {row + 1}, column {name!r}: {col.iloc[row]!r} is not a yes/no value; "
+            "use 1/0, yes/no or true/false, or leave it empty for not measured"
+        )
+    return values
+
+
+def category_column(frame: pd.DataFrame, name: str) -> np.ndarray:
+    """Object array of stripped level names, None for not measured."""
+    col = frame[name]
+    missing = is_missing_text(col)
+    text = col.astype(str).str.strip().to_numpy(dtype=object)
+    text[missing] = None
+    return text
