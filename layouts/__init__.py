@@ -1,0 +1,1 @@
+"""Page layouts (TOML) for `scorecard render`; installed as the package `scorecard.layouts`."""
