@@ -1,0 +1,58 @@
+"""The sheet document: everything printed on a bedside point sheet, as a validated plain dict.
+
+`document` loads, validates and saves it (docs/sheet-document.md is the contract); `printed` holds the rules
+that define what is printed and how a measurement finds its row, shared by quantize, render and the audit.
+"""
+
+from scorecard.sheet.document import (
+    DOCUMENT_TAG,
+    FORMAT_VERSION,
+    load_sheet,
+    save_sheet,
+    sheet_fingerprint,
+    short_fingerprint,
+    validate_sheet_dict,
+)
+from scorecard.sheet.printed import (
+    NOT_MEASURED_TEXT,
+    ROUNDING_RULE,
+    band_of,
+    flag_text,
+    range_text,
+    risk_text,
+    risk_text_rounding,
+    round_half_up,
+    round_half_up_array,
+    row_index,
+    row_indices,
+)
+
+CAUTIONS = [
+    "Decision support only: this sheet does not replace clinical judgement.",
+    "Valid only for the population and outcome stated on it.",
+    "The points show associations, not causes.",
+    "Follow local protocols and the judgement of licensed clinicians.",
+    "Check the fingerprint against the approved version before use.",
+]
+
+__all__ = [
+    "CAUTIONS",
+    "DOCUMENT_TAG",
+    "FORMAT_VERSION",
+    "NOT_MEASURED_TEXT",
+    "ROUNDING_RULE",
+    "band_of",
+    "flag_text",
+    "load_sheet",
+    "range_text",
+    "risk_text",
+    "risk_text_rounding",
+    "round_half_up",
+    "round_half_up_array",
+    "row_index",
+    "row_indices",
+    "save_sheet",
+    "sheet_fingerprint",
+    "short_fingerprint",
+    "validate_sheet_dict",
+]
