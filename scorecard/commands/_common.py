@@ -15,6 +15,8 @@ def output_path(path: str, *inputs: str) -> Path:
     for given in inputs:
         if given and Path(given).exists() and out.exists() and out.resolve() == Path(given).resolve():
             raise UserError(f"{out}: is also an input of this command; choose another path with -o")
+    if out.is_dir():
+        raise UserError(f"{out}: is a folder; give a file name with -o")
     parent = out.parent if str(out.parent) else Path(".")
     if not parent.is_dir():
         raise UserError(f"{out}: folder {parent} does not exist; create it or choose another -o path")

@@ -12,9 +12,9 @@ from scorecard.tabular import read_csv
 
 
 @click.command()
-@click.argument("model_path", metavar="MODEL.json", type=click.Path(dir_okay=False))
-@click.argument("cohort_path", metavar="COHORT.csv", type=click.Path(dir_okay=False))
-@click.option("-o", "--output", "output", required=True, type=click.Path(dir_okay=False), help="CSV to write (one row per patient).")
+@click.argument("model_path", metavar="MODEL.json")
+@click.argument("cohort_path", metavar="COHORT.csv")
+@click.option("-o", "--output", "output", required=True, metavar="RISKS.csv", help="CSV to write (one row per patient).")
 @click.option("--contributions", "with_parts", is_flag=True, help="Add one column per term: its log-odds contribution.")
 @click.option("--keep", multiple=True, metavar="COLUMN", help="Copy this cohort column into the output (e.g. a patient id); repeatable.")
 def command(model_path: str, cohort_path: str, output: str, with_parts: bool, keep: tuple[str, ...]) -> None:
