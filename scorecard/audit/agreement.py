@@ -1,0 +1,232 @@
+"""The agreement check: one sheet, one model, one cohort -> every figure of the report and each bound PASS/FAIL.
+
+The sheet side is recomputed from the sheet document by `scorecard.audit.paper` (as a person reads the page);
+the model side comes from `scorecard.model.contributions`. Nothing is taken from the quantizer: the figures
+the quantizer stored under `achieved` are shown beside ours for comparison only.
+"""
+
+from __future__ import annotations
+
+import numpy as np
+import pandas as pd
+
+from scorecard.audit import figures
+from scorecard.audit.paper import ScoredCohort, score_cohort, sheet_logodds
+from scorecard.errors import UserError
+from scorecard.model import AdditiveModel, contributions, logistic
+from scorecard.tabular import flag_column, source_of
+
+REPORT_TAG = "scorecard-check-report"
+TOP_PATIENTS = 20
+HISTOGRAM_BINS = 41
+# a computed figure equal to its bound up to float noise passes
+_SLACK = 1e-9
+
+
+def _rows_per_block(term: dict) -> list[int]:
+    """Printed measured rows of a block (not-measured and 'other' rows not counted); one count per pair axis."""
+    if term["kind"] == "pair":
+        return [len(a["rows"]) for a in term["axes"]]
+    return [sum(1 for r in term["rows"] if not r.get("missing") and not r.get("other"))]
+
+
+def _bound(name: str, what: str, value, limit, passed: bool, shown: str) -> dict:
+    return {"name": name, "what": what, "value": value, "bound": limit, "pass": bool(passed), "shown": shown}
+
+
+def outcome_values(frame: pd.DataFrame, column: str | None) -> np.ndarray | None:
+    """0/1/NaN outcome per patient, or None when no outcome column is used."""
+    if column is None:
+        return None
+    if column not in frame.columns:
+        raise UserError(f"{source_of(frame)}: outcome column {column!r} is not in the file; check --outcome")
+    return flag_column(frame, column)
+
+
+def _risk_errors(diff: np.ndarray, limit: float) -> dict:
+    a = np.abs(diff)
+    return {
+        "max_abs_risk_error": float(a.max()),
+        "p99_abs_risk_error": float(np.percentile(a, 99)),
+        "mean_abs_risk_error": float(a.mean()),
+        "share_over_risk_error": float((a > limit + _SLACK).mean()),
+    }
+
+
+def _band_matrix(sheet: dict, model_risk: np.ndarray, scored: ScoredCohort) -> dict | None:
+    from scorecard.audit.paper import band_index
+
+    if scored.band is None:
+        return None
+    names = [b["name"] for b in sheet["bands"]]
+    k = len(names)
+    model_band = band_index(sheet, model_risk)
+    counts = np.bincount(model_band * k + scored.band, minlength=k * k).reshape(k, k)
+    return {"bands": names, "rows_are": "model band", "columns_are": "sheet band",
+            "counts": counts.tolist(), "agreement": float(np.trace(counts) / counts.sum())}
+
+
+def _largest(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, scored: ScoredCohort, parts: pd.DataFrame,
+             model_risk: np.ndarray, diff: np.ndarray, count: int) -> list[dict]:
+    """The patients with the largest |sheet risk - model risk|, with each term's row and how far that row is
+    from the model (points x log-odds per point - model contribution, centred on its cohort mean, so the
+    term with the largest |off by| is the row that causes the disagreement)."""
+    lpp = float(sheet["scale"]["logodds_per_point"])
+    order = np.lexsort((np.arange(len(diff)), -np.abs(diff)))[:count]
+    names = [t.name for t in scored.terms]
+    sheet_parts = {t.name: t.patient_points() * lpp for t in scored.terms}
+    dropped = [t.name for t in model.terms if t.name not in sheet_parts]
+    rows = []
+    centre = {}
+    for name in names + dropped:
+        model_part = parts[name].to_numpy() if name in parts.columns else 0.0
+        centre[name] = float(np.mean(sheet_parts.get(name, 0.0) - model_part))
+    for i in order:
+        terms = []
+        for t in scored.terms:
+            model_part = float(parts[t.name].iloc[i]) if t.name in parts.columns else 0.0
+            on_sheet = float(t.points[t.index[i]]) * lpp
+            terms.append({"term": t.name, "label": t.label, "row": t.texts[t.index[i]], "points": int(t.points[t.index[i]]),
+                          "model_logodds": model_part, "off_by": on_sheet - model_part - centre[t.name]})
+        for name in dropped:
+            model_part = float(parts[name].iloc[i])
+            terms.append({"term": name, "label": name, "row": "(not on the sheet)", "points": 0,
+                          "model_logodds": model_part, "off_by": -model_part - centre[name]})
+        rows.append({"row": int(i) + 1, "total": int(scored.total[i]), "sheet_risk": float(scored.risk[i]),
+                     "sheet_risk_text": str(scored.risk_text[i]), "model_risk": float(model_risk[i]),
+                     "difference": float(diff[i]), "terms": terms})
+    return rows
+
+
+def _against_outcomes(y: np.ndarray, model_lo: np.ndarray, model_risk: np.ndarray, scored: ScoredCohort,
+                      sheet_lo: np.ndarray) -> dict | None:
+    known = ~np.isnan(y)
+    if not known.any():
+        return None
+    yk = y[known]
+    out: dict = {"n": int(known.sum()), "not_known": int((~known).sum()), "event_rate": float(yk.mean())}
+    for who, lo, risk in (("model", model_lo[known], model_risk[known]), ("sheet", sheet_lo[known], scored.risk[known])):
+        g, ng = figures.tie_groups(lo)
+        a, b = figures.logistic_calibration(*figures.grouped(lo, yk))
+        out[who] = {
+            "auc": figures.weighted_auc(g, ng, yk, 1 - yk),
+            "calibration_intercept": a,
+            "calibration_slope": b,
+            "brier": figures.brier(risk, yk),
+            "mean_risk": float(np.mean(risk)),
+            "calibration_table": figures.calibration_table(risk, yk),
+        }
+    return out
+
+
+def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outcome: str | None = None,
+                    replicates: int = 200, seed: int = 0, model_matches: bool = True, progress=None) -> dict:
+    """Every figure of the agreement report as a plain dict (also the --json output)."""
+    say = progress or (lambda message: None)
+    say(f"scoring {len(frame)} patients with the sheet")
+    scored = score_cohort(sheet, frame)
+    y = outcome_values(frame, outcome)
+    say("computing the exact model")
+    parts, model_report = contributions(model, frame)
+    model_lo = model.intercept + parts.to_numpy().sum(axis=1)
+    model_risk = logistic(model_lo)
+    sheet_lo = sheet_logodds(sheet, scored.total)
+    diff = scored.risk - model_risk
+    bound = sheet["bound"]
+
+    # AUC of each score: against observed outcomes when there are any, else against the outcomes the model
+    # expects (each patient an event with weight p and a non-event with weight 1 - p)
+    has_outcomes = y is not None and (~np.isnan(y)).any()
+    if has_outcomes:
+        known = ~np.isnan(y)
+        w_pos, w_neg = np.where(known, np.nan_to_num(y), 0.0), np.where(known, 1 - np.nan_to_num(y), 0.0)
+        basis = "observed outcomes"
+    else:
+        w_pos, w_neg = model_risk, 1 - model_risk
+        basis = "outcomes expected from the model's risk"
+    gm, ngm = figures.tie_groups(model_lo)
+    gs = scored.total - scored.total.min()
+    ngs = int(gs.max()) + 1
+    auc_model = figures.weighted_auc(gm, ngm, w_pos, w_neg)
+    auc_sheet = figures.weighted_auc(gs, ngs, w_pos, w_neg)
+    say(f"bootstrap interval of the AUC loss ({replicates} resamples)")
+    ci = figures.bootstrap_auc_difference(gm, ngm, gs, ngs, w_pos, w_neg, replicates=replicates, seed=seed)
+    cal_a, cal_b = figures.logistic_calibration(*figures.grouped(sheet_lo, model_risk))
+    agreement = {
+        "auc_basis": basis,
+        "auc_model": auc_model,
+        "auc_sheet": auc_sheet,
+        "auc_loss": auc_model - auc_sheet,
+        "auc_loss_ci": list(ci),
+        "bootstrap_replicates": replicates,
+        **_risk_errors(diff, float(bound["max_risk_error"])),
+        "calibration_intercept": cal_a,
+        "calibration_slope": cal_b,
+        "brier_basis": basis,
+        "brier_model": figures.brier(model_risk[known], y[known]) if has_outcomes else figures.expected_brier(model_risk, model_risk),
+        "brier_sheet": figures.brier(scored.risk[known], y[known]) if has_outcomes else figures.expected_brier(scored.risk, model_risk),
+    }
+    bands = _band_matrix(sheet, model_risk, scored)
+    agreement["band_agreement"] = None if bands is None else bands["agreement"]
+
+    inside = ~scored.outside_training
+    cert = sheet["certificate"]
+    lo_err = np.abs(sheet_lo - model_lo)
+    worst_inside = float(lo_err[inside].max()) if inside.any() else 0.0
+    by_total = {int(e["total"]): float(e["max_risk_error"]) for e in cert.get("risk_error_by_total", [])}
+    risk_limit = np.array([by_total.get(int(t), float(cert["max_risk_error"])) for t in range(int(scored.total.min()), int(scored.total.max()) + 1)])
+    over_chart = inside & (np.abs(diff) > risk_limit[scored.total - scored.total.min()] + _SLACK)
+
+    scale = sheet["scale"]
+    totals = np.array([c["total"] for c in sheet["conversion"]], dtype=float)
+    stated = np.array([c["risk"] for c in sheet["conversion"]], dtype=float)
+    conversion_error = float(np.max(np.abs(stated - logistic(scale["offset"] + scale["logodds_per_point"] * totals))))
+    most_rows = max((n for t in sheet["terms"] for n in _rows_per_block(t)), default=0)
+    share = agreement["share_over_risk_error"]
+    checks = [
+        _bound("model", "the model is the one the sheet was built from (fingerprint)", model.fingerprint,
+               sheet["model"]["fingerprint"], model_matches, "same fingerprint" if model_matches else "DIFFERENT model (overridden)"),
+        _bound("conversion", "conversion risks equal logistic(offset + log-odds per point x total)", conversion_error,
+               1e-12, conversion_error <= 1e-12, f"largest difference {conversion_error:.1e}"),
+        _bound("auc_loss", f"AUC loss (model - sheet, {basis}) at most the bound", agreement["auc_loss"],
+               bound["max_auc_loss"], agreement["auc_loss"] <= bound["max_auc_loss"] + _SLACK,
+               f"{agreement['auc_loss']:.4f} (95% CI {ci[0]:.4f} to {ci[1]:.4f}) vs {bound['max_auc_loss']:.4f}"),
+        _bound("risk_error_share", f"share of patients with |risk difference| > {bound['max_risk_error'] * 100:g} points",
+               share, bound["risk_error_share"], share <= bound["risk_error_share"] + _SLACK,
+               f"{share:.2%} vs {bound['risk_error_share']:.2%}"),
+        _bound("certificate_logodds", "no patient inside the training ranges is further from the model than the certificate (log-odds)",
+               worst_inside, cert["max_logodds_error"], worst_inside <= float(cert["max_logodds_error"]) + _SLACK,
+               f"worst {worst_inside:.4f} vs {float(cert['max_logodds_error']):.4f} ({int(inside.sum())} patients inside)"),
+        _bound("certificate_risk", "no patient inside the training ranges exceeds the certificate's risk error at their total",
+               int(over_chart.sum()), 0, not over_chart.any(), f"{int(over_chart.sum())} patients over"),
+        _bound("rows", "printed rows per block at most the bound", most_rows, bound["max_rows"],
+               most_rows <= bound["max_rows"], f"{most_rows} vs {bound['max_rows']}"),
+        _bound("total_points", "largest total at most the bound", int(sheet["total"]["max"]), bound["max_total_points"],
+               int(sheet["total"]["max"]) <= bound["max_total_points"], f"{sheet['total']['max']} vs {bound['max_total_points']}"),
+    ]
+    magnitude = float(np.ceil(np.abs(diff).max() * 1000) / 10) or 0.1  # percentage points, to 0.1
+    counts, edges = np.histogram(diff * 100, bins=HISTOGRAM_BINS, range=(-magnitude, magnitude))
+    say("writing the report")
+    from scorecard.sheet import short_fingerprint
+
+    return {
+        "document": REPORT_TAG,
+        "format_version": 1,
+        "passed": all(c["pass"] for c in checks),
+        "sheet": {"title": sheet["title"], "fingerprint": sheet.get("fingerprint", ""), "short_fingerprint": short_fingerprint(sheet),
+                  "model_fingerprint": sheet["model"]["fingerprint"], "outcome": sheet["outcome"]},
+        "model": {"name": model.name, "version": model.version, "fingerprint": model.fingerprint, "matches_sheet": model_matches},
+        "cohort": {"source": source_of(frame), "n": int(len(frame)), "outcome_column": outcome,
+                   "outside_training": int(scored.outside_training.sum())},
+        "bounds": checks,
+        "agreement": agreement,
+        "band_matrix": bands,
+        "against_outcomes": _against_outcomes(y, model_lo, model_risk, scored, sheet_lo) if has_outcomes else None,
+        "certificate": {"max_logodds_error": float(cert["max_logodds_error"]), "worst_inside": worst_inside,
+                        "patients_inside": int(inside.sum()), "over_risk_chart": int(over_chart.sum())},
+        "stored_achieved": sheet.get("achieved"),
+        "histogram": {"unit": "percentage points (sheet risk - model risk)", "edges": edges.tolist(), "counts": counts.tolist()},
+        "largest": _largest(sheet, model, frame, scored, parts, model_risk, diff, TOP_PATIENTS),
+        "warnings": list(scored.warnings),
+        "notes": list(scored.notes) + [f"model: {line}" for line in model_report.lines()],
+    }

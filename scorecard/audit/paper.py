@@ -1,0 +1,333 @@
+"""Scoring patients exactly as a person reads the printed sheet.
+
+Everything here is recomputed from the sheet document alone (never from the quantizer's internals), so the
+audit can catch a quantizer or renderer that drifts from what is printed:
+
+- a measurement is rounded half up to the decimals printed for its block (`round_half_up_units`);
+- it then belongs to the printed row with lower <= value < upper (compared in whole display units, so a cut
+  such as 37.5 is an integer comparison, never a float one);
+- a level is found in the row listing it; a flag in its Yes/No row; "not measured" in its own row;
+- pair grids are read at (row of the first feature, column of the second);
+- the points are added and the total is looked up in the conversion table.
+
+Per term, every patient gets the index of one *choice* (a printed row, a grid cell, or "no row"), and each
+choice knows its printed text and points, so the whole cohort is scored with array lookups.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass, field
+
+import numpy as np
+import pandas as pd
+
+from scorecard.errors import UserError
+from scorecard.tabular import category_column, flag_column, numeric_column, require_columns, source_of
+
+NO_ROW_TEXT = "not measured (no row on the sheet: 0 points)"
+NOT_LISTED_TEXT = "not listed (no row on the sheet: 0 points)"
+
+# A tie written in decimal (2.675 at 2 places) is stored in binary as 267.4999999999999716 after scaling;
+# values within this many relative machine epsilons of a tie are treated as the tie. This is exact for any
+# measurement written with at most ~12 significant digits (see tests/audit/test_paper_rounding.py).
+_TIE_EPS = 64 * np.finfo(float).eps
+
+
+def round_half_up_units(values: np.ndarray, decimals: int) -> np.ndarray:
+    """Each measurement rounded half up (towards +infinity on a tie) to `decimals` places, in whole units
+    of 10**-decimals, as floats (NaN stays NaN).
+
+    Computes floor(x * 10**decimals + 0.5) where x is the decimal number the measurement was written as:
+    the binary error of the scaling is a few units in the last place, so a scaled value that lies within
+    `_TIE_EPS` (relative) of a tie is taken to be the tie. The rule is the one printed on every sheet
+    (docs/sheet-document.md) and the way a person rounds on paper (common practice: 36.45 -> 36.5).
+    """
+    x = np.asarray(values, dtype=float)
+    z = x * (10.0**decimals) + 0.5
+    nearest = np.rint(z)
+    tie = np.abs(z - nearest) <= _TIE_EPS * np.maximum(1.0, np.abs(z))
+    return np.where(tie, nearest, np.floor(z))
+
+
+def _cut_units(value: float, decimals: int) -> float:
+    """A printed cut (a multiple of 10**-decimals) in whole display units."""
+    return float(np.rint(value * 10.0**decimals))
+
+
+@dataclass
+class TermChoices:
+    """One printed block: the choices a reader can land on and which one each patient landed on."""
+
+    name: str
+    label: str
+    features: list[str]
+    texts: list[str]  # printed text of each choice
+    points: np.ndarray  # points of each choice (int64)
+    index: np.ndarray  # per patient: index into texts/points
+
+    def patient_points(self) -> np.ndarray:
+        return self.points[self.index]
+
+
+@dataclass
+class ScoredCohort:
+    """The sheet applied to a cohort: per-term choices, totals and the risk read from the conversion table."""
+
+    terms: list[TermChoices]
+    total: np.ndarray  # int64
+    risk: np.ndarray  # the conversion table's risk for each total
+    risk_text: np.ndarray  # object array of printed risk texts
+    band: np.ndarray | None  # band index per patient, None when the sheet has no bands
+    notes: list[str] = field(default_factory=list)
+    warnings: list[str] = field(default_factory=list)
+    outside_training: np.ndarray | None = None  # per patient: any measurement outside a training range
+
+    @property
+    def n(self) -> int:
+        return len(self.total)
+
+
+def sheet_logodds(sheet: dict, total: np.ndarray) -> np.ndarray:
+    """offset + logodds_per_point * total, the sheet's log-odds for a total (docs/sheet-document.md)."""
+    scale = sheet["scale"]
+    return float(scale["offset"]) + float(scale["logodds_per_point"]) * np.asarray(total, dtype=float)
+
+
+def sheet_features(sheet: dict) -> list[str]:
+    """The cohort columns the sheet needs, in print order."""
+    names: list[str] = []
+    for term in sheet["terms"]:
+        for name in term["features"] if term["kind"] == "pair" else [term["feature"]]:
+            if name not in names:
+                names.append(name)
+    return names
+
+
+def _feature_kinds(sheet: dict) -> dict[str, str]:
+    kinds: dict[str, str] = {}
+    for term in sheet["terms"]:
+        if term["kind"] == "pair":
+            for axis in term["axes"]:
+                kinds.setdefault(axis["feature"], axis["kind"])
+        else:
+            kinds.setdefault(term["feature"], term["kind"])
+    return kinds
+
+
+def parse_cohort(sheet: dict, frame: pd.DataFrame) -> dict[str, np.ndarray]:
+    """Parse each column the sheet needs once: floats (NaN = not measured), flags as 1/0/NaN, levels/None."""
+    require_columns(frame, sheet_features(sheet), what="the sheet")
+    values = {}
+    for name, kind in _feature_kinds(sheet).items():
+        if kind == "continuous":
+            values[name] = numeric_column(frame, name)
+        elif kind == "flag":
+            values[name] = flag_column(frame, name)
+        else:
+            values[name] = category_column(frame, name)
+    return values
+
+
+# -- one block per kind ------------------------------------------------------------------------------
+
+
+def _continuous_choice(rows: list[dict], decimals: int, x: np.ndarray, where: str) -> tuple[np.ndarray, int | None]:
+    """Index (into `rows`) of each patient's row; NaN gets the missing row, or -1 when there is none."""
+    ranged = [i for i, r in enumerate(rows) if not r.get("missing")]
+    if not ranged:
+        raise UserError(f"{where}: has no measured rows; the sheet is incomplete, rebuild it with `scorecard quantize`")
+    lows = [rows[i]["lower"] for i in ranged]
+    ranged = [i for _, i in sorted(zip([-np.inf if v is None else v for v in lows], ranged))]
+    cuts = np.array([_cut_units(rows[i]["lower"], decimals) for i in ranged[1:]], dtype=float)
+    v = round_half_up_units(x, decimals)
+    pos = np.searchsorted(cuts, np.where(np.isnan(v), 0.0, v), side="right")
+    idx = np.asarray(ranged, dtype=np.int64)[pos]
+    missing_row = next((i for i, r in enumerate(rows) if r.get("missing")), None)
+    return np.where(np.isnan(x), -1 if missing_row is None else missing_row, idx), missing_row
+
+
+def _flag_choice(rows: list[dict], x: np.ndarray) -> np.ndarray:
+    yes = next((i for i, r in enumerate(rows) if r.get("value") is True), -1)
+    no = next((i for i, r in enumerate(rows) if r.get("value") is False), -1)
+    missing_row = next((i for i, r in enumerate(rows) if r.get("missing")), -1)
+    return np.where(np.isnan(x), missing_row, np.where(x == 1.0, yes, no)).astype(np.int64)
+
+
+def _level_lookup(rows: list[dict]) -> dict[str, int]:
+    lookup = {}
+    for i, r in enumerate(rows):
+        for level in r.get("levels", []):
+            lookup[level] = i
+    return lookup
+
+
+def _category_choice(rows: list[dict], values: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
+    """Index of each level's row; -1 not measured, -2 a level listed in no row."""
+    lookup = _level_lookup(rows)
+    series = pd.Series(values, dtype=object)
+    idx = series.map(lookup)
+    missing = series.isna().to_numpy()
+    unseen = idx.isna().to_numpy() & ~missing
+    out = idx.fillna(-1).to_numpy(dtype=np.int64)
+    out[unseen] = -2
+    return out, unseen
+
+
+def _with_no_row(texts: list[str], points: list[int], idx: np.ndarray, code: int, text: str) -> np.ndarray:
+    """Give patients with index `code` (no printed row applies) a 0-point choice named `text`."""
+    hit = idx == code
+    if not hit.any():
+        return idx
+    texts.append(text)
+    points.append(0)
+    return np.where(hit, len(texts) - 1, idx)
+
+
+def _single_term(term: dict, x: np.ndarray, source: str, report: ScoredCohort) -> TermChoices:
+    rows = term["rows"]
+    texts = [r["text"] for r in rows]
+    points = [int(r["points"]) for r in rows]
+    name = term["feature"]
+    if term["kind"] == "continuous":
+        idx, _ = _continuous_choice(rows, int(term["decimals"]), x, f"term {term['name']!r}")
+    elif term["kind"] == "flag":
+        idx = _flag_choice(rows, x)
+    else:
+        idx, unseen = _category_choice(rows, x)
+        missing_row = next((i for i, r in enumerate(rows) if r.get("missing")), None)
+        if missing_row is not None:
+            idx = np.where(idx == -1, missing_row, idx)
+        if unseen.any():
+            levels = pd.Series(x[unseen]).value_counts().sort_index()
+            listed = ", ".join(f"{lv!r} x{c}" for lv, c in levels.items())
+            policy = term.get("unseen", "error")
+            if policy == "error":
+                row = int(np.flatnonzero(unseen)[0])
+                known = ", ".join(lv for r in rows for lv in r.get("levels", []))
+                raise UserError(
+                    f"{source}: row {row + 1}, column {name!r}: level {x[row]!r} is on no row of the sheet ({known}); "
+                    "correct the spelling, or score the patient by hand with local guidance"
+                )
+            target = next((i for i, r in enumerate(rows) if r.get("other" if policy == "other" else "missing")), None)
+            if target is not None:
+                idx = np.where(idx == -2, target, idx)
+                report.notes.append(f"{name}: levels on no row of the sheet, scored in the {rows[target]['text']!r} row: {listed}")
+            else:
+                report.notes.append(f"{name}: levels on no row of the sheet, scored 0 points: {listed}")
+            idx = _with_no_row(texts, points, idx, -2, NOT_LISTED_TEXT)
+    if (idx == -1).any():
+        report.notes.append(f"{name}: {int((idx == -1).sum())} not measured and the sheet has no not-measured row (0 points)")
+    idx = _with_no_row(texts, points, idx, -1, NO_ROW_TEXT)
+    return TermChoices(term["name"], term["label"], [name], texts, np.asarray(points, dtype=np.int64), idx)
+
+
+def _axis_choice(axis: dict, x: np.ndarray) -> np.ndarray:
+    """Index of each patient's axis row; -1 when not measured or on no row (the grid's not-measured points)."""
+    rows = axis["rows"]
+    if axis["kind"] == "continuous":
+        idx, _ = _continuous_choice(rows, int(axis["decimals"]), x, f"pair axis {axis['feature']!r}")
+        return idx
+    if axis["kind"] == "flag":
+        return _flag_choice(rows, x)
+    idx, _ = _category_choice(rows, x)
+    return np.where(idx < 0, -1, idx)
+
+
+def _pair_term(term: dict, values: dict[str, np.ndarray]) -> TermChoices:
+    a0, a1 = term["axes"]
+    i = _axis_choice(a0, values[a0["feature"]])
+    j = _axis_choice(a1, values[a1["feature"]])
+    grid = np.asarray(term["points"], dtype=np.int64)
+    n0, n1 = len(a0["rows"]), len(a1["rows"])
+    if grid.shape != (n0, n1):
+        raise UserError(f"term {term['name']!r}: points grid is {grid.shape[0]}x{grid.shape[1]} but the axes have {n0}x{n1} rows")
+    texts = [f"{r0['text']} / {r1['text']}" for r0 in a0["rows"] for r1 in a1["rows"]] + ["not measured"]
+    points = np.append(grid.reshape(-1), int(term["missing_points"]))
+    missing = (i < 0) | (j < 0)
+    idx = np.where(missing, n0 * n1, np.clip(i, 0, None) * n1 + np.clip(j, 0, None))
+    return TermChoices(term["name"], term["label"], list(term["features"]), texts, points, idx.astype(np.int64))
+
+
+# -- the whole sheet ---------------------------------------------------------------------------------
+
+
+def conversion_arrays(sheet: dict) -> tuple[int, np.ndarray, np.ndarray]:
+    """(lowest total, risk per total, printed text per total) from the conversion table, checked contiguous."""
+    table = sorted(sheet["conversion"], key=lambda c: c["total"])
+    first = int(table[0]["total"])
+    for k, c in enumerate(table):
+        if int(c["total"]) != first + k:
+            raise UserError(f"sheet conversion: total {first + k} is missing from the table; rebuild the sheet")
+    risk = np.array([float(c["risk"]) for c in table])
+    text = np.array([c["text"] for c in table], dtype=object)
+    return first, risk, text
+
+
+def band_index(sheet: dict, risk: np.ndarray) -> np.ndarray | None:
+    """Band of each risk: previous upper_risk <= risk < upper_risk (docs/sheet-document.md)."""
+    bands = sheet.get("bands") or []
+    if not bands:
+        return None
+    uppers = np.array([np.inf if b["upper_risk"] is None else float(b["upper_risk"]) for b in bands])
+    return np.minimum(np.searchsorted(uppers, risk, side="right"), len(bands) - 1)
+
+
+def units_warnings(sheet: dict, values: dict[str, np.ndarray], share: float = 0.5) -> tuple[list[str], np.ndarray]:
+    """Loud warnings when most values of a feature lie outside its training range (wrong units suspected),
+    and the per-patient mask of any measurement outside a training range."""
+    warnings = []
+    n = len(next(iter(values.values()))) if values else 0
+    outside_any = np.zeros(n, dtype=bool)
+    seen = set()
+    blocks = []
+    for term in sheet["terms"]:
+        blocks += [a for a in term["axes"] if a["kind"] == "continuous"] if term["kind"] == "pair" else (
+            [term] if term["kind"] == "continuous" else [])
+    for block in blocks:
+        name = block["feature"]
+        rng = block.get("training_range")
+        if name in seen or not rng:
+            continue
+        seen.add(name)
+        x = values[name]
+        measured = ~np.isnan(x)
+        with np.errstate(invalid="ignore"):
+            outside = measured & ((x < rng["min"]) | (x > rng["max"]))
+        outside_any |= outside
+        if measured.sum() and outside.sum() > share * measured.sum():
+            unit = block.get("unit", "")
+            warnings.append(
+                f"WARNING: {outside.sum() / measured.sum():.0%} of {name!r} values lie outside the training range "
+                f"{rng['min']:g} to {rng['max']:g} {unit}: wrong units suspected; the sheet expects {unit or 'the training units'}"
+            )
+    return warnings, outside_any
+
+
+def score_cohort(sheet: dict, frame: pd.DataFrame) -> ScoredCohort:
+    """Apply the printed sheet to every patient in `frame` (one row per patient)."""
+    source = source_of(frame)
+    values = parse_cohort(sheet, frame)
+    scored = ScoredCohort(terms=[], total=np.zeros(len(frame), dtype=np.int64), risk=np.empty(0), risk_text=np.empty(0), band=None)
+    scored.warnings, scored.outside_training = units_warnings(sheet, values)
+    total = np.zeros(len(frame), dtype=np.int64)
+    for term in sheet["terms"]:
+        if term["kind"] == "pair":
+            choices = _pair_term(term, values)
+        else:
+            choices = _single_term(term, values[term["feature"]], source, scored)
+        scored.terms.append(choices)
+        total += choices.patient_points()
+    first, risk, text = conversion_arrays(sheet)
+    pos = total - first
+    bad = (pos < 0) | (pos >= len(risk))
+    if bad.any():
+        row = int(np.flatnonzero(bad)[0])
+        raise UserError(
+            f"{source}: row {row + 1}: total {total[row]} is not in the sheet's conversion table "
+            f"({first} to {first + len(risk) - 1}); the sheet is inconsistent, rebuild it with `scorecard quantize`"
+        )
+    scored.total = total
+    scored.risk = risk[pos]
+    scored.risk_text = text[pos]
+    scored.band = band_index(sheet, scored.risk)
+    return scored

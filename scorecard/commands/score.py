@@ -1,0 +1,65 @@
+"""`scorecard score`: apply the printed sheet to every patient, exactly as a person scores on paper."""
+
+from __future__ import annotations
+
+import click
+
+from scorecard.audit.matching import OVERRIDE_OPTION, model_matches_sheet
+from scorecard.audit.paper import score_cohort
+from scorecard.audit.table import csv_text, scored_columns
+from scorecard.commands._common import output_path, say
+from scorecard.errors import UserError
+from scorecard.jsondoc import atomic_write_text
+from scorecard.model import load_model, predict_logodds, logistic
+from scorecard.sheet import load_sheet
+from scorecard.tabular import read_csv
+
+
+@click.command()
+@click.argument("sheet_path", metavar="SHEET.json", type=click.Path(dir_okay=False))
+@click.argument("cohort_path", metavar="COHORT.csv", type=click.Path(dir_okay=False))
+@click.option("-o", "--output", required=True, type=click.Path(dir_okay=False), help="CSV to write (one row per patient, cohort order).")
+@click.option("--model", "model_path", type=click.Path(dir_okay=False), metavar="MODEL.json",
+              help="Also write the exact model's risk and the difference sheet - model. Must be the sheet's own model.")
+@click.option("--keep", multiple=True, metavar="COLUMN", help="Copy this cohort column into the output (e.g. a patient id); repeatable.")
+@click.option(OVERRIDE_OPTION, "allow_other", is_flag=True, help="Accept a model whose fingerprint differs from the sheet's (warns loudly).")
+def command(sheet_path: str, cohort_path: str, output: str, model_path: str | None, keep: tuple[str, ...], allow_other: bool) -> None:
+    """Score every patient in COHORT.csv with the printed sheet SHEET.json, the way a nurse does on paper.
+
+    \b
+    For each block of the sheet:
+      - a measurement is rounded half up to the decimals printed for it (36.45 at one decimal is 36.5),
+        then it belongs to the printed row with lower <= value < upper;
+      - a category finds the row listing it, a yes/no item its Yes or No row, an empty cell the
+        "not measured" row (0 points when the sheet has none);
+      - a pair grid is read at the row of the first item and the column of the second.
+    The points are added and the total is looked up in the conversion table.
+
+    Writes, per patient: `row:<term>` (the printed row text) and `points:<term>` for every block, `total`,
+    `sheet_risk` (fraction) and `sheet_risk_text` (as printed), `band` when the sheet has bands, and with
+    --model also `model_risk` and `risk_difference`. Values outside a training range are scored in the end
+    row; when most values of an item are outside, a loud warning suggests wrong units.
+    """
+    out = output_path(output, sheet_path, cohort_path, model_path or "")
+    sheet = load_sheet(sheet_path)
+    cohort = read_csv(cohort_path)
+    for name in keep:
+        if name not in cohort.columns:
+            raise UserError(f"{cohort_path}: --keep column {name!r} is not in the file")
+    model_risk = None
+    if model_path:
+        model = load_model(model_path)
+        model_matches_sheet(model, sheet, model_path, allow_other, say)
+    if len(cohort) > 100_000:
+        say(f"scoring {len(cohort)} patients")
+    scored = score_cohort(sheet, cohort)
+    if model_path:
+        logodds, _ = predict_logodds(model, cohort)
+        model_risk = logistic(logodds)
+    for line in scored.warnings:
+        say(line)
+    for line in scored.notes:
+        say(f"note: {line}")
+    columns = scored_columns(scored, sheet, cohort[list(keep)] if keep else None, model_risk)
+    atomic_write_text(out, csv_text(columns), protect=(sheet_path, cohort_path) + ((model_path,) if model_path else ()))
+    say(f"wrote {scored.n} scored patients to {out}")
