@@ -86,8 +86,11 @@ def atomic_write_text(path: str | os.PathLike, text: str, protect: tuple[str | o
     atomic_write_bytes(path, text.encode("utf-8"), protect=protect)
 
 
-def read_json_file(path: str | os.PathLike, what: str) -> Any:
-    """Parse a JSON file, turning every failure into one line naming the file."""
+def read_json_file(path: str | os.PathLike, what: str, allow_nonfinite: bool = False) -> Any:
+    """Parse a JSON file, turning every failure into one line naming the file.
+
+    With `allow_nonfinite`, NaN/Infinity are read as floats so the caller's validation can name the field.
+    """
     p = Path(path)
     try:
         raw = p.read_bytes()
@@ -100,7 +103,7 @@ def read_json_file(path: str | os.PathLike, what: str) -> Any:
     if not raw.strip():
         raise UserError(f"{p}: file is empty; expected a {what}")
     try:
-        return json.loads(raw.decode("utf-8"), parse_constant=_refuse_constant)
+        return json.loads(raw.decode("utf-8"), parse_constant=float if allow_nonfinite else _refuse_constant)
     except UnicodeDecodeError:
         raise UserError(f"{p}: not UTF-8 text; expected a {what} (JSON)") from None
     except json.JSONDecodeError as exc:

@@ -174,17 +174,35 @@ def validate_model_dict(doc: Any, source: str = "model") -> None:
     errors = list(_validator().iter_errors(doc))
     if errors:
         raise UserError(f"{source}: {_schema_error_text(_best_error(errors))}")
-    problem = _check_structure(doc)
+    problem = _first_nonfinite(doc, []) or _check_structure(doc)
     if problem:
         raise UserError(f"{source}: {problem}")
 
 
+def _first_nonfinite(value: Any, parts: list) -> str | None:
+    """Path of the first NaN or infinite number anywhere in the document (JSON reads 1e999 as inf)."""
+    if isinstance(value, float) and not math.isfinite(value):
+        return f"{_path(parts)}: must be a finite number, found {value}"
+    if isinstance(value, dict):
+        for k in sorted(value):
+            found = _first_nonfinite(value[k], parts + [k])
+            if found:
+                return found
+    if isinstance(value, list):
+        for i, v in enumerate(value):
+            found = _first_nonfinite(v, parts + [i])
+            if found:
+                return found
+    return None
+
+
 def _finite(values, where: str) -> str | None:
-    flat = values
-    if values and isinstance(values[0], list):
-        flat = [v for row in values for v in row]
-    for i, v in enumerate(flat):
-        if not math.isfinite(v):
+    for i, v in enumerate(values):
+        if isinstance(v, list):
+            bad = _finite(v, f"{where}[{i}]")
+            if bad:
+                return bad
+        elif not math.isfinite(v):
             return f"{where}[{i}]: must be a finite number"
     return None
 
@@ -325,12 +343,22 @@ def model_from_dict(doc: Any, source: str = "model") -> AdditiveModel:
     """Validate then build; never returns a half-built model."""
     validate_model_dict(doc, source)
     doc = copy.deepcopy(doc)
-    features = [Feature(**f) for f in doc["features"]]
+    features = []
+    for f in doc["features"]:
+        if f.get("training_range"):
+            f["training_range"] = {k: float(v) for k, v in f["training_range"].items()}
+        features.append(Feature(**f))
     terms = []
     for t in doc["terms"]:
         t = dict(t)
         if t["kind"] == "continuous":
             t.setdefault("edges", [])
+        # numbers are floats in memory, so `60` and `60.0` in a file give the same canonical form and fingerprint
+        for key in ("edges", "scores", "spread", "counts", "missing_score", "missing_count"):
+            if t.get(key) is not None:
+                t[key] = _floats(t[key])
+        if t.get("axes"):
+            t["axes"] = [{**a, "edges": _floats(a["edges"])} if "edges" in a else a for a in t["axes"]]
         terms.append(Term(**t))
     return AdditiveModel(
         name=doc["name"],
@@ -344,8 +372,14 @@ def model_from_dict(doc: Any, source: str = "model") -> AdditiveModel:
     )
 
 
+def _floats(value):
+    if isinstance(value, list):
+        return [_floats(v) for v in value]
+    return float(value)
+
+
 def load_model(path: str | Path) -> AdditiveModel:
-    doc = read_json_file(path, "model document (*.model.json)")
+    doc = read_json_file(path, "model document (*.model.json)", allow_nonfinite=True)
     return model_from_dict(doc, source=str(path))
 
 

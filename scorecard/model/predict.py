@@ -167,6 +167,8 @@ class _Evaluator:
         for name, axis in zip(term.features, term.axes):
             feature = self.model.feature(name)
             b = axis_bins(axis, feature, self.values[name])
+            if feature.missing == "error" and (b == -1).any():
+                self.missing_contribution(term, feature, b == -1)  # raises, naming the first row
             if feature.kind == "categorical":
                 b = np.where(b == -2, -1, b)  # a level without a column of the grid adds nothing
             missing |= b < 0
