@@ -168,7 +168,7 @@ def _category_choice(rows: list[dict], values: np.ndarray) -> tuple[np.ndarray, 
     idx = series.map(lookup)
     missing = series.isna().to_numpy()
     unseen = idx.isna().to_numpy() & ~missing
-    out = idx.fillna(-1).to_numpy(dtype=np.int64)
+    out = np.array(idx.fillna(-1).to_numpy(dtype=np.int64), copy=True)
     out[unseen] = -2
     return out, unseen
 

@@ -1,0 +1,78 @@
+"""`scorecard check`: the agreement report between a printed sheet and its exact model on a cohort."""
+
+from __future__ import annotations
+
+import click
+
+from scorecard.audit.agreement import check_agreement
+from scorecard.audit.matching import OVERRIDE_OPTION, model_matches_sheet
+from scorecard.audit.report_pdf import report_pdf_bytes
+from scorecard.commands._common import output_path, say
+from scorecard.errors import CheckFailed, UserError
+from scorecard.jsondoc import atomic_write_bytes, atomic_write_text, pretty_text
+from scorecard.model import load_model
+from scorecard.sheet import CAUTIONS, load_sheet
+from scorecard.tabular import read_csv
+
+
+@click.command()
+@click.argument("sheet_path", metavar="SHEET.json", type=click.Path(dir_okay=False))
+@click.option("--model", "model_path", required=True, type=click.Path(dir_okay=False), metavar="MODEL.json",
+              help="The exact model the sheet was built from (its fingerprint must match the sheet's).")
+@click.option("--data", "cohort_path", required=True, type=click.Path(dir_okay=False), metavar="COHORT.csv",
+              help="Patients to compare on: one row each, the columns the sheet needs (and the outcome, if known).")
+@click.option("-o", "--output", required=True, type=click.Path(dir_okay=False), metavar="REPORT.pdf", help="The report PDF to write.")
+@click.option("--json", "json_path", type=click.Path(dir_okay=False), metavar="REPORT.json", help="Also write every figure as JSON.")
+@click.option("--outcome", metavar="COLUMN",
+              help="Cohort column with the observed outcome (1/0, yes/no). Default: the sheet's outcome name if the cohort has such a column.")
+@click.option("--bootstrap", "replicates", default=200, show_default=True, type=click.IntRange(20, 10_000),
+              help="Bootstrap resamples for the interval of the AUC loss.")
+@click.option("--seed", default=0, show_default=True, type=int, help="Seed of the bootstrap (same seed, same report).")
+@click.option(OVERRIDE_OPTION, "allow_other", is_flag=True,
+              help="Compare with a model whose fingerprint differs from the sheet's: warns loudly and marks the report FAIL.")
+def command(sheet_path, model_path, cohort_path, output, json_path, outcome, replicates, seed, allow_other) -> None:
+    """Check that the paper sheet SHEET.json agrees with its exact model on a cohort, and write the report.
+
+    \b
+    Every figure is recomputed here from the sheet document (patients are scored as a person reads the
+    page, see `scorecard score`), never taken from the quantizer:
+      - AUC of model and sheet and the AUC loss with a bootstrap interval, against observed outcomes when
+        the cohort has them, otherwise against the outcomes the model's own risks imply;
+      - max, 99th percentile and mean |sheet risk - model risk|, and the share over the sheet's bound;
+      - calibration of the sheet against the model, Brier scores, and the risk-band agreement matrix;
+      - with observed outcomes: AUC, calibration and a calibration plot for both;
+      - a histogram of the risk differences, and the 20 patients who disagree most with their printed
+        rows and the model's term contributions, so you see which row causes it;
+      - each bound stored in the sheet, and the worst-case certificate, marked PASS or FAIL.
+
+    Exit 0 when every check passes, 3 when one fails (the report is written either way), 2 on bad input,
+    including a model that is not the one the sheet was built from.
+    """
+    out = output_path(output, sheet_path, model_path, cohort_path)
+    json_out = output_path(json_path, sheet_path, model_path, cohort_path) if json_path else None
+    if json_out is not None and json_out.resolve() == out.resolve():
+        raise UserError(f"{json_path}: --json and -o name the same file; choose two paths")
+    sheet = load_sheet(sheet_path)
+    model = load_model(model_path)
+    matches = model_matches_sheet(model, sheet, model_path, allow_other, say)
+    cohort = read_csv(cohort_path)
+    if outcome is None:
+        guess = sheet["outcome"]["event"].strip().lower().replace(" ", "_")
+        outcome = next((c for c in cohort.columns if c.lower() == guess), None)
+    elif outcome not in cohort.columns:
+        raise UserError(f"{cohort_path}: outcome column {outcome!r} (from --outcome) is not in the file")
+    report = check_agreement(sheet, model, cohort, outcome=outcome, replicates=replicates, seed=seed,
+                             model_matches=matches, progress=say if len(cohort) > 50_000 else None)
+    for line in report["warnings"]:
+        say(line)
+    inputs = (sheet_path, model_path, cohort_path)
+    atomic_write_bytes(out, report_pdf_bytes(report, sheet.get("cautions") or CAUTIONS), protect=inputs)
+    if json_out is not None:
+        atomic_write_text(json_out, pretty_text({**report, "cautions": sheet.get("cautions") or CAUTIONS}), protect=inputs)
+    a = report["agreement"]
+    say(f"AUC loss {a['auc_loss']:.4f} (95% CI {a['auc_loss_ci'][0]:.4f} to {a['auc_loss_ci'][1]:.4f}), "
+        f"max |risk difference| {a['max_abs_risk_error'] * 100:.2f} points; report written to {out}")
+    failed = [b for b in report["bounds"] if not b["pass"]]
+    if failed:
+        raise CheckFailed("; ".join(f"{b['name']}: {b['shown']}" for b in failed))
+    say("all checks pass")
