@@ -1,0 +1,291 @@
+"""The conversion from total points to risk: a table (every reachable total, in order), the same figures as a
+plotted curve (vector graphics, text kept as text), and the risk bands with the unit's own wording.
+Risks and their printed texts are the sheet's `conversion` entries; band membership uses the shared rule.
+"""
+
+from __future__ import annotations
+
+import math
+
+from reportlab.graphics.shapes import Circle, Drawing, Line, PolyLine, Rect, String
+from reportlab.lib import colors
+from reportlab.platypus import Flowable, KeepTogether, Paragraph, Spacer, Table, TableStyle
+
+from scorecard.render.fonts import BOLD, REGULAR, text_width
+from scorecard.render.styles import Styles
+from scorecard.render.text import markup, total_text
+from scorecard.sheet.printed import band_of
+
+BAND_TINTS = [colors.white, colors.Color(0.9, 0.9, 0.9), colors.Color(0.8, 0.8, 0.8), colors.Color(0.7, 0.7, 0.7)]
+PAD = 2.0
+BAND_GAP = 8.0
+
+
+def band_tint(index: int, n_bands: int) -> colors.Color:
+    """Lighter for lower bands; printable in black and white."""
+    if n_bands <= 1:
+        return colors.white
+    step = min(index, len(BAND_TINTS) - 1)
+    return BAND_TINTS[step]
+
+
+def row_bands(sheet: dict) -> list[int | None]:
+    bands = sheet.get("bands") or []
+    if not bands:
+        return [None] * len(sheet["conversion"])
+    return [band_of(bands, row["risk"]) for row in sheet["conversion"]]
+
+
+class ConversionTable(Flowable):
+    """Total | Risk | Band, in as many side-by-side groups as the width allows, read down then across.
+
+    When it does not fit the space left, it splits into two conversion tables (each read down then across),
+    so reading order survives a page break.
+    """
+
+    def __init__(self, sheet: dict, styles: Styles, rows: list[dict] | None = None, bands: list | None = None,
+                 continued: bool = False):
+        super().__init__()
+        self.sheet, self.styles = sheet, styles
+        self.rows = sheet["conversion"] if rows is None else rows
+        self.bands = row_bands(sheet) if bands is None else bands
+        self.band_names = [b["name"] for b in sheet.get("bands") or []]
+        self.continued = continued
+        self._table = None
+        self._groups = 1
+
+    def _column_widths(self) -> list[float]:
+        s = self.styles.body_pt
+        total_w = max(text_width("Total", s, bold=True), max(text_width(total_text(r["total"]), s, bold=True) for r in self.rows)) + 2 * PAD + 2
+        risk_w = max(text_width("Risk", s, bold=True), max(text_width(r["text"], s) for r in self.rows)) + 2 * PAD + 2
+        widths = [total_w, risk_w]
+        if self.band_names:
+            widths.append(max(text_width("Band", s, bold=True), max(text_width(n, s) for n in self.band_names)) + PAD + BAND_GAP + 2)
+        return widths
+
+    def _build(self, avail_width: float, rows_per_group: int | None = None) -> Table:
+        widths = self._column_widths()
+        group_w = sum(widths) + 6
+        n = len(self.rows)
+        groups = max(1, min(int(avail_width // group_w), math.ceil(n / 8)))
+        per = rows_per_group or math.ceil(n / groups)
+        groups = math.ceil(n / per)
+        self._groups = groups
+        scale = min(1.6, avail_width / (group_w * groups))
+        col_widths = [w * scale for w in widths] * groups
+        s = self.styles
+        header = []
+        for _ in range(groups):
+            header += [Paragraph("<b>Total</b>", s.body_right), Paragraph("<b>Risk</b>", s.body_right)]
+            if self.band_names:
+                header.append(Paragraph("<b>Band</b>", s.body))
+        data = [header]
+        commands = [
+            ("VALIGN", (0, 0), (-1, -1), "MIDDLE"),
+            ("LEFTPADDING", (0, 0), (-1, -1), PAD), ("RIGHTPADDING", (0, 0), (-1, -1), PAD),
+            ("TOPPADDING", (0, 0), (-1, -1), 0.5), ("BOTTOMPADDING", (0, 0), (-1, -1), 1.0),
+            ("LINEBELOW", (0, 0), (-1, 0), 0.8, colors.black),
+            ("BOX", (0, 0), (-1, -1), 0.8, colors.black),
+        ]
+        k = len(widths)
+        if self.band_names:  # room between the risk figure and the band name, so they do not read as one
+            for g in range(groups):
+                commands.append(("LEFTPADDING", (g * k + 2, 0), (g * k + 2, -1), BAND_GAP))
+        for r in range(per):
+            line = []
+            for g in range(groups):
+                i = g * per + r
+                if i < n:
+                    row = self.rows[i]
+                    line += [Paragraph(f"<b>{total_text(row['total'])}</b>", s.body_right), Paragraph(markup(row["text"]), s.body_right)]
+                    if self.band_names:
+                        band = self.bands[i]
+                        line.append(Paragraph(markup(self.band_names[band]), s.body))
+                        commands.append(("BACKGROUND", (g * k, r + 1), (g * k + k - 1, r + 1), band_tint(band, len(self.band_names))))
+                else:
+                    line += [""] * k
+            data.append(line)
+        for g in range(1, groups):
+            commands.append(("LINEBEFORE", (g * k, 0), (g * k, -1), 1.2, colors.black))
+        for r in range(1, per):
+            commands.append(("LINEBELOW", (0, r), (-1, r), 0.25, colors.Color(0.6, 0.6, 0.6)))
+        table = Table(data, colWidths=col_widths, hAlign="LEFT", repeatRows=1)
+        table.setStyle(TableStyle(commands))
+        return table
+
+    def wrap(self, avail_width, avail_height):
+        self._table = self._build(avail_width)
+        self.width, self.height = self._table.wrap(avail_width, avail_height)
+        return self.width, self.height
+
+    def split(self, avail_width, avail_height):
+        table = self._build(avail_width)
+        _, height = table.wrap(avail_width, avail_height)
+        if height <= avail_height:
+            return [self]
+        row_h = max(table._rowHeights[1:] or [self.styles.body_pt * 1.5])
+        header_h = table._rowHeights[0]
+        per = int((avail_height - header_h - 2) // row_h)
+        if per < 3:
+            return []  # too little room here: start on the next frame
+        first = per * self._groups
+        if first >= len(self.rows):
+            return [self]
+        return [ConversionTable(self.sheet, self.styles, self.rows[:first], self.bands[:first], self.continued),
+                ConversionTable(self.sheet, self.styles, self.rows[first:], self.bands[first:], continued=True)]
+
+    def draw(self):
+        self._table.drawOn(self.canv, 0, 0)
+
+
+def conversion_table_block(sheet: dict, styles: Styles, compact: bool = False) -> list[Flowable]:
+    if compact:  # the outcome and horizon are in the page header just above
+        title = Paragraph("Total points \u2192 risk", styles.section)
+    else:
+        title = Paragraph("Total points \u2192 risk of " + markup(sheet["outcome"]["event"].rstrip(".").lower())
+                          + " " + markup(sheet["outcome"]["horizon"]), styles.section)
+    table = ConversionTable(sheet, styles)
+    table.tracked_as = "the conversion table"
+    return [KeepTogether([title, Spacer(1, 3), table]), Spacer(1, styles.body_pt * (0.5 if compact else 1))]
+
+
+def bands_block(sheet: dict, styles: Styles, width: float) -> list[Flowable]:
+    """Band | totals | risk | what the unit does (its own wording, or the placeholder asking it to)."""
+    bands = sheet.get("bands") or []
+    title = Paragraph("Risk bands and your unit's actions", styles.section)
+    if not bands:
+        note = Paragraph("This sheet sets no risk bands: act on the risk as your local protocol says.", styles.body)
+        return [KeepTogether([title, Spacer(1, 3), note]), Spacer(1, styles.body_pt)]
+    members = row_bands(sheet)
+    s = styles
+    data = [[Paragraph("<b>Band</b>", s.body), Paragraph("<b>Totals</b>", s.body), Paragraph("<b>Risk</b>", s.body),
+             Paragraph("<b>What to do (your unit's protocol)</b>", s.body)]]
+    commands = [
+        ("VALIGN", (0, 0), (-1, -1), "TOP"),
+        ("LEFTPADDING", (0, 0), (-1, -1), PAD), ("RIGHTPADDING", (0, 0), (-1, -1), PAD),
+        ("TOPPADDING", (0, 0), (-1, -1), 1.5), ("BOTTOMPADDING", (0, 0), (-1, -1), 2),
+        ("LINEBELOW", (0, 0), (-1, -1), 0.5, colors.black),
+        ("BOX", (0, 0), (-1, -1), 0.8, colors.black),
+    ]
+    plain = []
+    for b, band in enumerate(bands):
+        rows = [row for row, m in zip(sheet["conversion"], members) if m == b]
+        if rows:
+            totals = f"{total_text(rows[0]['total'])} to {total_text(rows[-1]['total'])}" if len(rows) > 1 else total_text(rows[0]["total"])
+            risks = f"{rows[0]['text']} to {rows[-1]['text']}" if len(rows) > 1 else rows[0]["text"]
+        else:
+            totals, risks = "no total reaches this band", ""
+        plain.append((band["name"], totals, risks))
+        data.append([Paragraph(f"<b>{markup(band['name'])}</b>", s.body), Paragraph(markup(totals), s.body),
+                     Paragraph(markup(risks), s.body), Paragraph(markup(band["wording"]), s.body)])
+        commands.append(("BACKGROUND", (0, b + 1), (-1, b + 1), band_tint(b, len(bands))))
+    def col_w(column: int, header: str) -> float:
+        texts = [entry[column] for entry in plain]
+        return max([text_width(header, s.body_pt, bold=True)] + [text_width(t, s.body_pt, bold=column == 0) for t in texts]) + 2 * PAD + 5
+
+    name_w, totals_w, risk_w = col_w(0, "Band"), col_w(1, "Totals"), col_w(2, "Risk")
+    rest = width - name_w - totals_w - risk_w
+    if rest < width * 0.3:  # narrow column (pocket card): let the figures wrap instead of the wording
+        name_w, totals_w, risk_w = width * 0.2, width * 0.17, width * 0.23
+        rest = width - name_w - totals_w - risk_w
+    table = Table(data, colWidths=[name_w, totals_w, risk_w, rest], hAlign="LEFT")
+    table.setStyle(TableStyle(commands))
+    table.tracked_as = "the risk bands"
+    return [KeepTogether([title, Spacer(1, 3), table]), Spacer(1, styles.body_pt)]
+
+
+def _nice_step(span: float, target: int) -> float:
+    raw = span / max(1, target)
+    for step in (1, 2, 5, 10, 20, 25, 50, 100):
+        if step >= raw:
+            return step
+    return 100
+
+
+class ConversionCurve(Flowable):
+    """Risk (%) against total points: one dot per reachable total, bands as shaded spans of totals."""
+
+    def __init__(self, sheet: dict, styles: Styles):
+        super().__init__()
+        self.sheet, self.styles = sheet, styles
+        self.drawing = None
+
+    def wrap(self, avail_width, avail_height):
+        self.width = avail_width
+        self.height = min(avail_width * 0.45, max(self.styles.body_pt * 16, avail_width * 0.3))
+        return self.width, self.height
+
+    def split(self, avail_width, avail_height):
+        return []
+
+    def draw(self):
+        self._make(self.width, self.height).drawOn(self.canv, 0, 0)
+
+    def _make(self, width: float, height: float) -> Drawing:
+        s = self.styles.min_pt
+        rows = self.sheet["conversion"]
+        totals = [r["total"] for r in rows]
+        risks = [r["risk"] * 100 for r in rows]
+        t_lo, t_hi = totals[0], totals[-1]
+        y_step = _nice_step(max(risks), 5)
+        y_top = min(100, y_step * math.ceil(max(risks) / y_step)) or y_step
+        left = text_width("100%", s) + s * 2.4
+        bottom = s * 3.2
+        top_pad = s * 2.4
+        plot_w = width - left - s
+        plot_h = height - bottom - top_pad
+        d = Drawing(width, height)
+
+        def x_of(total):
+            return left + (total - t_lo + 0.5) / (t_hi - t_lo + 1) * plot_w
+
+        def y_of(pct):
+            return bottom + pct / y_top * plot_h
+
+        bands = self.sheet.get("bands") or []
+        members = row_bands(self.sheet)
+        if bands:
+            for b, band in enumerate(bands):
+                inside = [t for t, m in zip(totals, members) if m == b]
+                if not inside:
+                    continue
+                x0, x1 = x_of(inside[0] - 0.5), x_of(inside[-1] + 0.5)
+                d.add(Rect(x0, bottom, x1 - x0, plot_h, fillColor=band_tint(b, len(bands)), strokeColor=None))
+                label = band["name"]
+                if text_width(label, s) < x1 - x0 - 2:
+                    d.add(String((x0 + x1) / 2, bottom + plot_h + s * 0.5, label, fontName=REGULAR, fontSize=s, textAnchor="middle"))
+        # axes and grid
+        d.add(Line(left, bottom, left + plot_w, bottom, strokeWidth=0.8))
+        d.add(Line(left, bottom, left, bottom + plot_h, strokeWidth=0.8))
+        pct = 0.0
+        while pct <= y_top + 1e-9:
+            y = y_of(pct)
+            d.add(Line(left - 3, y, left + plot_w, y, strokeWidth=0.25, strokeColor=colors.Color(0.5, 0.5, 0.5)))
+            d.add(String(left - 4, y - s * 0.35, f"{pct:g}%", fontName=REGULAR, fontSize=s, textAnchor="end"))
+            pct += y_step
+        label_w = max(text_width(total_text(t), s) for t in (t_lo, t_hi)) + s
+        x_step = 1
+        while plot_w / (t_hi - t_lo + 1) * x_step < label_w:
+            x_step = {1: 2, 2: 5, 5: 10}.get(x_step, x_step * 2)
+        for t in totals:
+            x = x_of(t)
+            d.add(Line(x, bottom, x, bottom - 2, strokeWidth=0.5))
+            if (t - t_lo) % x_step == 0:
+                d.add(String(x, bottom - s * 1.2, total_text(t), fontName=REGULAR, fontSize=s, textAnchor="middle"))
+        d.add(String(left + plot_w / 2, bottom - s * 2.6, "Total points", fontName=BOLD, fontSize=s, textAnchor="middle"))
+        d.add(String(0, bottom + plot_h + s * 1.0, "Risk", fontName=BOLD, fontSize=s, textAnchor="start"))
+        points = []
+        for t, r in zip(totals, risks):
+            points += [x_of(t), y_of(r)]
+        d.add(PolyLine(points, strokeWidth=1.0, strokeColor=colors.black))
+        radius = max(1.0, min(2.0, plot_w / (t_hi - t_lo + 1) / 4))
+        for t, r in zip(totals, risks):
+            d.add(Circle(x_of(t), y_of(r), radius, fillColor=colors.black, strokeColor=None))
+        return d
+
+
+def conversion_curve_block(sheet: dict, styles: Styles) -> list[Flowable]:
+    title = Paragraph("The same conversion as a curve (read the figures from the table)", styles.section)
+    curve = ConversionCurve(sheet, styles)
+    curve.tracked_as = "the conversion curve"
+    return [KeepTogether([title, Spacer(1, 3), curve]), Spacer(1, styles.body_pt)]

@@ -1,0 +1,297 @@
+"""Assemble the pages: a story of flowables per layout section, a header and footer on every page (title,
+outcome, horizon, population, model, fingerprint, print-date write-in, cautions, page x of y), and the checks
+that the layout's page limits hold. Page breaks and overflow come from platypus; this module only says which
+page template (number of columns) each section uses and reads back where things landed.
+"""
+
+from __future__ import annotations
+
+import io
+from dataclasses import dataclass, field
+
+from reportlab.lib import colors
+from reportlab.pdfgen.canvas import Canvas
+from reportlab.platypus import BaseDocTemplate, Flowable, Frame, NextPageTemplate, PageBreak, PageTemplate, Paragraph, Spacer
+
+from scorecard import __version__
+from scorecard.errors import UserError
+from scorecard.render.conversion import bands_block, conversion_curve_block, conversion_table_block
+from scorecard.render.fonts import REGULAR, text_width
+from scorecard.render.layout import Layout
+from scorecard.render.nomogram import nomogram_block
+from scorecard.render.styles import Styles, styles_for
+from scorecard.render.tables import (
+    cautions_block,
+    cautions_line,
+    instructions_block,
+    ranges_block,
+    term_block,
+    total_block,
+)
+from scorecard.render.text import markup, sheet_has_negative_points
+from scorecard.sheet.printed import number_text, units
+
+
+class _SectionStart(Flowable):
+    """Zero-size marker: records the page a section starts on."""
+
+    def __init__(self, index: int):
+        super().__init__()
+        self.section_start = index
+
+    def wrap(self, avail_width, avail_height):
+        return 0, 0
+
+    def draw(self):
+        pass
+
+
+@dataclass
+class _Placement:
+    section_pages: dict[int, int] = field(default_factory=dict)
+    placed: list[tuple[str, int]] = field(default_factory=list)
+    pages: int = 0
+
+
+class _SheetDoc(BaseDocTemplate):
+    def __init__(self, *args, placement: _Placement, **kwargs):
+        super().__init__(*args, **kwargs)
+        self.placement = placement
+
+    def afterFlowable(self, flowable):
+        what = getattr(flowable, "tracked_as", None)
+        if what:
+            self.placement.placed.append((what, self.page))
+        index = getattr(flowable, "section_start", None)
+        if index is not None:
+            self.placement.section_pages.setdefault(index, self.page)
+
+
+def training_range_texts(sheet: dict) -> list[str]:
+    """'Age 60–101 years' for each continuous term, at the decimals the sheet prints for it."""
+    out = []
+    for term in sheet["terms"]:
+        if term["kind"] == "continuous" and term.get("training_range"):
+            d = int(term["decimals"])
+            lo = number_text(units(term["training_range"]["min"], d), d)
+            hi = number_text(units(term["training_range"]["max"], d), d)
+            unit = f" {term['unit']}" if term.get("unit") else ""
+            out.append(f"{term['label']} {lo}\u2013{hi}{unit}")
+    return out
+
+
+class _Furniture:
+    """Header and footer drawn on every page, sized once per layout."""
+
+    def __init__(self, sheet: dict, layout: Layout, styles: Styles, short_fingerprint: str):
+        self.layout, self.styles = layout, styles
+        width, height = layout.page_size
+        m = layout.margins
+        self.x0, self.inner_w = m["left"], width - m["left"] - m["right"]
+        self.top, self.bottom = height - m["top"], m["bottom"]
+        outcome = sheet["outcome"]
+        model = sheet["model"]
+        self.title = Paragraph(markup(sheet["title"]), styles.title)
+        self.outcome = Paragraph(
+            f"<b>Outcome:</b> {markup(outcome['event'])}, {markup(outcome['horizon'])}. "
+            f"<b>For:</b> {markup(outcome['population'])}.", styles.small)
+        self.ident = f"Fingerprint {short_fingerprint} \u00b7 model {model['name']} version {model['version']}"
+        self.printed_label = "Printed on:"
+        self.cautions = Paragraph(markup(cautions_line(sheet, short_fingerprint)), styles.small)
+        s = styles.min_pt
+        self.line_h = s * 1.25
+        _, self.title_h = self.title.wrap(self.inner_w, height)
+        _, self.outcome_h = self.outcome.wrap(self.inner_w, height)
+        self.header_h = self.title_h + 2 + self.outcome_h + 3
+        _, self.cautions_h = self.cautions.wrap(self.inner_w, height)
+        self.page_label_w = text_width("Page 888 of 888", s)
+        ident_room = self.inner_w - self.page_label_w - s
+        self.ident_lines = _split_words(self.ident, s, ident_room)
+        self.print_w = text_width(self.printed_label, s) + 26 * s / 3
+        # identity, print-date field and page number share one line when they fit, else the field goes below
+        self.one_line = len(self.ident_lines) == 1 and (
+            text_width(self.ident, s) + self.print_w + self.page_label_w + 2 * s <= self.inner_w)
+        lines = 1 if self.one_line else max(len(self.ident_lines), 2)
+        self.footer_h = 3 + self.cautions_h + 2 + lines * self.line_h
+        self.gap = s * 0.8
+
+    @property
+    def body_top(self) -> float:
+        return self.top - self.header_h - self.gap
+
+    @property
+    def body_bottom(self) -> float:
+        return self.bottom + self.footer_h + self.gap
+
+    def draw(self, canv, doc) -> None:
+        canv.saveState()
+        y = self.top - self.title_h
+        self.title.drawOn(canv, self.x0, y)
+        y -= 2 + self.outcome_h
+        self.outcome.drawOn(canv, self.x0, y)
+        canv.setStrokeColor(colors.black)
+        canv.setLineWidth(0.6)
+        canv.line(self.x0, self.top - self.header_h, self.x0 + self.inner_w, self.top - self.header_h)
+        # footer: rule, cautions, identity lines (page x of y and the print-date field go on the right)
+        y = self.bottom + self.footer_h
+        canv.line(self.x0, y, self.x0 + self.inner_w, y)
+        y -= 3 + self.cautions_h
+        self.cautions.drawOn(canv, self.x0, y)
+        s = self.styles.min_pt
+        canv.setFont(REGULAR, s)
+        for i, line in enumerate(self.ident_lines):
+            canv.drawString(self.x0, y - 2 - (i + 1) * self.line_h + s * 0.25, line)
+        right = self.x0 + self.inner_w
+        base = y - 2 - self.line_h + s * 0.25
+        if self.one_line:
+            label_x, field_right, field_base = right - self.page_label_w - s - self.print_w, right - self.page_label_w - s, base
+        else:
+            label_x, field_right, field_base = right - self.print_w, right, base - self.line_h
+        canv.drawString(label_x, field_base, self.printed_label)
+        canv.setLineWidth(0.5)
+        canv.line(label_x + text_width(self.printed_label, s) + 2, field_base - 1.5, field_right, field_base - 1.5)
+        canv.restoreState()
+        self.page_number_at = (right, base)
+
+
+def _split_words(text: str, size: float, width: float) -> list[str]:
+    lines, current = [], ""
+    for word in text.split(" "):
+        trial = f"{current} {word}".strip()
+        if current and text_width(trial, size) > width:
+            lines.append(current)
+            current = word
+        else:
+            current = trial
+    return lines + [current]
+
+
+def _canvas_class(furniture: _Furniture):
+    """A canvas that holds its pages back until the end so every page can say 'page x of y'."""
+
+    class NumberedCanvas(Canvas):
+        def __init__(self, *args, **kwargs):
+            super().__init__(*args, **kwargs)
+            self._held = []
+
+        def showPage(self):
+            self._held.append(dict(self.__dict__))
+            self._startPage()
+
+        def save(self):
+            count = len(self._held)
+            for state in self._held:
+                self.__dict__.update(state)
+                right, base = furniture.page_number_at
+                self.setFont(REGULAR, furniture.styles.min_pt)
+                self.drawRightString(right, base, f"Page {self._pageNumber} of {count}")
+                Canvas.showPage(self)
+            Canvas.save(self)
+
+    return NumberedCanvas
+
+
+def _story(sheet: dict, layout: Layout, styles: Styles, short_fingerprint: str, furniture: _Furniture,
+           blank_before: set[int]) -> list[Flowable]:
+    signed = sheet_has_negative_points(sheet)
+    gap = styles.body_pt * 1.2
+    story: list[Flowable] = []
+    for index, section in enumerate(layout.sections):
+        width = (furniture.inner_w - gap * (section.columns - 1)) / section.columns
+        if index > 0:
+            story += [NextPageTemplate(f"cols-{section.columns}"), PageBreak()]
+        if index in blank_before:
+            story += [Paragraph("This side is left blank on purpose (two-sided printing).", styles.body),
+                      PageBreak()]
+        story.append(_SectionStart(index))
+        for part in section.parts:
+            if part == "instructions":
+                story.append(instructions_block(sheet, styles, layout.compact))
+            elif part == "terms":
+                story += [term_block(term, styles, signed, width) for term in sheet["terms"]]
+            elif part == "total":
+                story.append(total_block(styles, width))
+            elif part == "ranges":
+                story.append(ranges_block(sheet, styles, training_range_texts(sheet), layout.compact))
+            elif part == "conversion_table":
+                story += conversion_table_block(sheet, styles, layout.compact)
+            elif part == "conversion_curve":
+                story += conversion_curve_block(sheet, styles)
+            elif part == "bands":
+                story += bands_block(sheet, styles, width)
+            elif part == "cautions":
+                story.append(cautions_block(sheet, styles, short_fingerprint, width, layout.compact))
+            elif part == "nomogram":
+                story += nomogram_block(sheet, styles, signed)
+    return story
+
+
+def _build(sheet: dict, layout: Layout, styles: Styles, short_fingerprint: str, blank_before: set[int]) -> tuple[bytes, _Placement]:
+    furniture = _Furniture(sheet, layout, styles, short_fingerprint)
+    placement = _Placement()
+    buffer = io.BytesIO()
+    doc = _SheetDoc(
+        buffer, placement=placement, pagesize=layout.page_size, invariant=1,
+        leftMargin=layout.margins["left"], rightMargin=layout.margins["right"],
+        topMargin=layout.margins["top"], bottomMargin=layout.margins["bottom"],
+        title=sheet["title"], author="scorecard", subject=f"points sheet {short_fingerprint} ({layout.name})",
+        creator=f"scorecard {__version__}", keywords=f"sheet fingerprint {sheet.get('fingerprint', '')}",
+        producer=f"scorecard {__version__}",
+    )
+    gap = styles.body_pt * 1.2
+    templates = []
+    seen = set()
+    for section in layout.sections:
+        if section.columns in seen:
+            continue
+        seen.add(section.columns)
+        col_w = (furniture.inner_w - gap * (section.columns - 1)) / section.columns
+        frames = [Frame(furniture.x0 + i * (col_w + gap), furniture.body_bottom, col_w, furniture.body_top - furniture.body_bottom,
+                        leftPadding=0, rightPadding=0, topPadding=0, bottomPadding=0, id=f"c{section.columns}-{i}")
+                  for i in range(section.columns)]
+        templates.append(PageTemplate(id=f"cols-{section.columns}", frames=frames, onPage=furniture.draw))
+    doc.addPageTemplates(templates)
+    story = _story(sheet, layout, styles, short_fingerprint, furniture, blank_before)
+    doc.build(story, canvasmaker=_canvas_class(furniture))
+    placement.pages = doc.page
+    return buffer.getvalue(), placement
+
+
+def render_pdf(sheet: dict, layout: Layout, short_fingerprint: str) -> bytes:
+    """The PDF of `sheet` laid out by `layout` (same inputs, same bytes).
+
+    UserError when the layout's page limits cannot hold the sheet, naming what does not fit.
+    """
+    styles = styles_for(layout)
+    blank_before: set[int] = set()
+    for _ in range(len(layout.sections) + 1):
+        data, placement = _build(sheet, layout, styles, short_fingerprint, blank_before)
+        if not layout.two_sided:
+            break
+        # in a two-sided layout a section may ask to start on a front (odd) or back (even) page
+        wanted = {i: s.side for i, s in enumerate(layout.sections)}
+        wrong = {i for i, page in placement.section_pages.items()
+                 if (wanted[i] == "front" and page % 2 == 0) or (wanted[i] == "back" and page % 2 == 1)}
+        if not wrong - blank_before:
+            break
+        blank_before |= wrong
+    _check_limits(layout, placement)
+    return data
+
+
+def _check_limits(layout: Layout, placement: _Placement) -> None:
+    starts = [placement.section_pages.get(i, 0) for i in range(len(layout.sections))]
+    ends = starts[1:] + [placement.pages + 1]
+    for i, section in enumerate(layout.sections):
+        used = ends[i] - starts[i]
+        if section.max_pages and used > section.max_pages:
+            last_allowed = starts[i] + section.max_pages - 1
+            spill = [what for what, page in placement.placed if last_allowed < page < ends[i]]
+            names = ", ".join(dict.fromkeys(spill)) or "the end of the section"
+            raise UserError(
+                f"layout {layout.name}: the {section.name} side needs {used} pages but the layout allows "
+                f"{section.max_pages}; these do not fit at {layout.min_pt:g} pt: {names}. Use a larger layout "
+                f"(e.g. ward-a4) or build a sheet with fewer rows")
+    if layout.max_pages and placement.pages > layout.max_pages:
+        raise UserError(f"layout {layout.name}: the sheet needs {placement.pages} pages but the layout allows "
+                        f"{layout.max_pages}; use a larger layout (e.g. ward-a4) or build a sheet with fewer rows")

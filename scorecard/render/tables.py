@@ -1,0 +1,204 @@
+"""The front of the sheet as platypus flowables: one points table per term, pair grids, the total box, how to
+score, what to do outside the printed ranges, and the cautions. Every text and number printed is the sheet's
+own (row `text`, integer `points`); nothing is recomputed here.
+"""
+
+from __future__ import annotations
+
+from reportlab.lib import colors
+from reportlab.platypus import Flowable, KeepTogether, Paragraph, Spacer, Table, TableStyle
+
+from scorecard.render.fonts import text_width
+from scorecard.render.styles import Styles
+from scorecard.render.text import MINUS, markup, points_text, term_heading
+
+RULE = colors.Color(0.55, 0.55, 0.55)
+TINT = colors.Color(0.92, 0.92, 0.92)
+PAD = 2.0
+
+def cautions_line(sheet: dict, short_fingerprint: str) -> str:
+    """The sheet's cautions, verbatim, as one run printed at the foot of every page, with this sheet's fingerprint."""
+    return " ".join(sheet["cautions"]) + f" This sheet's fingerprint: {short_fingerprint}."
+
+
+class WriteInBox(Flowable):
+    """An empty ruled box for a handwritten number."""
+
+    def __init__(self, width: float, height: float, line_width: float = 1.2):
+        super().__init__()
+        self.width, self.height, self.line_width = width, height, line_width
+
+    def wrap(self, avail_width, avail_height):
+        return self.width, self.height
+
+    def draw(self):
+        self.canv.setLineWidth(self.line_width)
+        self.canv.rect(0, 0, self.width, self.height, stroke=1, fill=0)
+
+
+class Tracked(KeepTogether):
+    """A block kept together whose page is recorded once drawn (to say what does not fit on a card)."""
+
+    def __init__(self, flowables, what: str):
+        super().__init__(flowables)
+        self.what = what
+        for f in flowables:
+            f.tracked_as = what
+
+
+def points_column_width(styles: Styles) -> float:
+    widest = max(text_width(t, styles.body_pt, bold=True) for t in (f"{MINUS}88", "+88"))
+    return max(widest, styles.body_pt * 2.6) + 2 * PAD + 2
+
+
+def _box_height(styles: Styles) -> float:
+    return styles.body_pt * 2.0
+
+
+def term_block(term: dict, styles: Styles, signed: bool, width: float) -> Flowable:
+    """Heading (label and unit) with the write-in box beside it, then one row per printed range, category or
+    'not measured', each with its points."""
+    if term["kind"] == "pair":
+        return pair_block(term, styles, signed, width)
+    points_w = points_column_width(styles)
+    text_w = width - points_w
+    box_w = points_w - 2 * PAD
+    data = [[Paragraph(markup(term_heading(term)), styles.heading), WriteInBox(box_w, _box_height(styles))]]
+    for row in term["rows"]:
+        data.append([Paragraph(markup(row["text"]), styles.body), Paragraph(points_text(row["points"], signed), styles.points)])
+    table = Table(data, colWidths=[text_w, points_w], repeatRows=1, hAlign="LEFT")
+    commands = [
+        ("VALIGN", (0, 0), (-1, -1), "MIDDLE"),
+        ("LEFTPADDING", (0, 0), (-1, -1), PAD), ("RIGHTPADDING", (0, 0), (-1, -1), PAD),
+        ("TOPPADDING", (0, 0), (-1, -1), 1), ("BOTTOMPADDING", (0, 0), (-1, -1), 1.5),
+        ("TOPPADDING", (0, 0), (-1, 0), 2), ("BOTTOMPADDING", (0, 0), (-1, 0), 2),
+        ("BACKGROUND", (0, 0), (0, 0), TINT),
+        ("LINEBELOW", (0, 0), (-1, 0), 0.8, colors.black),
+        ("LINEBELOW", (0, 1), (-1, -2), 0.3, RULE),
+        ("BOX", (0, 0), (-1, -1), 0.8, colors.black),
+    ]
+    table.setStyle(TableStyle(commands))
+    return Tracked([table, Spacer(1, styles.body_pt * 0.6)], what=term["label"])
+
+
+def pair_block(term: dict, styles: Styles, signed: bool, width: float) -> Flowable:
+    """A pair term as a small grid: rows of the first feature, columns of the second, points in the cells."""
+    axis0, axis1 = term["axes"]
+    label0, label1 = term["labels"]
+    points_w = points_column_width(styles)
+    n_cols = len(axis1["rows"])
+    first_w = max(width * 0.34, width - n_cols * max(points_w, width * 0.2))
+    cell_w = (width - first_w) / n_cols
+    box_w = points_w - 2 * PAD
+
+    def axis_title(label, axis):
+        unit = axis.get("unit")
+        return f"{label} ({unit})" if unit else label
+
+    heading = [Paragraph(markup(f"{term_heading(term)}: both together"), styles.heading)] + [""] * (n_cols - 1)
+    heading.append(WriteInBox(box_w, _box_height(styles)))
+    # the box sits in the last column, so the heading spans the others
+    corner = Paragraph(markup(f"{axis_title(label0, axis0)} \u2193  {axis_title(label1, axis1)} \u2192"), styles.body)
+    header = [corner] + [Paragraph(markup(r["text"]), styles.body_center) for r in axis1["rows"]]
+    data = [heading, header]
+    for i, row in enumerate(axis0["rows"]):
+        data.append([Paragraph(markup(row["text"]), styles.body)]
+                    + [Paragraph(points_text(p, signed), styles.points) for p in term["points"][i]])
+    data.append([Paragraph(markup("either not measured"), styles.body)] + [""] * (n_cols - 1)
+                + [Paragraph(points_text(term.get("missing_points", 0), signed), styles.points)])
+    last = len(data) - 1
+    col_widths = [first_w] + [cell_w] * n_cols
+    if n_cols == 1:
+        heading[0] = Paragraph(markup(f"{term_heading(term)}: both together"), styles.heading)
+    table = Table(data, colWidths=col_widths, hAlign="LEFT")
+    commands = [
+        ("VALIGN", (0, 0), (-1, -1), "MIDDLE"),
+        ("LEFTPADDING", (0, 0), (-1, -1), PAD), ("RIGHTPADDING", (0, 0), (-1, -1), PAD),
+        ("TOPPADDING", (0, 0), (-1, -1), 1), ("BOTTOMPADDING", (0, 0), (-1, -1), 1.5),
+        ("BACKGROUND", (0, 0), (-2 if n_cols > 1 else 0, 0), TINT),
+        ("LINEBELOW", (0, 0), (-1, 0), 0.8, colors.black),
+        ("GRID", (1, 1), (-1, last - 1), 0.3, RULE),
+        ("LINEBELOW", (0, 1), (-1, -2), 0.3, RULE),
+        ("SPAN", (0, last), (-2, last)),
+        ("BOX", (0, 0), (-1, -1), 0.8, colors.black),
+    ]
+    if n_cols > 1:
+        commands.append(("SPAN", (0, 0), (-2, 0)))
+    table.setStyle(TableStyle(commands))
+    return Tracked([table, Spacer(1, styles.body_pt * 0.6)], what=term_heading(term))
+
+
+def total_block(styles: Styles, width: float) -> Flowable:
+    """The box for the sum of the term boxes, and where to read the risk."""
+    points_w = points_column_width(styles)
+    box = WriteInBox(points_w + styles.body_pt, styles.body_pt * 2.6, line_width=2)
+    data = [[Paragraph("<b>TOTAL POINTS</b> (add every box above)", styles.heading), box],
+            [Paragraph("Read the risk for this total in the conversion table.", styles.body), ""]]
+    table = Table(data, colWidths=[width - box.width - 2 * PAD - 2, box.width + 2 * PAD + 2], hAlign="LEFT")
+    table.setStyle(TableStyle([
+        ("VALIGN", (0, 0), (-1, -1), "MIDDLE"),
+        ("SPAN", (1, 0), (1, 1)),
+        ("LEFTPADDING", (0, 0), (-1, -1), PAD), ("RIGHTPADDING", (0, 0), (-1, -1), PAD),
+        ("TOPPADDING", (0, 0), (-1, -1), 2), ("BOTTOMPADDING", (0, 0), (-1, -1), 2),
+        ("BOX", (0, 0), (-1, -1), 1.2, colors.black),
+        ("BACKGROUND", (0, 0), (0, -1), TINT),
+    ]))
+    return Tracked([table, Spacer(1, styles.body_pt * 0.6)], what="the total box")
+
+
+def _paragraphs(lines: list[str], style, what: str, title: str, styles: Styles, compact: bool = False) -> Flowable:
+    if compact:
+        lines = [" ".join(lines)]
+    flow = [Paragraph(markup(title), styles.section), Spacer(1, 2)]
+    for line in lines:
+        flow.append(Paragraph(line, style))
+        flow.append(Spacer(1, 2))
+    flow.append(Spacer(1, styles.body_pt * (0.1 if compact else 0.4)))
+    return Tracked(flow, what=what)
+
+
+def instructions_block(sheet: dict, styles: Styles, compact: bool = False) -> Flowable:
+    steps = [
+        f"1. {markup(sheet['rounding_rule'])}",
+        "2. In each table find the patient's row and write its points in the box beside the table's heading.",
+        "3. Add the boxes and write the sum in the TOTAL POINTS box.",
+        "4. Find the total in the conversion table and read the risk.",
+    ]
+    return _paragraphs(steps, styles.body, "the scoring steps", "How to score", styles, compact)
+
+
+def ranges_block(sheet: dict, styles: Styles, training_ranges: list[str], compact: bool = False) -> Flowable:
+    """What to do outside the printed ranges and for values not measured; the terms left off the sheet."""
+    lines = [
+        "A value below the first printed row or above the last belongs to that end row (the rows marked "
+        "\u2264 and \u2265).",
+    ]
+    if training_ranges:
+        lines.append("The model was not trained beyond these ranges, so points for values outside them are less "
+                     "certain: " + "; ".join(markup(t) for t in training_ranges) + ".")
+    lines.append("Not measured: use the \u2018not measured\u2019 row. A table without that row needs the measurement.")
+    if sheet.get("dropped_terms"):
+        dropped = "; ".join(markup(f"{d['name']} ({d['reason']})") for d in sheet["dropped_terms"])
+        lines.append(f"Left off this sheet: {dropped}.")
+    return _paragraphs(lines, styles.body, "the range rules", "Outside the printed ranges", styles, compact)
+
+
+def cautions_block(sheet: dict, styles: Styles, short_fingerprint: str, width: float, compact: bool = False) -> Flowable:
+    """The cautions in full inside a box, with a place to confirm the fingerprint was checked."""
+    items = [markup(c) for c in sheet["cautions"]] + [
+        f"This sheet's fingerprint, printed on every page: <b>{markup(short_fingerprint)}</b>."]
+    lines = [Paragraph("Before you use this sheet", styles.section)]
+    if compact:
+        lines.append(Paragraph(" ".join(f"\u2022 {c}" for c in items), styles.body))
+    else:
+        lines += [Paragraph(f"\u2022 {c}", styles.body) for c in items]
+    if not compact:  # a card is checked against the ward sheet it was cut from
+        lines.append(Paragraph("Approved version checked by: ____________________  date: ____________", styles.body))
+    table = Table([[line] for line in lines], colWidths=[width], hAlign="LEFT")
+    table.setStyle(TableStyle([
+        ("BOX", (0, 0), (-1, -1), 1.0, colors.black),
+        ("LEFTPADDING", (0, 0), (-1, -1), 4), ("RIGHTPADDING", (0, 0), (-1, -1), 4),
+        ("TOPPADDING", (0, 0), (-1, -1), 1.5), ("BOTTOMPADDING", (0, 0), (-1, -1), 1.5),
+        ("TOPPADDING", (0, -1), (-1, -1), styles.body_pt * (0.5 if compact else 0.9)),
+    ]))
+    return Tracked([Spacer(1, styles.body_pt * (0.2 if compact else 0.5)), table], what="the cautions")
