@@ -26,6 +26,7 @@ from sklearn.compose import ColumnTransformer
 from sklearn.linear_model import LogisticRegression, LogisticRegressionCV
 from sklearn.pipeline import Pipeline
 from sklearn.preprocessing import (
+    FunctionTransformer,
     MaxAbsScaler,
     MinMaxScaler,
     OneHotEncoder,
@@ -152,10 +153,17 @@ def from_sklearn(
 # -- structure -------------------------------------------------------------------------------------
 
 
+def _is_identity(step) -> bool:
+    # a fitted ColumnTransformer stores 'passthrough' as a FunctionTransformer without a function
+    return isinstance(step, FunctionTransformer) and step.func is None
+
+
 def describe(estimator) -> str:
     """A short, stable description of an estimator's steps (for messages and provenance)."""
     if isinstance(estimator, str):
         return estimator
+    if _is_identity(estimator):
+        return "passthrough"
     if isinstance(estimator, Pipeline):
         return "Pipeline(" + " -> ".join(describe(step) for _, step in estimator.steps) + ")"
     if isinstance(estimator, ColumnTransformer):
@@ -198,7 +206,7 @@ def _check_structure(estimator) -> None:
 
 
 def _check_step(step) -> None:
-    if step is None or (isinstance(step, str) and step in ("passthrough", "drop")):
+    if step is None or (isinstance(step, str) and step in ("passthrough", "drop")) or _is_identity(step):
         return
     if isinstance(step, Pipeline):
         for _, inner in step.steps:
@@ -315,8 +323,8 @@ def _read_partial(frame, column, fname, kind, reference, base, decide, grid_poin
     partial = decide(probe) - base
     if not np.all(np.isfinite(partial)):
         raise UserError(f"X column {column!r}: the estimator gives a non-finite log-odds; check the data")
-    if np.all(partial == 0.0):
-        return None, None  # the estimator ignores this column (dropped by a ColumnTransformer)
+    if np.max(np.abs(partial)) <= 1e-13 * max(1.0, abs(base)):
+        return None, None  # the estimator ignores this column (dropped by a ColumnTransformer); rounding aside
     if kind == "continuous":
         knots, scores = drop_straight_knots(grid, partial)
         p01, p99 = np.percentile(col.to_numpy(dtype=float), [1, 99])
