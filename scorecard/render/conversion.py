@@ -230,7 +230,7 @@ class ConversionCurve(Flowable):
         y_step = _nice_step(max(risks), 5)
         y_top = min(100, y_step * math.ceil(max(risks) / y_step)) or y_step
         left = text_width("100%", s) + s * 2.4
-        bottom = s * 3.2
+        bottom = s * 3.4
         top_pad = s * 2.4
         plot_w = width - left - s
         plot_h = height - bottom - top_pad
@@ -271,8 +271,8 @@ class ConversionCurve(Flowable):
             x = x_of(t)
             d.add(Line(x, bottom, x, bottom - 2, strokeWidth=0.5))
             if (t - t_lo) % x_step == 0:
-                d.add(String(x, bottom - s * 1.2, total_text(t), fontName=REGULAR, fontSize=s, textAnchor="middle"))
-        d.add(String(left + plot_w / 2, bottom - s * 2.6, "Total points", fontName=BOLD, fontSize=s, textAnchor="middle"))
+                d.add(String(x, bottom - s * 1.45, total_text(t), fontName=REGULAR, fontSize=s, textAnchor="middle"))
+        d.add(String(left + plot_w / 2, bottom - s * 2.85, "Total points", fontName=BOLD, fontSize=s, textAnchor="middle"))
         d.add(String(0, bottom + plot_h + s * 1.0, "Risk", fontName=BOLD, fontSize=s, textAnchor="start"))
         points = []
         for t, r in zip(totals, risks):

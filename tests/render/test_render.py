@@ -1,0 +1,298 @@
+"""Render checks read the PDF back with pdfplumber (an outside PDF reader), never our own drawing code.
+
+Page sizes are checked against ISO 216 (A4 = 210 x 297 mm) and ANSI/ASME Y14.1 (US Letter = 8.5 x 11 in).
+"""
+
+from __future__ import annotations
+
+import io
+import re
+from pathlib import Path
+
+import pdfplumber
+import pytest
+from click.testing import CliRunner
+
+from scorecard.cli import main
+from scorecard.render import load_layout, render_pdf, shipped_layouts
+from scorecard.render.text import points_text, sheet_has_negative_points
+from scorecard.sheet import save_sheet, short_fingerprint, validate_sheet_dict
+from tests.render.sheets import many_term_sheet, twelve_term_sheet, with_markup_labels, without_negative_points
+
+MM = 72 / 25.4
+
+
+@pytest.fixture(scope="module")
+def sheet():
+    doc = twelve_term_sheet()
+    validate_sheet_dict(doc)  # the fixture follows the sheet contract (the project's own validator)
+    return doc
+
+
+def _render(sheet, name):
+    return render_pdf(sheet, load_layout(name), short_fingerprint(sheet))
+
+
+@pytest.fixture(scope="module")
+def ward_pdf(sheet):
+    return _render(sheet, "ward-a4")
+
+
+def _pages(pdf: bytes):
+    with pdfplumber.open(io.BytesIO(pdf)) as doc:
+        return [(p.width, p.height, p.extract_words(keep_blank_chars=False), list(p.chars), p.extract_text(), len(p.images))
+                for p in doc.pages]
+
+
+def _column_lines(pdf: bytes, page_no: int, layout_name: str, columns: int) -> list[str]:
+    """Text lines of one page read column by column (left column top to bottom, then the next)."""
+    layout = load_layout(layout_name)
+    gap_guess = 0  # columns are cut at equal widths of the inner page; the gutter holds no text
+    with pdfplumber.open(io.BytesIO(pdf)) as doc:
+        page = doc.pages[page_no]
+        left = layout.margins["left"]
+        inner = page.width - left - layout.margins["right"]
+        lines = []
+        for c in range(columns):
+            x0 = left + c * inner / columns - gap_guess
+            x1 = left + (c + 1) * inner / columns
+            crop = page.crop((max(0, x0), 0, min(page.width, x1 + 0.1), page.height))
+            lines += [line.strip() for line in (crop.extract_text() or "").splitlines()]
+        return lines
+
+
+def _heading(term):
+    if term["kind"] == "pair":
+        return term["label"]
+    return f"{term['label']} ({term['unit']})" if term.get("unit") else term["label"]
+
+
+def test_every_row_and_its_points_in_its_table_in_order_on_page_one(sheet, ward_pdf):
+    signed = sheet_has_negative_points(sheet)
+    lines = _column_lines(ward_pdf, 0, "ward-a4", 3)
+    flat = "\n".join(lines)
+    cursor = 0
+    for term in sheet["terms"]:
+        # the heading may wrap in a narrow column: find its first word after the previous table
+        first_word = _heading(term).split()[0]
+        start = next(i for i in range(cursor, len(lines)) if lines[i].startswith(first_word))
+        if term["kind"] == "pair":
+            expected = [f"{axis_row['text']} " + " ".join(points_text(p, signed) for p in pts)
+                        for axis_row, pts in zip(term["axes"][0]["rows"], term["points"])]
+            expected.append(f"either not measured {points_text(term['missing_points'], signed)}")
+        else:
+            expected = [f"{row['text']} {points_text(row['points'], signed)}" for row in term["rows"]]
+        found = []
+        i = start
+        for want in expected:
+            while i < len(lines) and lines[i] != want:
+                i += 1
+            assert i < len(lines), f"{term['name']}: row {want!r} not found in order after its heading\n{flat}"
+            found.append(i)
+            i += 1
+        # the rows follow each other directly: no other table's row in between
+        assert found == list(range(found[0], found[0] + len(found))), (term["name"], found)
+        assert found[0] - start <= (7 if term["kind"] == "pair" else 4), f"{term['name']}: rows do not start just under the heading"
+        cursor = found[-1] + 1
+    assert "TOTAL POINTS" in flat
+
+
+def test_negative_points_carry_a_real_minus_and_positive_a_plus(sheet, ward_pdf):
+    text = _pages(ward_pdf)[0][4]
+    assert "\u22121" in text  # temperature 36.0–37.4 scores −1, printed with U+2212
+    assert "+7" in text and "+4" in text
+    assert not re.search(r"(?<![\d–])-1\b", text), "a hyphen-minus would be misread or lost on a copy"
+    plain = _render(without_negative_points(sheet), "ward-a4")
+    plain_text = _pages(plain)[0][4]
+    assert "+7" not in plain_text and re.search(r"≥ 90 7\b", plain_text)
+
+
+def test_header_and_footer_on_every_page(sheet, ward_pdf):
+    pages = _pages(ward_pdf)
+    assert len(pages) == 3
+    fp = short_fingerprint(sheet)
+    for number, (_, _, _, _, text, _) in enumerate(pages, start=1):
+        flat = " ".join(text.split())
+        assert sheet["title"] in flat
+        assert sheet["outcome"]["event"] in flat and sheet["outcome"]["horizon"] in flat
+        assert sheet["outcome"]["population"] in flat
+        assert fp in flat
+        assert f"model {sheet['model']['name']} version {sheet['model']['version']}" in flat
+        assert "Printed on:" in flat
+        assert f"Page {number} of 3" in flat
+        for caution in sheet["cautions"]:
+            assert caution in flat, caution
+
+
+def test_conversion_table_pairs_every_total_with_its_risk(sheet, ward_pdf):
+    text = _pages(ward_pdf)[1][4]
+    tokens = text.split()
+    for row in sheet["conversion"]:
+        total = str(row["total"]).replace("-", "\u2212")
+        hits = [i for i in range(len(tokens) - 1) if tokens[i] == total and tokens[i + 1] == row["text"]]
+        assert hits, f"total {row['total']} is not printed beside {row['text']}"
+    # the unit's band wording (here the placeholder) is printed, never an invented action
+    assert "Write your unit's agreed action here (local protocol)." in " ".join(text.split())
+
+
+def test_nomogram_page_has_every_term_and_row_as_text(sheet, ward_pdf):
+    width, height, words, chars, text, images = _pages(ward_pdf)[2]
+    flat = " ".join(text.split())
+    assert images == 0  # drawn as vector graphics and text, nothing rasterised
+    assert "Points" in flat and "Total points" in flat and "Risk" in flat
+    for term in sheet["terms"]:
+        if term["kind"] == "pair":
+            continue
+        for row in term["rows"]:
+            assert row["text"] in flat, (term["name"], row["text"])
+
+
+def test_page_sizes_follow_the_paper_standards(sheet, ward_pdf):
+    w, h = _pages(ward_pdf)[0][:2]
+    assert abs(w - 210 * MM) < 0.5 and abs(h - 297 * MM) < 0.5  # ISO 216 A4
+    letter = _render(sheet, "ward-letter")
+    w, h = _pages(letter)[0][:2]
+    assert abs(w - 612) < 0.5 and abs(h - 792) < 0.5  # US Letter, 8.5 x 11 in
+
+
+def _overlaps(words):
+    boxes = sorted((w["x0"], w["top"], w["x1"], w["bottom"], w["text"]) for w in words)
+    clashes = []
+    for i, a in enumerate(boxes):
+        for b in boxes[i + 1:]:
+            if b[0] >= a[2] - 0.3:
+                break
+            if min(a[3], b[3]) - max(a[1], b[1]) > 0.5 and min(a[2], b[2]) - max(a[0], b[0]) > 0.3:
+                clashes.append((a[4], b[4]))
+    return clashes
+
+
+@pytest.mark.parametrize("layout_name", ["ward-a4", "ward-letter", "pocket-card", "large-print-a4"])
+def test_no_overlap_inside_margins_and_no_type_below_the_minimum(sheet, layout_name):
+    layout = load_layout(layout_name)
+    pdf = _render(sheet, layout_name)
+    m = layout.margins
+    for number, (width, height, words, chars, _, images) in enumerate(_pages(pdf), start=1):
+        assert images == 0
+        assert _overlaps(words) == [], f"page {number}: text boxes overlap"
+        for ch in chars:
+            if not ch["text"].strip():
+                continue
+            assert ch["x0"] >= m["left"] - 0.5 and ch["x1"] <= width - m["right"] + 0.5, (number, ch["text"], ch["x0"], ch["x1"])
+            assert ch["top"] >= m["top"] - 0.5 and ch["bottom"] <= height - m["bottom"] + 0.5, (number, ch["text"], ch["top"])
+            assert ch["size"] >= layout.min_pt - 0.01, (number, ch["text"], ch["size"])
+
+
+@pytest.mark.parametrize("layout_name", ["ward-a4", "ward-letter"])
+def test_twelve_terms_fit_the_front_of_one_page_at_nine_point(sheet, layout_name):
+    pdf = _render(sheet, layout_name)
+    width, height, words, chars, text, _ = _pages(pdf)[0]
+    flat = " ".join(text.split())
+    for term in sheet["terms"]:
+        assert _heading(term).split()[0] in flat
+    assert "TOTAL POINTS" in flat
+    assert min(ch["size"] for ch in chars if ch["text"].strip()) >= 9 - 0.01
+    # and the second page is the conversion, not the rest of the tables
+    second = " ".join(_pages(pdf)[1][4].split())
+    assert "Total points \u2192 risk" in second and "not measured" not in second
+
+
+def test_same_sheet_and_layout_give_identical_bytes(sheet, ward_pdf, tmp_path):
+    assert _render(sheet, "ward-a4") == ward_pdf
+    path = tmp_path / "s.sheet.json"
+    save_sheet(sheet, path)
+    runner = CliRunner()
+    outs = []
+    for name in ("a.pdf", "b.pdf"):
+        result = runner.invoke(main, ["render", str(path), "--layout", "pocket-card", "-o", str(tmp_path / name)])
+        assert result.exit_code == 0, result.output
+        outs.append((tmp_path / name).read_bytes())
+    assert outs[0] == outs[1]
+
+
+def test_markup_characters_print_literally(sheet):
+    odd = with_markup_labels(sheet)
+    pdf = _render(odd, "ward-a4")
+    flat = " ".join(" ".join(p[4] for p in _pages(pdf)).split())
+    assert "Care home & nursing <24h>" in flat
+    assert "<home & care>" in flat
+    assert "<older-people> team & daily screen" in flat
+    assert "&amp;" not in flat and "&lt;" not in flat
+
+
+def test_pocket_card_overflow_exits_2_naming_what_does_not_fit(tmp_path):
+    path = tmp_path / "big.sheet.json"
+    save_sheet(many_term_sheet(30), path)
+    out = tmp_path / "card.pdf"
+    result = CliRunner().invoke(main, ["render", str(path), "--layout", "pocket-card", "-o", str(out)])
+    assert result.exit_code == 2, result.output
+    assert "pocket-card" in result.output and "do not fit" in result.output
+    assert "Laboratory value 18" in result.output
+    assert "Traceback" not in result.output
+    assert not out.exists()  # nothing half-written
+
+
+def test_twelve_terms_fit_the_two_sided_pocket_card(sheet):
+    pdf = _render(sheet, "pocket-card")
+    pages = _pages(pdf)
+    assert len(pages) == 2
+    front, back = (" ".join(p[4].split()) for p in pages)
+    assert "TOTAL POINTS" in front and "Total points \u2192 risk" not in front
+    assert "Total points \u2192 risk" in back and "Before you use this sheet" in back
+
+
+BAD_LAYOUTS = [
+    ('name = "x"\n[type]\nmin_pt = "nine"\n', "min_pt"),
+    ('name = "x"\n[page]\nsize = "B7"\n', "size"),
+    ('name = "x"\n[page]\nmargins_mm = { top = 1 }\n', "margins_mm.top"),
+    ('name = "x"\n[type]\nmin_pt = 9\nbody_pt = 8\n', "body_pt"),
+    ('name = "x"\n[[section]]\nparts = ["terms", "chart"]\n', "'chart'"),
+    ('name = "x"\n[[section]]\nparts = ["terms", "total"]\n', "instructions"),
+    ('name = "x"\n[page]\npaper = "A4"\n', "'paper'"),
+    ('name = "x"\n[page\n', "not valid TOML"),
+]
+
+
+@pytest.mark.parametrize("text,field", BAD_LAYOUTS)
+def test_bad_layout_file_exits_2_naming_the_field(sheet, tmp_path, text, field):
+    sheet_path = tmp_path / "s.sheet.json"
+    save_sheet(sheet, sheet_path)
+    layout_path = tmp_path / "bad.toml"
+    layout_path.write_text(text)
+    out = tmp_path / "x.pdf"
+    result = CliRunner().invoke(main, ["render", str(sheet_path), "--layout", str(layout_path), "-o", str(out)])
+    assert result.exit_code == 2, result.output
+    assert field in result.output and str(layout_path) in result.output
+    assert len(result.output.strip().splitlines()) == 1 and "Traceback" not in result.output
+    assert not out.exists()
+
+
+def test_shipped_layouts_are_found_and_valid():
+    names = set(shipped_layouts())
+    assert {"ward-a4", "ward-letter", "pocket-card", "large-print-a4"} <= names
+    for name in names:
+        layout = load_layout(name)
+        assert layout.name == name
+    assert load_layout("pocket-card").two_sided
+    assert load_layout("large-print-a4").min_pt >= 14
+
+
+def test_render_refuses_to_overwrite_its_input_and_writes_previews(sheet, tmp_path):
+    sheet_path = tmp_path / "s.sheet.json"
+    save_sheet(sheet, sheet_path)
+    runner = CliRunner()
+    result = runner.invoke(main, ["render", str(sheet_path), "-o", str(sheet_path)])
+    assert result.exit_code == 2
+    result = runner.invoke(main, ["render", str(sheet_path), "-o", str(tmp_path / "s.pdf"), "--preview", str(tmp_path / "png")])
+    assert result.exit_code == 0, result.output
+    pngs = sorted(Path(tmp_path / "png").glob("*.png"))
+    assert [p.name for p in pngs] == ["s-01.png", "s-02.png", "s-03.png"]
+    assert all(p.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n" for p in pngs)
+
+
+def test_tampered_sheet_is_refused(sheet, tmp_path):
+    sheet_path = tmp_path / "s.sheet.json"
+    save_sheet(sheet, sheet_path)
+    sheet_path.write_text(sheet_path.read_text().replace('"points": 7', '"points": 8'))
+    result = CliRunner().invoke(main, ["render", str(sheet_path), "-o", str(tmp_path / "s.pdf")])
+    assert result.exit_code == 2 and "fingerprint" in result.output
