@@ -52,8 +52,22 @@ def source_of(frame: pd.DataFrame) -> str:
     return frame.attrs.get("source", "data")
 
 
+def _distinct(values: pd.Series) -> tuple[np.ndarray, pd.Series]:
+    """Codes of each cell among the distinct cells (-1 for NaN/None) and the distinct cells: text rules are
+    then applied once per distinct value, which keeps a million-row cohort to a second or so."""
+    codes, uniques = pd.factorize(values, use_na_sentinel=True)
+    return codes, pd.Series(np.asarray(uniques, dtype=object), dtype=object)
+
+
+def _per_cell(codes: np.ndarray, per_unique: np.ndarray, fill) -> np.ndarray:
+    out = np.asarray(per_unique)[np.clip(codes, 0, None)] if len(per_unique) else np.full(len(codes), fill)
+    return np.where(codes < 0, fill, out)
+
+
 def is_missing_text(values: pd.Series) -> np.ndarray:
-    return values.astype(str).str.strip().str.lower().isin(MISSING_TOKENS).to_numpy() | values.isna().to_numpy()
+    codes, uniques = _distinct(values)
+    missing = uniques.astype(str).str.strip().str.lower().isin(MISSING_TOKENS).to_numpy()
+    return _per_cell(codes, missing, True).astype(bool)
 
 
 def require_columns(frame: pd.DataFrame, names: list[str], what: str = "the model") -> None:
@@ -75,8 +89,11 @@ def numeric_column(frame: pd.DataFrame, name: str) -> np.ndarray:
             row = int(np.flatnonzero(bad)[0])
             raise UserError(f"{source_of(frame)}: row {row + 1}, column {name!r}: infinite value; give a measurement or leave it empty")
         return values
-    missing = is_missing_text(col)
-    parsed = pd.to_numeric(col.where(~missing, None), errors="coerce").to_numpy(dtype=float)
+    codes, uniques = _distinct(col)
+    missing_u = uniques.astype(str).str.strip().str.lower().isin(MISSING_TOKENS).to_numpy()
+    parsed_u = pd.to_numeric(uniques.where(~missing_u, None), errors="coerce").to_numpy(dtype=float)
+    missing = _per_cell(codes, missing_u, True).astype(bool)
+    parsed = _per_cell(codes, parsed_u, np.nan).astype(float)
     bad = np.isnan(parsed) & ~missing
     bad |= np.isinf(parsed)
     if bad.any():
@@ -93,11 +110,13 @@ def flag_column(frame: pd.DataFrame, name: str) -> np.ndarray:
     col = frame[name]
     if pd.api.types.is_bool_dtype(col):
         return col.to_numpy(dtype=float)
-    missing = is_missing_text(col)
-    text = col.astype(str).str.strip().str.lower()
-    values = np.full(len(col), np.nan)
-    values[text.isin(FLAG_TRUE).to_numpy()] = 1.0
-    values[text.isin(FLAG_FALSE).to_numpy()] = 0.0
+    codes, uniques = _distinct(col)
+    text = uniques.astype(str).str.strip().str.lower()
+    values_u = np.full(len(uniques), np.nan)
+    values_u[text.isin(FLAG_TRUE).to_numpy()] = 1.0
+    values_u[text.isin(FLAG_FALSE).to_numpy()] = 0.0
+    missing = _per_cell(codes, text.isin(MISSING_TOKENS).to_numpy(), True).astype(bool)
+    values = _per_cell(codes, values_u, np.nan).astype(float)
     bad = np.isnan(values) & ~missing
     if bad.any():
         row = int(np.flatnonzero(bad)[0])
@@ -110,8 +129,8 @@ def flag_column(frame: pd.DataFrame, name: str) -> np.ndarray:
 
 def category_column(frame: pd.DataFrame, name: str) -> np.ndarray:
     """Object array of stripped level names, None for not measured."""
-    col = frame[name]
-    missing = is_missing_text(col)
-    text = col.astype(str).str.strip().to_numpy(dtype=object)
-    text[missing] = None
-    return text
+    codes, uniques = _distinct(frame[name])
+    text = uniques.astype(str).str.strip()
+    missing_u = text.str.lower().isin(MISSING_TOKENS).to_numpy()
+    levels = np.where(missing_u, None, text.to_numpy(dtype=object)) if len(uniques) else np.empty(0, dtype=object)
+    return _per_cell(codes, levels, None).astype(object)
