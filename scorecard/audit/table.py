@@ -8,7 +8,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from scorecard.audit.paper import ScoredCohort
+from scorecard.audit.paper import ScoredCohort, band_index
 
 
 def _quote(text: str) -> str:
@@ -18,40 +18,41 @@ def _quote(text: str) -> str:
     return text
 
 
-def _lookup(texts, index: np.ndarray) -> np.ndarray:
-    return np.array([_quote(str(t)) for t in texts], dtype=object)[index]
-
-
 def _numbers(values: np.ndarray, fmt: str = "%.10g") -> np.ndarray:
     return np.array([fmt % v for v in values.tolist()], dtype=object)
 
 
 def scored_columns(scored: ScoredCohort, sheet: dict, keep: pd.DataFrame | None = None,
-                   model_risk: np.ndarray | None = None) -> list[tuple[str, np.ndarray]]:
-    """(header, cells) per output column: kept columns, then per term its printed row and points, then the
-    total, the risk read from the conversion table (fraction and printed text), the band, and the model's risk."""
-    columns: list[tuple[str, np.ndarray]] = []
+                   model_risk: np.ndarray | None = None) -> list[tuple[list[str], np.ndarray]]:
+    """(headers, cells) per group of output columns: kept columns, then per term its printed row and points,
+    then the total, the risk read from the conversion table (fraction and printed text) and the band, and the
+    model's risk. Columns that depend on the same choice share one lookup (cells already joined by commas)."""
+    columns: list[tuple[list[str], np.ndarray]] = []
     if keep is not None:
         for name in keep.columns:
-            columns.append((name, np.array([_quote(v) for v in keep[name].astype(str).tolist()], dtype=object)))
+            columns.append(([name], np.array([_quote(v) for v in keep[name].astype(str).tolist()], dtype=object)))
     for t in scored.terms:
-        columns.append((f"row:{t.name}", _lookup(t.texts, t.index)))
-        columns.append((f"points:{t.name}", _lookup([str(int(p)) for p in t.points], t.index)))
+        cells = [f"{_quote(text)},{int(p)}" for text, p in zip(t.texts, t.points)]
+        columns.append(([f"row:{t.name}", f"points:{t.name}"], np.array(cells, dtype=object)[t.index]))
     first = int(scored.total.min())
-    span = np.arange(first, int(scored.total.max()) + 1)
-    columns.append(("total", _lookup([str(int(v)) for v in span], scored.total - first)))
+    span = range(first, int(scored.total.max()) + 1)
     risk_by_total = {int(c["total"]): c for c in sheet["conversion"]}
-    columns.append(("sheet_risk", _lookup([repr(float(risk_by_total[int(v)]["risk"])) for v in span], scored.total - first)))
-    columns.append(("sheet_risk_text", _lookup([risk_by_total[int(v)]["text"] for v in span], scored.total - first)))
-    if scored.band is not None:
-        columns.append(("band", _lookup([b["name"] for b in sheet["bands"]], scored.band)))
+    headers = ["total", "sheet_risk", "sheet_risk_text"] + (["band"] if scored.band is not None else [])
+    cells = []
+    for v in span:
+        entry = risk_by_total[v]
+        parts = [str(v), repr(float(entry["risk"])), _quote(entry["text"])]
+        if scored.band is not None:
+            parts.append(_quote(sheet["bands"][int(band_index(sheet, np.array([float(entry["risk"])]))[0])]["name"]))
+        cells.append(",".join(parts))
+    columns.append((headers, np.array(cells, dtype=object)[scored.total - first]))
     if model_risk is not None:
-        columns.append(("model_risk", _numbers(model_risk)))
-        columns.append(("risk_difference", _numbers(scored.risk - model_risk)))
+        columns.append((["model_risk"], _numbers(model_risk)))
+        columns.append((["risk_difference"], _numbers(scored.risk - model_risk)))
     return columns
 
 
-def csv_text(columns: list[tuple[str, np.ndarray]]) -> str:
-    header = ",".join(_quote(name) for name, _ in columns)
+def csv_text(columns: list[tuple[list[str], np.ndarray]]) -> str:
+    header = ",".join(_quote(name) for names, _ in columns for name in names)
     body = "\n".join(map(",".join, zip(*(cells for _, cells in columns))))
     return header + "\n" + body + ("\n" if body else "")
