@@ -106,23 +106,24 @@ RAW_SHAPES = {
     "geriatric_review": _flag(GERIATRIC_REVIEW),
 }
 
-AGE_COGNITION_STRENGTH = 0.8
+AGE_COGNITION_STRENGTH = 2.4
 
 
 def age_cognition(age_years, cognition_score):
     """The one true pair: low cognition matters more the older the patient.
 
-    +0.8 log-odds at age 95 with a screen of 0, -0.8 at age 65 with a screen of 0, nothing at a screen of 10
-    or at age 80 (before purification moves its averages into the age and cognition terms).
+    Nothing up to age 70; from 70 to 95 the extra log-odds of a low screen grows linearly, reaching +2.4 at 95
+    and over for a screen of 0 (and +1.2 for a screen of 5); nothing at a screen of 10. This is the raw pair,
+    before purification moves its population row and column averages into the age and cognition terms.
     """
-    a = np.clip(np.asarray(age_years, dtype=float), 65.0, 95.0)
+    a = np.clip(np.asarray(age_years, dtype=float), 70.0, 95.0)
     c = np.asarray(cognition_score, dtype=float)
-    return AGE_COGNITION_STRENGTH * (a - 80.0) / 15.0 * (10.0 - c) / 10.0
+    return AGE_COGNITION_STRENGTH * (a - 70.0) / 25.0 * (10.0 - c) / 10.0
 
 
 # Chosen so the population event rate is close to 20 % with and without the pair (measured on 4 million
 # generated patients; see TRUE_EVENT_RATE in scorecard.demo).
-BASELINE = {True: -4.72, False: -4.64}
+BASELINE = {True: -5.08, False: -4.64}
 
 
 def raw_logodds(frame, interaction: bool = True) -> np.ndarray:

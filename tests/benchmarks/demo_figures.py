@@ -6,6 +6,9 @@ Also prints the time to generate the cohort against the time to score it with th
 
 import sys
 import time
+from pathlib import Path
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[2]))  # run from a checkout without installing
 
 from scorecard.demo import OUTCOME, TRUE_AUC, TRUE_EVENT_RATE, generate_cohort, rank_auc, true_model
 from scorecard.model import predict_logodds
