@@ -1,0 +1,406 @@
+"""From an additive model to a sheet document: the search for the simplest sheet that meets the bound.
+
+1. pieces and options: every term's curve is split into pieces and segmented optimally for 1..max_rows rows
+   at readable cuts (`curves`, `segment`, `nice`);
+2. allocation: a row budget is spread over the terms (`allocate`);
+3. refit: all row values are refitted jointly (`refit`);
+4. scale and points: a points scale and integer points, improved beyond independent rounding (`points`);
+5. check: ΔAUC and the share of patients misstated by more than the risk bound (`figures`).
+The smallest row budget that passes is found by bisection, then the smallest total-points range for it;
+the figures are measured in full, the certificate computed (`certificate`) and the document assembled.
+"""
+
+from __future__ import annotations
+
+import math
+from dataclasses import asdict, dataclass, field
+from typing import Callable
+
+import numpy as np
+import pandas as pd
+
+from scorecard import __version__
+from scorecard.errors import CheckFailed, UserError
+from scorecard.model import AdditiveModel, logistic
+from scorecard.quantize.allocate import allocate_rows
+from scorecard.quantize.certificate import certificate
+from scorecard.quantize.curves import Curve, Layout, LevelCurve, build_curves
+from scorecard.quantize.figures import full_figures, quick_figures, expected_auc
+from scorecard.quantize.nice import MAX_CANDIDATES
+from scorecard.quantize.population import Population, evaluation_population
+from scorecard.quantize.points import Quadratic, round_points
+from scorecard.quantize.refit import indicator_matrix, refit_row_values
+from scorecard.sheet import CAUTIONS, ROUNDING_RULE, risk_text
+
+PLACEHOLDER_WORDING = "Write your unit's agreed action here (local protocol)."
+
+
+@dataclass
+class Bound:
+    """The methodologist's bound and the limits of the paper.
+
+    Defaults are ones the demo model meets (measured, docs/quantization.md): ΔAUC at most 0.01, and at most
+    5 % of patients with their risk misstated by more than 10 percentage points, on at most 8 rows per term
+    and a total of at most 40 points. Tighter per-patient agreement is out of reach for a strong model with a
+    dozen terms on a 40-point sheet: the rounding alone moves a patient by a few tenths of a log-odds. `max_row_error` caps, in log-odds, how far any row may be from the model's
+    curve anywhere in the training range before the joint refit."""
+
+    max_auc_loss: float = 0.01
+    max_risk_error: float = 0.10
+    risk_error_share: float = 0.05
+    max_rows: int = 8
+    max_total_points: int = 40
+    max_row_error: float = 1.0
+
+    def check(self) -> None:
+        if not 0 <= self.max_auc_loss < 1:
+            raise UserError(f"--max-auc-loss {self.max_auc_loss}: give a number from 0 to 1 (e.g. 0.005)")
+        if not 0 < self.max_risk_error < 1:
+            raise UserError(f"--max-risk-error {self.max_risk_error}: give a fraction above 0 and below 1 (0.05 = 5 percentage points)")
+        if not 0 <= self.risk_error_share <= 1:
+            raise UserError(f"--risk-error-share {self.risk_error_share}: give a fraction from 0 to 1 (0.05 = 5 % of patients)")
+        if self.max_rows < 1:
+            raise UserError(f"--max-rows {self.max_rows}: give a whole number of at least 1")
+        if self.max_total_points < 1:
+            raise UserError(f"--max-total-points {self.max_total_points}: give a whole number of at least 1")
+        if not self.max_row_error > 0:
+            raise UserError(f"--max-row-error {self.max_row_error}: give a positive number of log-odds (e.g. 0.5)")
+
+
+@dataclass
+class Candidate:
+    budget: int
+    choice: list[int]
+    layouts: list[Layout]
+    points: list[np.ndarray]
+    scale: float
+    offset: float
+    sheet_logodds: np.ndarray
+    figures: dict
+    total_range: int
+    passed: bool
+
+
+@dataclass
+class Problem:
+    """Everything fixed before the search: the population, the curves and their options."""
+
+    model: AdditiveModel
+    population: Population
+    curves: list[Curve]
+    options: list[list]
+    weight: np.ndarray
+    auc_model: float
+    bound: Bound
+    allow_negative: bool
+    tried: list[dict] = field(default_factory=list)
+
+
+def _design(problem: Problem, layouts: list[Layout]):
+    """Global row ids per patient, the term of each row, and each row's own-curve value."""
+    starts = np.cumsum([0] + [lay.n_rows for lay in layouts])
+    ids = np.empty((problem.population.size, len(layouts)), dtype=np.int64)
+    v0 = np.zeros(starts[-1])
+    term_of_row = np.zeros(starts[-1], dtype=np.int64)
+    for t, (curve, lay) in enumerate(zip(problem.curves, layouts)):
+        ids[:, t] = starts[t] + lay.row_of_piece[curve.patient_piece]
+        w = curve.piece_weights(problem.weight)
+        sw = np.bincount(lay.row_of_piece, weights=w, minlength=lay.n_rows)
+        ss = np.bincount(lay.row_of_piece, weights=w * curve.scores, minlength=lay.n_rows)
+        v0[starts[t]:starts[t + 1]] = ss / sw
+        term_of_row[starts[t]:starts[t + 1]] = t
+    return ids, v0, term_of_row, starts
+
+
+def _points_for_total(q: Quadratic, values, term_of_row, span: float, target: int, allow_negative: bool):
+    """Best (scale, (points, offset)) whose total-points range is at most `target`: a few scales at and
+    below span / target, each rounded and improved, keeping the smallest weighted error."""
+    best = None
+    for shrink in (1.0, 0.95, 0.9, 0.8, 0.7, 0.5):
+        scale = span / (target * shrink)
+        got = round_points(q, values, term_of_row, scale, target, allow_negative)
+        if got is None:
+            continue
+        err = _error(q, scale, *got)
+        if best is None or err < best[0] - 1e-12:
+            best = (err, scale, got)
+    return None if best is None else best[1:]
+
+
+def _error(q: Quadratic, scale: float, pts: np.ndarray, offset: float) -> float:
+    """sum_i w_i (offset + scale * (X p)_i - y_i)^2 from the Gram form."""
+    p = pts.astype(float)
+    return float(scale * scale * p @ q.gram @ p - 2 * scale * p @ q.xwy + 2 * offset * scale * q.xw @ p
+                 + offset * offset * q.sw - 2 * offset * q.swy + q.yy)
+
+
+def _span(values, term_of_row) -> float:
+    n_terms = int(term_of_row.max()) + 1
+    return float(sum(np.ptp(values[term_of_row == t]) for t in range(n_terms)))
+
+
+def _evaluate(problem: Problem, budget: int) -> Candidate | None:
+    """The best sheet with at most `budget` rows: allocation, refit, then the smallest total that passes
+    (or, if none passes, the candidate at the largest total allowed)."""
+    choice = allocate_rows(problem.options, budget)
+    if choice is None:
+        return None
+    layouts = [problem.options[t][i].layout for t, i in enumerate(choice)]
+    ids, v0, term_of_row, starts = _design(problem, layouts)
+    x = indicator_matrix(ids, len(v0))
+    y = problem.population.logodds
+    values, _ = refit_row_values(x, y, problem.weight, v0)
+    q = Quadratic.from_design(x, y, problem.weight)
+    span = _span(values, term_of_row)
+    if span <= 0:
+        span = 1.0
+    bound = problem.bound
+
+    def attempt(target: int) -> Candidate | None:
+        found = _points_for_total(q, values, term_of_row, span, target, problem.allow_negative)
+        if found is None:
+            return None
+        scale, (pts, offset) = found
+        sheet = offset + scale * (x @ pts)
+        figs = quick_figures(y, sheet, bound.max_risk_error, problem.auc_model)
+        passed = figs["auc_loss"] <= bound.max_auc_loss and figs["share_over_risk_error"] <= bound.risk_error_share
+        per_term = [pts[starts[t]:starts[t + 1]] for t in range(len(layouts))]
+        total_range = int(sum(np.ptp(p) for p in per_term))
+        cand = Candidate(budget, choice, layouts, per_term, scale, offset, sheet, figs, total_range, passed)
+        problem.tried.append({"row_budget": budget, "total_points_target": target, "scale": scale,
+                              "auc_loss": figs["auc_loss"], "share_over_risk_error": figs["share_over_risk_error"],
+                              "passed": passed})
+        return cand
+
+    top = attempt(bound.max_total_points)
+    if top is None or not top.passed:
+        return top
+    lo, hi, best = 1, bound.max_total_points, top
+    while lo < hi:  # smallest total-points target that still passes
+        mid = (lo + hi) // 2
+        cand = attempt(mid)
+        if cand is not None and cand.passed:
+            best, hi = cand, mid
+        else:
+            lo = mid + 1
+    return best
+
+
+def _printed_rows(layouts: list[Layout]) -> int:
+    return int(sum(lay.size for lay in layouts))
+
+
+def prepare(model: AdditiveModel, data: pd.DataFrame | None = None, bound: Bound | None = None,
+            allow_negative: bool = False, population: Population | None = None,
+            max_candidates: int = MAX_CANDIDATES) -> Problem:
+    bound = bound or Bound()
+    bound.check()
+    if not model.terms:
+        raise UserError("the model has no terms; there is nothing to put on a sheet")
+    population = population or evaluation_population(model, data)
+    p = population.risk
+    weight = p * (1 - p)
+    curves = build_curves(model, population.frame, max_candidates)
+    options = [c.options(weight, bound.max_rows, bound.max_row_error) for c in curves]
+    auc_model = expected_auc(p, population.logodds)
+    return Problem(model, population, curves, options, weight, auc_model, bound, allow_negative)
+
+
+def search(problem: Problem, progress: Callable[[str], None] | None = None) -> Candidate:
+    """The simplest passing candidate: fewest rows (bisection on the row budget), then smallest total."""
+    say = progress or (lambda _m: None)
+    lo = sum(min(o.size for o in opts) for opts in problem.options)
+    hi = sum(max(o.size for o in opts) for opts in problem.options)
+    say(f"searching row budgets {lo}-{hi} over {len(problem.curves)} terms")
+    top = _evaluate(problem, hi)
+    if top is None or not top.passed:
+        raise CheckFailed(_infeasible_message(problem, top))
+    best = top
+    while lo < hi:
+        mid = (lo + hi) // 2
+        cand = _evaluate(problem, mid)
+        say(f"  {mid} rows: {'meets' if cand is not None and cand.passed else 'misses'} the bound")
+        if cand is not None and cand.passed:
+            best, hi = cand, mid
+        else:
+            lo = mid + 1
+    return best
+
+
+def _infeasible_message(problem: Problem, top: Candidate | None) -> str:
+    b = problem.bound
+    if top is None:
+        return (f"no sheet fits within --max-total-points {b.max_total_points}: even the coarsest rounding needs more; "
+                "raise --max-total-points")
+    f = top.figures
+    parts, relax = [], []
+    if f["auc_loss"] > b.max_auc_loss:
+        parts.append(f"ΔAUC {f['auc_loss']:.4f} (bound {b.max_auc_loss:g})")
+        relax.append("--max-auc-loss")
+    else:
+        parts.append(f"ΔAUC {f['auc_loss']:.4f} (meets {b.max_auc_loss:g})")
+    share = f["share_over_risk_error"]
+    if share > b.risk_error_share:
+        parts.append(f"{share:.1%} of patients misstated by more than {b.max_risk_error * 100:g} pp (bound {b.risk_error_share:.0%})")
+        relax.append("--max-risk-error or --risk-error-share")
+    else:
+        parts.append(f"{share:.1%} misstated by more than {b.max_risk_error * 100:g} pp (meets {b.risk_error_share:.0%})")
+    return (f"no sheet with at most {b.max_rows} rows per term and {b.max_total_points} total points meets the bound; "
+            f"best achievable: {', '.join(parts)}, 95th percentile |Δrisk| {f['p95_abs_risk_error'] * 100:.1f} pp; "
+            f"relax {' or '.join(relax)}, or raise --max-total-points / --max-rows")
+
+
+def _readability(problem: Problem, cand: Candidate) -> dict:
+    """Error before rounding with readable cuts vs cuts anywhere between model bins, at the same rows."""
+    nice_total = free_total = 0.0
+    per_term = {}
+    for curve, opts, i in zip(problem.curves, problem.options, cand.choice):
+        if isinstance(curve, LevelCurve):
+            continue
+        nice = opts[i]
+        free = {o.size: o.cost for o in curve.options(problem.weight, problem.bound.max_rows, problem.bound.max_row_error, nice=False)}
+        f = free.get(nice.size, nice.cost)
+        per_term[curve.name] = {"rows": nice.size, "error_nice_cuts": nice.cost, "error_any_cuts": f}
+        nice_total += nice.cost
+        free_total += f
+    extra = (nice_total / free_total - 1) if free_total > 0 else 0.0
+    return {"extra_error_share": extra, "per_term": per_term,
+            "note": "risk-weighted squared log-odds error before rounding; readable cuts vs cuts at any model bin edge"}
+
+
+def _tradeoff(problem: Problem, cand: Candidate) -> list[dict]:
+    """How the allowed total-points range trades against per-patient error, at the chosen rows."""
+    ids, v0, term_of_row, _ = _design(problem, cand.layouts)
+    x = indicator_matrix(ids, len(v0))
+    y = problem.population.logodds
+    values, _ = refit_row_values(x, y, problem.weight, v0)
+    q = Quadratic.from_design(x, y, problem.weight)
+    span = _span(values, term_of_row) or 1.0
+    out = []
+    for target in sorted({10, 15, 20, 30, 40, 60, 100, problem.bound.max_total_points, cand.total_range}):
+        found = _points_for_total(q, values, term_of_row, span, target, problem.allow_negative)
+        if found is None:
+            continue
+        scale, (pts, offset) = found
+        figs = quick_figures(y, offset + scale * (x @ pts), problem.bound.max_risk_error, problem.auc_model)
+        out.append({"total_points": target, "auc_loss": figs["auc_loss"], "p95_abs_risk_error": figs["p95_abs_risk_error"],
+                    "mean_abs_risk_error": figs["mean_abs_risk_error"], "share_over_risk_error": figs["share_over_risk_error"]})
+    return out
+
+
+def parse_bands(text: str | None) -> list[dict]:
+    """'low<5,moderate<20,high' -> bands with upper risks 0.05, 0.20 and an open last band."""
+    if not text:
+        return []
+    bands = []
+    items = [s.strip() for s in text.split(",")]
+    for i, item in enumerate(items):
+        last = i == len(items) - 1
+        if "<" in item:
+            name, _, number = item.partition("<")
+            try:
+                upper = float(number.strip().rstrip("%")) / 100
+            except ValueError:
+                raise UserError(f"--bands: {item!r}: the limit after '<' must be a percentage, e.g. low<5") from None
+            if last:
+                raise UserError(f"--bands: the last band {item!r} must be open (no '<'), e.g. low<5,moderate<20,high")
+            if not 0 < upper < 1 or (bands and upper <= bands[-1]["upper_risk"]):
+                raise UserError(f"--bands: {item!r}: limits must rise and lie between 0 and 100 percent")
+        else:
+            name, upper = item, None
+            if not last:
+                raise UserError(f"--bands: band {item!r} needs a limit such as {item}<5 (only the last band is open)")
+        if not name.strip():
+            raise UserError(f"--bands: {item!r} has no name; write e.g. low<5,moderate<20,high")
+        bands.append({"name": name.strip(), "upper_risk": upper, "wording": PLACEHOLDER_WORDING})
+    if len({b["name"] for b in bands}) != len(bands):
+        raise UserError("--bands: two bands have the same name")
+    return bands
+
+
+def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equal_levels: bool = False,
+                bootstrap: int = 200, title: str | None = None, settings: dict | None = None) -> dict:
+    model = problem.model
+    scale, offset = cand.scale, cand.offset
+    terms, dropped, piece_errors = [], [], {}
+    for curve, lay, pts in zip(problem.curves, cand.layouts, cand.points):
+        if np.ptp(pts) == 0:
+            offset += scale * float(pts[0])  # a constant term moves into the offset
+            effect = float(np.ptp(curve.scores))
+            dropped.append({"name": curve.name, "reason":
+                            f"its whole effect ({effect:.2f} log-odds) rounds to 0 points at {scale:.3g} log-odds per point"})
+            piece_errors[curve.name] = -curve.scores
+            continue
+        piece_errors[curve.name] = scale * pts[lay.row_of_piece] - curve.scores
+        if isinstance(curve, LevelCurve):
+            terms.append(curve.sheet_term(lay, pts.tolist(), merge_equal=merge_equal_levels))
+        else:
+            terms.append(curve.sheet_term(lay, pts.tolist()))
+    total_min = int(sum(min(_term_points(t)) for t in terms))
+    total_max = int(sum(max(_term_points(t)) for t in terms))
+    conversion = []
+    for total in range(total_min, total_max + 1):
+        risk = float(logistic(np.array([offset + scale * total]))[0])
+        conversion.append({"total": total, "risk": risk, "text": risk_text(risk)})
+    say_bound = problem.bound
+    figures = full_figures(problem.population.logodds, cand.sheet_logodds, say_bound.max_risk_error, bands, bootstrap=bootstrap)
+    cert = certificate(piece_errors, offset, model.intercept, scale, total_min, total_max)
+    outcome = dict(model.outcome)
+    report = {
+        "printed_rows": printed_rows(terms),
+        "rows_per_term": {c.name: lay.size for c, lay in zip(problem.curves, cand.layouts)},
+        "total_points_range": total_max - total_min,
+        "readability": _readability(problem, cand),
+        "total_points_tradeoff": _tradeoff(problem, cand),
+        "search": problem.tried,
+    }
+    return {
+        "format_version": 1,
+        "document": "scorecard-sheet",
+        "title": title or f"Risk of {outcome['event']}",
+        "model": {"name": model.name, "version": model.version, "fingerprint": model.fingerprint},
+        "outcome": outcome,
+        "link": "logit",
+        "scale": {"logodds_per_point": scale, "offset": offset},
+        "rounding_rule": ROUNDING_RULE,
+        "cautions": list(CAUTIONS),
+        "terms": terms,
+        "dropped_terms": dropped,
+        "total": {"min": total_min, "max": total_max},
+        "conversion": conversion,
+        "bands": bands,
+        "bound": {k: v for k, v in asdict(say_bound).items() if k != "max_row_error"},
+        "achieved": figures,
+        "certificate": cert,
+        "report": report,
+        "provenance": {"package_version": __version__, "settings": settings or {"max_row_error": say_bound.max_row_error,
+                       "allow_negative": problem.allow_negative, "merge_equal_levels": merge_equal_levels},
+                       "evaluation": problem.population.description},
+    }
+
+
+def printed_rows(terms: list[dict]) -> int:
+    """Rows a nurse reads: every row of every table, and for a grid its row and column headings."""
+    return int(sum(len(t["axes"][0]["rows"]) + len(t["axes"][1]["rows"]) if t["kind"] == "pair" else len(t["rows"])
+                   for t in terms))
+
+
+def _term_points(term: dict) -> list[int]:
+    if term["kind"] == "pair":
+        return [p for row in term["points"] for p in row] + [term["missing_points"]]
+    return [r["points"] for r in term["rows"]]
+
+
+def quantize_model(model: AdditiveModel, data: pd.DataFrame | None = None, bound: Bound | None = None,
+                   bands: list[dict] | None = None, allow_negative: bool = False, merge_equal_levels: bool = False,
+                   bootstrap: int = 200, title: str | None = None, progress: Callable[[str], None] | None = None,
+                   population: Population | None = None) -> dict:
+    """The sheet document (a plain dict, not yet fingerprinted) for `model`: the simplest sheet meeting
+    `bound` on `data` (or on a synthetic population from the model's bin counts). Raises CheckFailed with
+    the best achievable figures when no sheet within the limits meets the bound."""
+    bound = bound or Bound()
+    problem = prepare(model, data, bound, allow_negative, population)
+    cand = search(problem, progress)
+    settings = {"max_row_error": bound.max_row_error, "allow_negative": allow_negative,
+                "merge_equal_levels": merge_equal_levels, "bootstrap": bootstrap}
+    return build_sheet(problem, cand, bands or [], merge_equal_levels, bootstrap, title, settings)

@@ -1,0 +1,130 @@
+"""Optimal segmentation of a shape curve into printed rows, by dynamic programming over its pieces.
+
+A term's curve is a sequence of pieces (model bins, split where a printed cut could fall), each with the
+model's score s_i and a weight w_i. A segmentation into k rows puts the cuts at k - 1 allowed positions and
+gives each row one value; the best value of a row is its weighted mean, so the cost of a row is its weighted
+sum of squared deviations. The weights are risk weights, w_i = sum over the patients in piece i of
+p(1 - p): a log-odds error e moves a patient's risk by about p(1 - p) e, so the cost is (to first order) the
+summed squared *risk* error, which keeps the sparse high-risk tails from being sacrificed the way plain
+population-weighted error does. A cap bounds the largest |s_i - row value| over every piece, populated or
+not, so no part of the training range is misstated by more than the cap whatever its weight.
+
+The recursion is the classical optimal k-segmentation of a sequence (Bellman, "On the approximation of
+curves by line segments using dynamic programming", Communications of the ACM, 1961; the same DP as
+Jenks-Fisher optimal 1-D grouping, Fisher, JASA 1958), exact in O(k m^2) for m allowed cut positions.
+"""
+
+from __future__ import annotations
+
+from dataclasses import dataclass
+
+import numpy as np
+
+_INF = float("inf")
+
+
+@dataclass
+class SegmentTable:
+    """Costs of every candidate row [node u, node v) of one curve; nodes are 0, the allowed cuts, and P."""
+
+    nodes: np.ndarray  # piece index where each node starts (first 0, last P)
+    cost: np.ndarray  # (m+2, m+2) weighted squared error of the row u..v (inf when u >= v or the cap is broken)
+    deviation: np.ndarray  # (m+2, m+2) largest |score - row value| over the pieces of the row
+    value: np.ndarray  # (m+2, m+2, G) the row's value (weighted mean per column group)
+
+
+def segment_table(scores: np.ndarray, weights: np.ndarray, allowed: np.ndarray) -> SegmentTable:
+    """Tabulate every possible row of a curve.
+
+    `scores`, `weights`: (P,) or (P, G) - G > 1 when the curve has several columns that share the same cuts
+    (a pair grid segmented along one axis, each column group keeping its own value); the cost then sums over
+    the columns. `allowed`: sorted piece indices (1..P-1) where a row may start."""
+    s = np.asarray(scores, dtype=float)
+    w = np.asarray(weights, dtype=float)
+    if s.ndim == 1:
+        s, w = s[:, None], w[:, None]
+    n_pieces = s.shape[0]
+    nodes = np.concatenate([[0], np.asarray(allowed, dtype=np.int64), [n_pieces]])
+    zero = np.zeros((1, s.shape[1]))
+    cw = np.vstack([zero, np.cumsum(w, axis=0)])
+    cs = np.vstack([zero, np.cumsum(w * s, axis=0)])
+    cq = np.vstack([zero, np.cumsum(w * s * s, axis=0)])
+    a, b = nodes[:, None], nodes[None, :]
+    dw = cw[b] - cw[a]  # (N, N, G)
+    ds = cs[b] - cs[a]
+    dq = cq[b] - cq[a]
+    with np.errstate(invalid="ignore", divide="ignore"):
+        mean = np.where(dw > 0, ds / np.where(dw > 0, dw, 1.0), 0.0)
+        cost = np.maximum(dq - ds * mean, 0.0).sum(axis=2)
+    # largest and smallest score inside each row (per column group), for the cap and the certificate
+    n_nodes = len(nodes)
+    deviation = np.full((n_nodes, n_nodes), _INF)
+    for u in range(n_nodes - 1):
+        start = nodes[u]
+        run_max = np.maximum.accumulate(s[start:], axis=0)
+        run_min = np.minimum.accumulate(s[start:], axis=0)
+        ends = nodes[u + 1:] - start - 1  # last piece of row u..v
+        dev = np.maximum(run_max[ends] - mean[u, u + 1:], mean[u, u + 1:] - run_min[ends])
+        deviation[u, u + 1:] = dev.max(axis=1)
+    upper = np.triu(np.ones((n_nodes, n_nodes), dtype=bool), k=1)
+    cost = np.where(upper, cost, _INF)
+    return SegmentTable(nodes=nodes, cost=cost, deviation=deviation, value=mean)
+
+
+def best_segmentations(table: SegmentTable, max_rows: int, cap: float = _INF) -> list[tuple[float, list[int]] | None]:
+    """For k = 1..max_rows: (cost, cut piece indices) of the segmentation into exactly k rows minimising
+
+        sum over rows r of sum over pieces i in r of w_i (s_i - mean_r)^2
+        subject to |s_i - mean_r| <= cap for every piece,
+
+    or None when no k-row segmentation meets the cap. Exact (dynamic programming over the allowed cuts)."""
+    cost = np.where(table.deviation <= cap, table.cost, _INF)
+    n_nodes = len(table.nodes)
+    best = np.full(n_nodes, _INF)
+    best[0] = 0.0
+    back = []
+    out: list[tuple[float, list[int]] | None] = []
+    for _k in range(1, max_rows + 1):
+        total = best[:, None] + cost  # (from u, to v)
+        arg = np.argmin(total, axis=0)
+        new = total[arg, np.arange(n_nodes)]
+        back.append(arg)
+        best = new
+        end = best[-1]
+        if not np.isfinite(end):
+            out.append(None)
+            continue
+        cuts = []
+        v = n_nodes - 1
+        for step in range(len(back) - 1, 0, -1):
+            v = int(back[step][v])
+            cuts.append(int(table.nodes[v]))
+        out.append((float(end), sorted(cuts)))
+    return out
+
+
+def smallest_cap(table: SegmentTable, rows: int) -> float:
+    """The smallest achievable largest error, min over segmentations into at most `rows` rows of
+    max over pieces |s_i - row mean| (minimax version of the same DP)."""
+    n_nodes = len(table.nodes)
+    dev = np.where(np.isfinite(table.cost), table.deviation, _INF)
+    best = np.full(n_nodes, _INF)
+    best[0] = 0.0
+    answer = _INF
+    for _k in range(rows):
+        best = np.min(np.maximum(best[:, None], dev), axis=0)
+        answer = min(answer, float(best[-1]))
+    return answer
+
+
+def optimal_cuts(scores, weights, rows: int, allowed=None, cap: float = _INF) -> tuple[float, list[int]] | None:
+    """Convenience: the best segmentation of a curve into exactly `rows` rows (None if the cap cannot be met).
+    `allowed` defaults to every position between pieces."""
+    n = len(scores)
+    allowed = np.arange(1, n) if allowed is None else np.asarray(allowed)
+    return best_segmentations(segment_table(scores, weights, allowed), rows, cap)[rows - 1]
+
+
+def rows_of_pieces(n_pieces: int, cuts: list[int]) -> np.ndarray:
+    """Row index of every piece given the cut piece indices."""
+    return np.searchsorted(np.asarray(cuts, dtype=np.int64), np.arange(n_pieces), side="right")
