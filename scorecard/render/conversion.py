@@ -212,7 +212,7 @@ class ConversionCurve(Flowable):
 
     def wrap(self, avail_width, avail_height):
         self.width = avail_width
-        self.height = min(avail_width * 0.45, max(self.styles.body_pt * 16, avail_width * 0.3))
+        self.height = min(avail_width * 0.45, max(self.styles.body_pt * 16, avail_width * 0.3)) + self.styles.min_pt * 1.5
         return self.width, self.height
 
     def split(self, avail_width, avail_height):
@@ -220,6 +220,22 @@ class ConversionCurve(Flowable):
 
     def draw(self):
         self._make(self.width, self.height).drawOn(self.canv, 0, 0)
+
+    @staticmethod
+    def _legend_rows(bands: list[dict], width: float, s: float) -> list[list[tuple[float, int, str]]]:
+        """Swatch positions for the band key, wrapped to the width: [[(x, band index, text), ...], ...]."""
+        rows, row, x = [], [], 0.0
+        for b, band in enumerate(bands):
+            label = f"{band['name']} risk"
+            item_w = s * 2.0 + text_width(label, s) + s * 1.5
+            if row and x + item_w > width:
+                rows.append(row)
+                row, x = [], 0.0
+            row.append((x, b, label))
+            x += item_w
+        if row:
+            rows.append(row)
+        return rows
 
     def _make(self, width: float, height: float) -> Drawing:
         s = self.styles.min_pt
@@ -230,7 +246,10 @@ class ConversionCurve(Flowable):
         y_step = _nice_step(max(risks), 5)
         y_top = min(100, y_step * math.ceil(max(risks) / y_step)) or y_step
         left = text_width("100%", s) + s * 2.4
-        bottom = s * 3.4
+        bands = self.sheet.get("bands") or []
+        legend = self._legend_rows(bands, width, s)
+        legend_h = len(legend) * s * 1.5
+        bottom = s * 3.4 + legend_h
         top_pad = s * 2.4
         plot_w = width - left - s
         plot_h = height - bottom - top_pad
@@ -242,8 +261,13 @@ class ConversionCurve(Flowable):
         def y_of(pct):
             return bottom + pct / y_top * plot_h
 
-        bands = self.sheet.get("bands") or []
         members = row_bands(self.sheet)
+        # a key under the axis names every band's shading, even where a band is too narrow to label
+        for r, row in enumerate(legend):
+            y = legend_h - (r + 1) * s * 1.5 + s * 0.3
+            for x, b, label in row:
+                d.add(Rect(x, y - 1, s * 1.6, s, fillColor=band_tint(b, len(bands)), strokeColor=colors.black, strokeWidth=0.5))
+                d.add(String(x + s * 2.0, y, label, fontName=REGULAR, fontSize=s))
         if bands:
             for b, band in enumerate(bands):
                 inside = [t for t, m in zip(totals, members) if m == b]
@@ -251,9 +275,6 @@ class ConversionCurve(Flowable):
                     continue
                 x0, x1 = x_of(inside[0] - 0.5), x_of(inside[-1] + 0.5)
                 d.add(Rect(x0, bottom, x1 - x0, plot_h, fillColor=band_tint(b, len(bands)), strokeColor=None))
-                label = band["name"]
-                if text_width(label, s) < x1 - x0 - 2:
-                    d.add(String((x0 + x1) / 2, bottom + plot_h + s * 0.5, label, fontName=REGULAR, fontSize=s, textAnchor="middle"))
         # axes and grid
         d.add(Line(left, bottom, left + plot_w, bottom, strokeWidth=0.8))
         d.add(Line(left, bottom, left, bottom + plot_h, strokeWidth=0.8))
@@ -270,7 +291,7 @@ class ConversionCurve(Flowable):
         for t in totals:
             x = x_of(t)
             d.add(Line(x, bottom, x, bottom - 2, strokeWidth=0.5))
-            if (t - t_lo) % x_step == 0:
+            if t % x_step == 0:
                 d.add(String(x, bottom - s * 1.45, total_text(t), fontName=REGULAR, fontSize=s, textAnchor="middle"))
         d.add(String(left + plot_w / 2, bottom - s * 2.85, "Total points", fontName=BOLD, fontSize=s, textAnchor="middle"))
         d.add(String(0, bottom + plot_h + s * 1.0, "Risk", fontName=BOLD, fontSize=s, textAnchor="start"))

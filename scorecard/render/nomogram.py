@@ -213,6 +213,17 @@ class NomogramBlock(Flowable):
             step = {1: 2, 2: 5, 5: 10}.get(step, step * 2)
         return step
 
+    def _risk_step(self, step: int, lo: int, hi: int, risks: dict[int, str], s: float) -> int:
+        """The finest labelling step (from `step` up) at which neighbouring risk labels do not touch."""
+        candidates = [n for n in (1, 2, 5, 10, 20, 25, 50, 100, 200, 500) if n >= step] or [step]
+        for n in candidates:
+            shown = [t for t in range(lo, hi + 1) if t % n == 0]
+            widths = [text_width(risks[t], s) for t in shown]
+            if all(self._total_x(b) - self._total_x(a) >= (wa + wb) / 2 + s * 0.5
+                   for a, b, wa, wb in zip(shown, shown[1:], widths, widths[1:])):
+                return n
+        return candidates[-1]
+
     def draw(self):
         c = self.canv
         s = self.styles.body_pt
@@ -261,9 +272,8 @@ class NomogramBlock(Flowable):
         label_w = max(text_width(total_text(t), s) for t in (lo, hi)) + s * 0.6
         step = self._tick_step(self._total_x, lo, hi, label_w)
         c.setFont(REGULAR, s)
-        risk_w = max(text_width(r["text"], s) for r in self.sheet["conversion"]) + s * 0.8
-        step = max(step, self._tick_step(self._total_x, lo, hi, risk_w))
         risks = {r["total"]: r["text"] for r in self.sheet["conversion"]}
+        step = self._risk_step(step, lo, hi, risks, s)
         for t in range(lo, hi + 1):
             x = self._total_x(t)
             labelled = t % step == 0
