@@ -318,6 +318,8 @@ def _check_term(t: dict, where: str, features: dict[str, dict], single_features:
         else:
             if "levels" not in axis:
                 return f"{aw}: feature {name!r} is {fkind}, so its axis needs levels"
+            if len(set(axis["levels"])) != len(axis["levels"]):
+                return f"{aw}.levels: a level is listed twice"
             want = list(FLAG_LEVELS) if fkind == "flag" else None
             if want is not None and axis["levels"] != want:
                 return f"{aw}.levels: a flag axis is {want}"

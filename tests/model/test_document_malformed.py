@@ -67,6 +67,10 @@ CASES = [
     ("pair grid cell is NaN", _set(["terms", 5, "scores"], [[0.0, 0.0], [float("nan"), -0.1]]), "terms[5].scores[1][0]"),
     ("pair of one feature twice", _set(["terms", 5, "features"], ["age", "age"]), "terms[5].features"),
     ("pair axis without edges", _set(["terms", 5, "axes"], [{"levels": ["a"]}, {"edges": [5]}]), "terms[5].axes[0]"),
+    ("pair axis level listed twice", lambda d: d["terms"].append(
+        {"kind": "pair", "name": "res x flag", "features": ["residence", "prior_delirium"],
+         "axes": [{"levels": ["own_home", "own_home"]}, {"levels": ["no", "yes"]}], "scores": [[0, 0], [0, 0]]}),
+     "terms[6].axes[0].levels"),
     ("pair feature not declared", _set(["terms", 5, "features"], ["age", "albumin"]), "terms[5].features[1]"),
     ("term without scores", _delete(["terms", 3, "scores"]), "'scores'"),
     ("provenance value is infinite", _set(["provenance", "largest_difference"], float("inf")), "provenance.largest_difference"),
