@@ -254,7 +254,9 @@ def true_shape(feature: str, interaction: bool = True):
         lookup = dict(zip(term.levels, scores))
 
         def level_shape(x):
-            return np.array([lookup[v] for v in np.atleast_1d(np.asarray(x, dtype=object))], dtype=float)
+            levels = np.asarray(x, dtype=object)
+            scored = np.array([lookup[v] for v in levels.ravel()], dtype=float).reshape(levels.shape)
+            return scored if scored.ndim else float(scored)
 
         return level_shape
 
