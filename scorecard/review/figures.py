@@ -229,7 +229,7 @@ def _continuous(fig: Figure, model: AdditiveModel, term: Term, cohort: pd.DataFr
             source = "training counts"
         widths = np.diff(bounds)
         heights = np.where(widths > 0, counts / np.where(widths > 0, widths, 1), 0)
-        dens_ax.bar(bounds[:-1], heights, width=widths, align="edge", color="0.8", edgecolor="black", linewidth=0.4, hatch="..")
+        dens_ax.bar(bounds[:-1], heights, width=widths, align="edge", color="0.8", edgecolor="black", linewidth=0.4)
         dens_ax.set_ylabel(f"patients per unit\n({source})", fontsize=7)
     elif term.counts is not None:
         dens_ax.vlines(edges, 0, term.counts, color="black", linewidth=2)
@@ -298,7 +298,7 @@ def _levels(fig: Figure, model: AdditiveModel, term: Term, cohort: pd.DataFrame 
     shape_ax.set_ylim(min(min(scores), 0) - pad - (settings.band_width * max(spread) if spread else 0), max(max(scores), 0) + pad + (settings.band_width * max(spread) if spread else 0))
     shape_ax.set_title(f"{term.name}: {feature.label}", fontsize=11, loc="left")
     dens_ax = fig.add_axes([LEFT, 0.29, WIDTH, 0.17])
-    dens_ax.bar(x, counts, color="0.8", edgecolor="black", linewidth=0.6, hatch="..")
+    dens_ax.bar(x, counts, color="0.8", edgecolor="black", linewidth=0.6)
     total = sum(counts) or 1.0
     for xi, c in zip(x, counts):
         dens_ax.text(xi, c, f"{c:.0f} ({100 * c / total:.1f}%)", ha="center", va="bottom", fontsize=7)
@@ -336,12 +336,12 @@ def _pair(fig: Figure, model: AdditiveModel, term: Term, cohort: pd.DataFrame | 
     fig.colorbar(mesh, cax=cbar_ax).set_label("contribution to log-odds (numbers in cells)", fontsize=7)
     cbar_ax.tick_params(labelsize=6)
     top = fig.add_axes([LEFT + 0.1, 0.76, WIDTH - 0.26, 0.09], sharex=heat_ax)
-    top.bar(np.arange(cols) + 0.5, weights.per_score.sum(axis=0), width=0.9, color="0.8", edgecolor="black", linewidth=0.5, hatch="..")
+    top.bar(np.arange(cols) + 0.5, weights.per_score.sum(axis=0), width=0.9, color="0.8", edgecolor="black", linewidth=0.5)
     top.tick_params(labelbottom=False, labelsize=6)
     top.set_ylabel(f"patients\n({weights.source})", fontsize=6.5)
     top.spines[["top", "right"]].set_visible(False)
     side = fig.add_axes([LEFT + WIDTH - 0.155, 0.30, 0.09, 0.45], sharey=heat_ax)
-    side.barh(np.arange(rows) + 0.5, weights.per_score.sum(axis=1), height=0.9, color="0.8", edgecolor="black", linewidth=0.5, hatch="..")
+    side.barh(np.arange(rows) + 0.5, weights.per_score.sum(axis=1), height=0.9, color="0.8", edgecolor="black", linewidth=0.5)
     side.tick_params(labelleft=False, labelsize=6)
     side.set_xlabel("patients", fontsize=6.5)
     side.spines[["top", "right"]].set_visible(False)

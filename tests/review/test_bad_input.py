@@ -1,0 +1,70 @@
+"""Bad edits and bad review/explain input: exit 2, one line naming what is wrong, nothing written."""
+
+from __future__ import annotations
+
+import pytest
+
+
+BAD_EDITS = [
+    (["--zero", "frailty"], "term 'frailty' is not in the model"),
+    (["--monotone", "residence=increasing"], "categorical"),
+    (["--monotone", "sodium=upwards"], "TERM=increasing or TERM=decreasing"),
+    (["--monotone", "age x cognition=increasing"], "pair term"),
+    (["--clip", "sodium=100:150"], "outside the training range"),
+    (["--clip", "sodium=130:200"], "outside the training range"),
+    (["--clip", "sodium=150:130"], "LO must be below HI"),
+    (["--clip", "residence=1:2"], "only continuous terms"),
+    (["--clip", "sodium"], "TERM=LO:HI"),
+    (["--merge", "residence=own_home,castle"], "level 'castle' is not in the term"),
+    (["--merge", "prior_delirium=no,yes"], "use --zero instead"),
+    (["--merge", "residence=own_home"], "at least two levels"),
+    (["--declare", "shoe_size=increasing"], "feature is not in the model"),
+    (["--declare", "residence=increasing"], "no order"),
+    (["--declare", "sodium=sideways"], "FEATURE=VALUE"),
+    (["--zero", "sodium", "--outcome", "delirium"], "give --data"),
+    ([], "no edit given"),
+]
+
+
+@pytest.mark.parametrize("args, expected", BAD_EDITS, ids=[" ".join(a) or "none" for a, _ in BAD_EDITS])
+def test_bad_edit_exits_2_with_one_line_and_writes_nothing(care_model_path, review_dir, run_cli, args, expected):
+    out = review_dir / "never-written.model.json"
+    result = run_cli("edit", care_model_path, *args, "-o", out)
+    assert result.exit_code == 2
+    lines = result.stderr.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("error: ") and expected in lines[0], result.stderr
+    assert "Traceback" not in result.output
+    assert not out.exists()
+
+
+def test_edit_refuses_to_overwrite_its_input(care_model_path, run_cli):
+    before = open(care_model_path, "rb").read()
+    result = run_cli("edit", care_model_path, "--zero", "sodium", "-o", care_model_path)
+    assert result.exit_code == 2 and "input" in result.stderr
+    assert open(care_model_path, "rb").read() == before
+
+
+def test_edit_with_an_outcome_column_that_is_not_there(care_model_path, cohort_csv, review_dir, run_cli):
+    result = run_cli("edit", care_model_path, "--zero", "sodium", "--data", cohort_csv, "--outcome", "falls", "-o", review_dir / "x.json")
+    assert result.exit_code == 2 and "outcome column 'falls'" in result.stderr
+
+
+@pytest.mark.parametrize(
+    "args, expected",
+    [
+        (["--row", "0"], "does not exist"),
+        (["--row", "99999"], "does not exist"),
+        ([], "name the patient"),
+        (["--values", "age=80"], "needs a value for"),
+        (["--values", "height=180"], "not in the model"),
+    ],
+)
+def test_bad_explain_exits_2(care_model_path, cohort_csv, run_cli, args, expected):
+    data = ["--data", cohort_csv] if "--row" in args else []
+    result = run_cli("explain", care_model_path, *args, *data)
+    assert result.exit_code == 2 and expected in result.stderr and len(result.stderr.strip().splitlines()) == 1
+
+
+def test_review_of_a_missing_model_exits_2(review_dir, run_cli):
+    result = run_cli("review", review_dir / "nope.json", "-o", review_dir / "nope.pdf")
+    assert result.exit_code == 2 and "no such file" in result.stderr

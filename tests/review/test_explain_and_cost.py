@@ -1,0 +1,81 @@
+"""`scorecard explain` agrees with predict; edit costs agree with direct computations."""
+
+from __future__ import annotations
+
+import json
+
+import numpy as np
+import pytest
+from scipy.special import expit
+from sklearn.metrics import roc_auc_score
+
+from scorecard.model import contributions, load_model, predict_risk
+from scorecard.review.cost import edit_cost, expected_auc
+from scorecard.review.edits import zero_term
+from scorecard.tabular import read_csv
+
+
+@pytest.mark.parametrize("row", [1, 7, 250])
+def test_explain_matches_predict(care_model_path, cohort_csv, run_cli, row):
+    result = run_cli("explain", care_model_path, "--row", row, "--data", cohort_csv, "--json")
+    assert result.exit_code == 0, result.stderr
+    doc = json.loads(result.stdout)
+    model = load_model(care_model_path)
+    cohort = read_csv(cohort_csv)
+    risk = predict_risk(model, cohort)[row - 1]
+    assert doc["risk"] == pytest.approx(risk, rel=1e-12)
+    # reference: scipy's logistic function of baseline + the listed contributions
+    total = doc["baseline"] + sum(t["contribution"] for t in doc["terms"])
+    assert doc["risk"] == pytest.approx(float(expit(total)), rel=1e-12)
+    sizes = [abs(t["contribution"]) for t in doc["terms"]]
+    assert sizes == sorted(sizes, reverse=True) and len(sizes) == len(model.terms)
+    assert doc["model"]["fingerprint"] == model.fingerprint
+    # the table shows the same risk, at one decimal
+    table = run_cli("explain", care_model_path, "--row", row, "--data", cohort_csv).stdout
+    assert f"{100 * risk:.1f}%" in table and "Decision support only" in table
+
+
+def test_explain_from_values_equals_explain_from_the_row(care_model_path, cohort_csv, run_cli):
+    cohort = read_csv(cohort_csv)
+    model = load_model(care_model_path)
+    patient = cohort.iloc[4]
+    pairs = []
+    for name in model.used_features:
+        if patient[name].strip():
+            pairs += ["--values", f"{name}={patient[name]}"]
+    by_values = json.loads(run_cli("explain", care_model_path, *pairs, "--json").stdout)
+    by_row = json.loads(run_cli("explain", care_model_path, "--row", 5, "--data", cohort_csv, "--json").stdout)
+    assert by_values["risk"] == pytest.approx(by_row["risk"], rel=1e-12)
+    assert [t["term"] for t in by_values["terms"]] == [t["term"] for t in by_row["terms"]]
+
+
+def test_expected_auc_equals_the_pairwise_definition():
+    # van Klaveren et al., Statistics in Medicine 2016: sum over pairs i != j of p_i (1 - p_j) I(s_i > s_j)
+    # (ties count 1/2), divided by sum over i != j of p_i (1 - p_j); checked by brute force here
+    rng = np.random.default_rng(4)
+    s = np.round(rng.normal(size=60), 1)  # rounding makes ties
+    p = rng.uniform(0.02, 0.9, size=60)
+    num = den = 0.0
+    for i in range(60):
+        for j in range(60):
+            if i == j:
+                continue
+            w = p[i] * (1 - p[j])
+            den += w
+            num += w * (1.0 if s[i] > s[j] else 0.5 if s[i] == s[j] else 0.0)
+    assert expected_auc(s, p) == pytest.approx(num / den, rel=1e-12)
+
+
+def test_edit_cost_against_observed_outcome_uses_scikit_learns_auc(care_model, cohort_frame):
+    edited, _ = zero_term(care_model, "geriatric_review")
+    y = cohort_frame["delirium"].to_numpy(float)
+    cost = edit_cost(care_model, edited, cohort_frame, y)
+    parts, _ = contributions(edited, cohort_frame)
+    after = edited.intercept + parts.to_numpy().sum(axis=1)
+    # reference: sklearn.metrics.roc_auc_score on the edited model's log-odds
+    assert cost["auc_after"] == pytest.approx(roc_auc_score(y, after), abs=1e-6)
+    assert cost["calibration_in_the_large_after"] == pytest.approx(y.mean() - expit(after).mean(), abs=1e-6)
+    # the marker predicts delirium in these data (that is the trap), so zeroing it costs discrimination
+    assert cost["delta_auc"] < 0
+    without = edit_cost(care_model, edited, cohort_frame, None)
+    assert without["against"] == "the unedited model's risks" and without["delta_auc"] < 0
