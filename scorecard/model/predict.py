@@ -157,6 +157,12 @@ class _Evaluator:
                     f"{self.source}: row {row + 1}, column {feature.name!r}: level {values[row]!r} is not one the model knows "
                     f"({', '.join(term.levels)}); correct the spelling or set the term's unseen policy"
                 )
+            if policy == "missing" and feature.missing == "error":
+                row = int(np.flatnonzero(unseen)[0])
+                raise UserError(
+                    f"{self.source}: row {row + 1}, column {feature.name!r}: level {values[row]!r} is not one the model knows, "
+                    "and unknown levels count as not measured, which this model refuses; correct the level"
+                )
             idx = np.where(unseen, -1 if policy == "missing" else -3, idx)
         return idx
 

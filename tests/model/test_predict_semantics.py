@@ -86,6 +86,10 @@ def test_unseen_category_per_policy(model_doc):
     model_doc["features"][2]["missing"] = "score"
     parts, _ = contributions(model_from_dict(model_doc), frame)
     assert parts["residence"].tolist() == [0.0, 0.7, 0.55]
+    # missing, when the feature refuses not-measured values: the message names the unknown level
+    model_doc["features"][2]["missing"] = "error"
+    with pytest.raises(UserError, match=r"row 2, column 'residence': level 'hotel' is not one the model knows"):
+        contributions(model_from_dict(model_doc), frame)
 
 
 def test_flag_spellings_and_bad_flag_value(model_doc):
