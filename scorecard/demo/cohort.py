@@ -89,7 +89,9 @@ def generate_cohort(n: int, seed: int = 0, interaction: bool = True) -> pd.DataF
     albumin[rng.random(n) < pop.ALBUMIN_NOT_MEASURED] = np.nan
     data["albumin"] = albumin
     data["temperature"] = np.round(data["temperature"].astype(float), 1)
-    data["geriatric_review"] = np.zeros(n, dtype=np.int64)  # placeholder column so the frame has its final order
+    # the review is drawn after the outcome (see the module docstring); its log-odds effect is 0, so while the
+    # outcome is drawn its column can hold zeros
+    data["geriatric_review"] = np.zeros(n, dtype=np.int64)
     frame = pd.DataFrame({"patient_id": np.arange(1, n + 1, dtype=np.int64), **{f: data[f] for f in FEATURES}})
     for name in ("age", "cognition", "sodium", "haemoglobin", "hours_to_surgery", "medicines", "prior_delirium", "hearing_impairment"):
         frame[name] = frame[name].astype(np.int64)

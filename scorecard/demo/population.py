@@ -50,7 +50,7 @@ def _normalised(p: np.ndarray) -> np.ndarray:
 def discretised_normal(values: np.ndarray, mean, sd: float, step: float = 1.0) -> np.ndarray:
     """P(recorded value = v) when a normal measurement is rounded to `step` and kept only inside the grid.
 
-    `mean` may be a column (one mean per age); the result then has one row per mean.
+    `mean` may be a 1-D array (one mean per age); the result then has one row per mean.
     """
     mean = np.asarray(mean, dtype=float)[..., None]
     lo = (values - step / 2 - mean) / sd
@@ -59,6 +59,7 @@ def discretised_normal(values: np.ndarray, mean, sd: float, step: float = 1.0) -
 
 
 def discretised_lognormal(values: np.ndarray, median: float, sigma: float) -> np.ndarray:
+    """P(recorded whole value = v) for a log-normal measurement rounded to whole units, kept inside the grid."""
     lo = (np.log(np.maximum(values - 0.5, 1e-9)) - np.log(median)) / sigma
     hi = (np.log(values + 0.5) - np.log(median)) / sigma
     return _normalised(ndtr(hi) - ndtr(lo))
