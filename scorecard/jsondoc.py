@@ -71,6 +71,8 @@ def atomic_write_bytes(path: str | os.PathLike, data: bytes, protect: tuple[str 
         raise UserError(f"{target}: folder {directory} does not exist; create it or choose another -o path")
     fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=directory)
     try:
+        # mkstemp makes the file private (0600); give it the permissions a plain open() would
+        os.chmod(tmp, 0o666 & ~_current_umask())
         with os.fdopen(fd, "wb") as handle:
             handle.write(data)
         os.replace(tmp, target)
@@ -80,6 +82,12 @@ def atomic_write_bytes(path: str | os.PathLike, data: bytes, protect: tuple[str 
         except FileNotFoundError:
             pass
         raise
+
+
+def _current_umask() -> int:
+    mask = os.umask(0)
+    os.umask(mask)
+    return mask
 
 
 def atomic_write_text(path: str | os.PathLike, text: str, protect: tuple[str | os.PathLike, ...] = ()) -> None:
