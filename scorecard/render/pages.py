@@ -207,6 +207,11 @@ def _story(sheet: dict, layout: Layout, styles: Styles, short_fingerprint: str, 
         for part in section.parts:
             if part == "instructions":
                 story.append(instructions_block(sheet, styles, layout.compact))
+            elif part == "terms" and "instructions" not in section.parts:
+                story.append(Paragraph("Find the patient's row in each table and write its points in the box "
+                                       "beside the table's heading.", styles.body))
+                story.append(Spacer(1, styles.body_pt * 0.5))
+                story += [term_block(term, styles, signed, width) for term in sheet["terms"]]
             elif part == "terms":
                 story += [term_block(term, styles, signed, width) for term in sheet["terms"]]
             elif part == "total":

@@ -23,6 +23,7 @@ class Styles:
     body_right: ParagraphStyle
     body_center: ParagraphStyle
     points: ParagraphStyle
+    points_center: ParagraphStyle
     heading: ParagraphStyle
     section: ParagraphStyle
     title: ParagraphStyle
@@ -44,6 +45,7 @@ def styles_for(layout: Layout) -> Styles:
         body_right=style("body_right", body, align=TA_RIGHT),
         body_center=style("body_center", body, align=TA_CENTER),
         points=style("points", body, font=BOLD, align=TA_RIGHT),
+        points_center=style("points_center", body, font=BOLD, align=TA_CENTER),
         heading=style("heading", heading, font=BOLD),
         section=style("section", max(heading, body * 1.15), font=BOLD),
         title=style("title", title, font=BOLD),

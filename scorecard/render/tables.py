@@ -87,29 +87,35 @@ def pair_block(term: dict, styles: Styles, signed: bool, width: float) -> Flowab
     label0, label1 = term["labels"]
     points_w = points_column_width(styles)
     n_cols = len(axis1["rows"])
-    first_w = max(width * 0.34, width - n_cols * max(points_w, width * 0.2))
-    cell_w = (width - first_w) / n_cols
     box_w = points_w - 2 * PAD
 
     def axis_title(label, axis):
         unit = axis.get("unit")
         return f"{label} ({unit})" if unit else label
 
+    # row labels get what their longest text needs (within a third to a half of the width), the cells share the rest
+    needed = max([text_width(axis_title(label0, axis0), styles.body_pt)]
+                 + [text_width(r["text"], styles.body_pt) for r in axis0["rows"]]) + 2 * PAD + 2
+    first_w = min(width * 0.5, max(width * 0.3, needed))
+    cell_w = (width - first_w) / n_cols
+    if cell_w < points_w:  # many columns: give the cells their minimum and let the row labels wrap
+        cell_w = points_w
+        first_w = width - n_cols * cell_w
+
     heading = [Paragraph(markup(f"{term_heading(term)}: both together"), styles.heading)] + [""] * (n_cols - 1)
-    heading.append(WriteInBox(box_w, _box_height(styles)))
-    # the box sits in the last column, so the heading spans the others
-    corner = Paragraph(markup(f"{axis_title(label0, axis0)} \u2193  {axis_title(label1, axis1)} \u2192"), styles.body)
-    header = [corner] + [Paragraph(markup(r["text"]), styles.body_center) for r in axis1["rows"]]
-    data = [heading, header]
+    heading.append(WriteInBox(box_w, _box_height(styles)))  # in the last column; the heading spans the others
+    # the second feature's name spans its columns, the first feature's name heads the row labels
+    over = [""] + [Paragraph(markup(axis_title(label1, axis1)), styles.body_center)] + [""] * (n_cols - 1)
+    header = [Paragraph(markup(axis_title(label0, axis0)), styles.body)] + [
+        Paragraph(markup(r["text"]), styles.body_center) for r in axis1["rows"]]
+    data = [heading, over, header]
     for i, row in enumerate(axis0["rows"]):
         data.append([Paragraph(markup(row["text"]), styles.body)]
-                    + [Paragraph(points_text(p, signed), styles.points) for p in term["points"][i]])
-    data.append([Paragraph(markup("either not measured"), styles.body)] + [""] * (n_cols - 1)
-                + [Paragraph(points_text(term.get("missing_points", 0), signed), styles.points)])
+                    + [Paragraph(points_text(p, signed), styles.points_center) for p in term["points"][i]])
+    missing = points_text(term.get("missing_points", 0), signed)
+    data.append([Paragraph(f"If either is not measured: <b>{markup(missing)}</b>", styles.body)] + [""] * n_cols)
     last = len(data) - 1
     col_widths = [first_w] + [cell_w] * n_cols
-    if n_cols == 1:
-        heading[0] = Paragraph(markup(f"{term_heading(term)}: both together"), styles.heading)
     table = Table(data, colWidths=col_widths, hAlign="LEFT")
     commands = [
         ("VALIGN", (0, 0), (-1, -1), "MIDDLE"),
@@ -117,9 +123,12 @@ def pair_block(term: dict, styles: Styles, signed: bool, width: float) -> Flowab
         ("TOPPADDING", (0, 0), (-1, -1), 1), ("BOTTOMPADDING", (0, 0), (-1, -1), 1.5),
         ("BACKGROUND", (0, 0), (-2 if n_cols > 1 else 0, 0), TINT),
         ("LINEBELOW", (0, 0), (-1, 0), 0.8, colors.black),
-        ("GRID", (1, 1), (-1, last - 1), 0.3, RULE),
-        ("LINEBELOW", (0, 1), (-1, -2), 0.3, RULE),
-        ("SPAN", (0, last), (-2, last)),
+        ("SPAN", (1, 1), (-1, 1)),
+        ("ALIGN", (-1, 0), (-1, 0), "RIGHT"),
+        ("GRID", (1, 2), (-1, last - 1), 0.3, RULE),
+        ("LINEBELOW", (0, 2), (-1, -2), 0.3, RULE),
+        ("LINEBELOW", (0, 2), (-1, 2), 0.8, colors.black),
+        ("SPAN", (0, last), (-1, last)),
         ("BOX", (0, 0), (-1, -1), 0.8, colors.black),
     ]
     if n_cols > 1:
@@ -132,7 +141,7 @@ def total_block(styles: Styles, width: float) -> Flowable:
     """The box for the sum of the term boxes, and where to read the risk."""
     points_w = points_column_width(styles)
     box = WriteInBox(points_w + styles.body_pt, styles.body_pt * 2.6, line_width=2)
-    data = [[Paragraph("<b>TOTAL POINTS</b> (add every box above)", styles.heading), box],
+    data = [[Paragraph("<b>TOTAL POINTS</b> (add the boxes of every table)", styles.heading), box],
             [Paragraph("Read the risk for this total in the conversion table.", styles.body), ""]]
     table = Table(data, colWidths=[width - box.width - 2 * PAD - 2, box.width + 2 * PAD + 2], hAlign="LEFT")
     table.setStyle(TableStyle([

@@ -79,7 +79,7 @@ def test_every_row_and_its_points_in_its_table_in_order_on_page_one(sheet, ward_
         if term["kind"] == "pair":
             expected = [f"{axis_row['text']} " + " ".join(points_text(p, signed) for p in pts)
                         for axis_row, pts in zip(term["axes"][0]["rows"], term["points"])]
-            expected.append(f"either not measured {points_text(term['missing_points'], signed)}")
+            expected.append(f"If either is not measured: {points_text(term['missing_points'], signed)}")
         else:
             expected = [f"{row['text']} {points_text(row['points'], signed)}" for row in term["rows"]]
         found = []
