@@ -1,0 +1,149 @@
+"""Reading ruled tables back from a PDF page with pdfplumber (a general-purpose extractor): words and rules only.
+
+A printed table is found from its horizontal rules: rules sharing the same left and right ends, stacked one
+under another, cut the table into *rows* (the bands between two rules); a band without any word is the gap
+between two tables. Vertical rules strictly inside a table cut a row into *cells*. Nothing here knows what a
+points sheet is; `scorecard.audit.readback` gives the tables their meaning.
+"""
+
+from __future__ import annotations
+
+import re
+from dataclasses import dataclass, field
+from pathlib import Path
+
+from scorecard.errors import UserError
+
+_SAME_X = 1.0  # points: rules whose ends agree this closely belong to the same table
+_SAME_Y = 0.8
+HEX12 = re.compile(r"(?<![0-9a-f])[0-9a-f]{12}(?![0-9a-f])")
+
+
+@dataclass
+class Word:
+    text: str
+    x0: float
+    x1: float
+    top: float
+    bottom: float
+    bold: bool
+
+    @property
+    def middle(self) -> float:
+        return (self.top + self.bottom) / 2
+
+
+@dataclass
+class Row:
+    top: float
+    bottom: float
+    words: list[Word]
+    cuts: list[float] = field(default_factory=list)  # x of inner vertical rules crossing this row
+
+    def text(self, words: list[Word] | None = None) -> str:
+        return " ".join(w.text for w in reading_order(self.words if words is None else words))
+
+    def cells(self) -> list[list[Word]]:
+        """Words per cell, left to right, split at the inner vertical rules."""
+        edges = sorted(self.cuts)
+        out: list[list[Word]] = [[] for _ in range(len(edges) + 1)]
+        for w in self.words:
+            k = sum(1 for x in edges if (w.x0 + w.x1) / 2 > x)
+            out[k].append(w)
+        return [reading_order(c) for c in out]
+
+
+@dataclass
+class PrintedTable:
+    page: int  # 1-based
+    x0: float
+    x1: float
+    rows: list[Row]
+
+    @property
+    def top(self) -> float:
+        return self.rows[0].top
+
+
+@dataclass
+class PrintedPage:
+    number: int
+    text: str
+    words: list[Word]
+    tables: list[PrintedTable]
+
+
+def reading_order(words: list[Word]) -> list[Word]:
+    """Top to bottom by line (words whose middles are within half a line share a line), then left to right."""
+    lines: list[list[Word]] = []
+    for w in sorted(words, key=lambda w: (w.middle, w.x0)):
+        if lines and abs(w.middle - lines[-1][0].middle) <= 0.5 * max(w.bottom - w.top, 1.0):
+            lines[-1].append(w)
+        else:
+            lines.append([w])
+    return [w for line in lines for w in sorted(line, key=lambda w: w.x0)]
+
+
+def _tables(page_number: int, words: list[Word], edges: list[dict]) -> list[PrintedTable]:
+    rules = [e for e in edges if e.get("object_type") == "line"]
+    horizontal = [e for e in rules if e["orientation"] == "h" and e["x1"] - e["x0"] > 20]
+    vertical = [e for e in rules if e["orientation"] == "v"]
+    groups: dict[tuple[int, int], list[float]] = {}
+    for e in horizontal:
+        key = next((k for k in groups if abs(k[0] - e["x0"]) <= _SAME_X and abs(k[1] - e["x1"]) <= _SAME_X), None)
+        groups.setdefault(key or (round(e["x0"]), round(e["x1"])), []).append(e["top"])
+    tables = []
+    for (gx0, gx1), ys in groups.items():
+        x0 = min(e["x0"] for e in horizontal if abs(e["x0"] - gx0) <= _SAME_X + 0.5 and abs(e["x1"] - gx1) <= _SAME_X + 0.5)
+        x1 = max(e["x1"] for e in horizontal if abs(e["x0"] - gx0) <= _SAME_X + 0.5 and abs(e["x1"] - gx1) <= _SAME_X + 0.5)
+        ys = sorted(ys)
+        levels = [ys[0]]
+        for y in ys[1:]:
+            if y - levels[-1] > _SAME_Y:
+                levels.append(y)
+        inside = [w for w in words if w.x0 >= x0 - 1 and w.x1 <= x1 + 1]
+        current: list[Row] = []
+        for top, bottom in zip(levels[:-1], levels[1:]):
+            row_words = [w for w in inside if top < w.middle < bottom]
+            if not row_words:
+                if current:
+                    tables.append(PrintedTable(page_number, x0, x1, current))
+                current = []
+                continue
+            cuts = sorted({round(e["x0"], 1) for e in vertical
+                           if x0 + 1.5 < e["x0"] < x1 - 1.5 and e["top"] <= top + 1 and e["bottom"] >= bottom - 1})
+            current.append(Row(top, bottom, row_words, cuts))
+        if current:
+            tables.append(PrintedTable(page_number, x0, x1, current))
+    return sorted(tables, key=lambda t: (t.x0, t.top))
+
+
+def read_pdf(path: str | Path) -> list[PrintedPage]:
+    """Every page's words (with bold marked) and ruled tables. Not a readable PDF -> one UserError line."""
+    import pdfplumber
+    from pdfminer.pdfparser import PDFSyntaxError
+
+    p = Path(path)
+    if not p.exists():
+        raise UserError(f"{p}: no such file; check the path of the printed sheet PDF")
+    if p.is_dir():
+        raise UserError(f"{p}: is a folder, expected a PDF file")
+    with p.open("rb") as handle:
+        if not handle.read(1024).lstrip().startswith(b"%PDF"):
+            raise UserError(f"{p}: is not a PDF file; give the PDF written by `scorecard render`")
+    pages = []
+    try:
+        with pdfplumber.open(p) as doc:
+            for number, page in enumerate(doc.pages, start=1):
+                raw = page.extract_words(keep_blank_chars=False, use_text_flow=False, extra_attrs=["fontname"])
+                words = [Word(w["text"], w["x0"], w["x1"], w["top"], w["bottom"], "bold" in w["fontname"].lower()) for w in raw]
+                pages.append(PrintedPage(number, page.extract_text() or "", words, _tables(number, words, page.edges)))
+    except (PDFSyntaxError, ValueError, KeyError, TypeError) as exc:
+        raise UserError(f"{p}: cannot be read as a PDF ({type(exc).__name__}); give the PDF written by `scorecard render`") from None
+    except Exception as exc:  # pdfminer raises many private error types for damaged files
+        if type(exc).__module__.startswith(("pdfminer", "pdfplumber")):
+            raise UserError(f"{p}: cannot be read as a PDF ({type(exc).__name__}); give the PDF written by `scorecard render`") from None
+        raise
+    if not pages:
+        raise UserError(f"{p}: the PDF has no pages")
+    return pages
