@@ -11,6 +11,7 @@ import textwrap
 import numpy as np
 import pandas as pd
 from matplotlib.figure import Figure
+from matplotlib.patches import Rectangle
 
 from scorecard.model.document import AdditiveModel, Term
 from scorecard.model.predict import feature_values
@@ -137,7 +138,7 @@ def term_page(
     if term.kind == "continuous":
         _continuous(fig, model, term, cohort, settings)
     elif term.kind == "pair":
-        _pair(fig, model, term, cohort)
+        _pair(fig, model, term, cohort, settings)
     else:
         _levels(fig, model, term, cohort, settings)
     notes = [
@@ -312,7 +313,7 @@ def _levels(fig: Figure, model: AdditiveModel, term: Term, cohort: pd.DataFrame 
 # -- pair terms --------------------------------------------------------------------------------------------
 
 
-def _pair(fig: Figure, model: AdditiveModel, term: Term, cohort: pd.DataFrame | None) -> None:
+def _pair(fig: Figure, model: AdditiveModel, term: Term, cohort: pd.DataFrame | None, settings: FlagSettings) -> None:
     grid = np.asarray(term.scores, dtype=float)
     rows, cols = grid.shape
     row_labels = axis_labels(model, term, 0)
@@ -321,6 +322,13 @@ def _pair(fig: Figure, model: AdditiveModel, term: Term, cohort: pd.DataFrame | 
     heat_ax = fig.add_axes([LEFT + 0.1, 0.30, WIDTH - 0.26, 0.45])
     limit = float(np.abs(grid).max()) or 1.0
     mesh = heat_ax.pcolormesh(np.arange(cols + 1), np.arange(rows + 1), grid, cmap="cividis", vmin=-limit, vmax=limit, edgecolors="white", linewidth=0.5)
+    if term.spread is not None:
+        # cells whose band (score +/- k spread) reaches 0 are hatched, so they read as uncertain in black and white
+        band = settings.band_width * np.asarray(term.spread, dtype=float)
+        unsure = (band >= np.abs(grid)) & (np.abs(grid) >= settings.large_effect)
+        for i, j in zip(*np.nonzero(unsure)):
+            heat_ax.add_patch(Rectangle((j, i), 1, 1, fill=False, hatch="////", edgecolor="0.6", linewidth=0))
+        fig.text(LEFT, 0.86, f"Hatched cells: a large effect (|score| >= {settings.large_effect:g}) whose band (score +/- {settings.band_width:g} spread) reaches 0.", fontsize=7.5, va="bottom")
     for i in range(rows):
         for j in range(cols):
             value = grid[i, j]
@@ -345,4 +353,4 @@ def _pair(fig: Figure, model: AdditiveModel, term: Term, cohort: pd.DataFrame | 
     side.tick_params(labelleft=False, labelsize=6)
     side.set_xlabel("patients", fontsize=6.5)
     side.spines[["top", "right"]].set_visible(False)
-    top.set_title(f"{term.name}: pair of {f0.name} and {f1.name} (added to their own terms)", fontsize=11, loc="left")
+    fig.text(LEFT, 0.875, f"{term.name}: pair of {f0.name} and {f1.name}, added to their own terms", fontsize=11, va="bottom")

@@ -23,7 +23,7 @@ import pandas as pd
 
 from scorecard.model.document import AdditiveModel, Term
 from scorecard.model.predict import PredictionReport, contributions
-from scorecard.review.entries import entry_labels, number
+from scorecard.review.entries import axis_labels, entry_labels, number
 from scorecard.review.weights import TermWeights, term_weights
 
 FLAG_ORDER = (
@@ -293,7 +293,11 @@ def _where(model: AdditiveModel, term: Term, hit: np.ndarray) -> str:
     scores = np.asarray(term.scores, dtype=float).ravel()
     if term.kind == "pair":
         cols = np.shape(term.scores)[1]
-        cells = [f"cell ({i // cols + 1},{i % cols + 1}) {_lo(scores[i])}" for i in np.flatnonzero(hit)]
+        rows_text, cols_text = axis_labels(model, term, 0), axis_labels(model, term, 1)
+        f0, f1 = term.features
+        cells = [
+            f"{f0} {rows_text[i // cols]} & {f1} {cols_text[i % cols]} ({_lo(scores[i])})" for i in np.flatnonzero(hit)
+        ]
     else:
         labels = entry_labels(model, term)
         cells = [f"{labels[i]} ({_lo(scores[i])})" for i in np.flatnonzero(hit)]
