@@ -115,10 +115,10 @@ def load_layout(name_or_path: str | None = None) -> Layout:
     """A shipped layout by name (e.g. 'ward-a4'), or a layout file by path (anything ending .toml or existing)."""
     given = name_or_path or DEFAULT_LAYOUT
     path = Path(given)
-    if given.endswith(".toml") or path.exists() or "/" in given:
+    if given.endswith(".toml") or "/" in given or "\\" in given or path.is_file():
         try:
             text = path.read_text(encoding="utf-8")
-        except FileNotFoundError:
+        except (FileNotFoundError, IsADirectoryError):
             raise UserError(f"{given}: no such layout file; give a path to a .toml file or a shipped layout name "
                             f"({', '.join(shipped_layouts()) or 'none found'})") from None
         except (OSError, UnicodeDecodeError) as exc:

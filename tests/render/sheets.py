@@ -175,3 +175,19 @@ def without_negative_points(sheet: dict) -> dict:
             if "points" in row and row["points"] < 0:
                 row["points"] = 0
     return finish(sheet)
+
+
+def categorical_pair_sheet() -> dict:
+    """The 12-term sheet with its pair swapped for a category x flag grid, and no risk bands."""
+    sheet = copy.deepcopy(twelve_term_sheet())
+    sheet["terms"][-1] = {
+        "name": "residence:prior_delirium", "kind": "pair", "label": "Lived before admission × delirium before",
+        "features": ["residence", "prior_delirium"], "labels": ["Lived before admission", "Delirium before"],
+        "axes": [{"feature": "residence", "kind": "categorical",
+                  "rows": [{"levels": ["own_home", "relative"], "text": "Own home or with relatives"},
+                           {"levels": ["care_home"], "text": "Care home"}]},
+                 {"feature": "prior_delirium", "kind": "flag",
+                  "rows": [{"value": False, "text": "No"}, {"value": True, "text": "Yes"}]}],
+        "points": [[0, 0], [0, 2]], "missing_points": 1}
+    sheet["bands"] = []
+    return finish(sheet)

@@ -296,3 +296,31 @@ def test_tampered_sheet_is_refused(sheet, tmp_path):
     sheet_path.write_text(sheet_path.read_text().replace('"points": 7', '"points": 8'))
     result = CliRunner().invoke(main, ["render", str(sheet_path), "-o", str(tmp_path / "s.pdf")])
     assert result.exit_code == 2 and "fingerprint" in result.output
+
+
+def test_category_by_flag_grid_and_a_sheet_without_bands(tmp_path):
+    from tests.render.sheets import categorical_pair_sheet
+
+    doc = categorical_pair_sheet()
+    validate_sheet_dict(doc)
+    pdf = _render(doc, "ward-a4")
+    lines = _column_lines(pdf, 0, "ward-a4", 3)
+    start = next(i for i, line in enumerate(lines) if "×" in line)  # the pair heading (it wraps in a column)
+    grid = lines[start:start + 12]
+    assert "Care home 0 +2" in grid and "If either is not measured: +1" in grid, grid
+    conversion = " ".join(_pages(pdf)[1][4].split())
+    assert "sets no risk bands" in conversion and "Band" not in conversion.split("Total points → risk")[1][:200]
+
+
+def test_same_bytes_from_a_separate_process(sheet, ward_pdf, tmp_path):
+    import subprocess
+    import sys
+
+    path = tmp_path / "s.sheet.json"
+    save_sheet(sheet, path)
+    out = tmp_path / "p.pdf"
+    root = Path(__file__).resolve().parents[2]
+    done = subprocess.run([sys.executable, "-m", "scorecard", "render", str(path), "-o", str(out)], cwd=root,
+                          capture_output=True, text=True)
+    assert done.returncode == 0, done.stderr
+    assert out.read_bytes() == ward_pdf
