@@ -22,7 +22,7 @@ def entry_labels(model: AdditiveModel, term: Term) -> list[str]:
     feature = model.feature(term.feature)
     edges = term.edges or []
     if term.shape == "linear":
-        return [f"at {number(e, feature)}" for e in edges]
+        return [number(e, feature) for e in edges]  # knots: the value itself
     if not edges:
         return ["all values"]
     labels = [f"< {number(edges[0], feature)}"]
