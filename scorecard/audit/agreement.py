@@ -24,10 +24,13 @@ _SLACK = 1e-9
 
 
 def _rows_per_block(term: dict) -> list[int]:
-    """Printed measured rows of a block (not-measured and 'other' rows not counted); one count per pair axis."""
+    """Printed ranges of a measured item (the not-measured row not counted); one count per measured pair axis.
+    Categories and yes/no items print one row per level and are not limited by the bound."""
     if term["kind"] == "pair":
-        return [len(a["rows"]) for a in term["axes"]]
-    return [sum(1 for r in term["rows"] if not r.get("missing") and not r.get("other"))]
+        return [len(a["rows"]) for a in term["axes"] if a["kind"] == "continuous"]
+    if term["kind"] != "continuous":
+        return []
+    return [sum(1 for r in term["rows"] if not r.get("missing"))]
 
 
 def _bound(name: str, what: str, value, limit, passed: bool, shown: str) -> dict:
@@ -116,6 +119,7 @@ def _against_outcomes(y: np.ndarray, model_lo: np.ndarray, model_risk: np.ndarra
             "mean_risk": float(np.mean(risk)),
             "calibration_table": figures.calibration_table(risk, yk),
         }
+    out["auc_loss"] = out["model"]["auc"] - out["sheet"]["auc"]
     return out
 
 
@@ -136,14 +140,12 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
 
     # AUC of each score: against observed outcomes when there are any, else against the outcomes the model
     # expects (each patient an event with weight p and a non-event with weight 1 - p)
+    # sheet against model: AUCs against the outcomes the model's own risks imply (each patient an event with
+    # weight p and a non-event with weight 1 - p), the definition the bound is set in; observed outcomes,
+    # when the cohort has them, get their own section
     has_outcomes = y is not None and (~np.isnan(y)).any()
-    if has_outcomes:
-        known = ~np.isnan(y)
-        w_pos, w_neg = np.where(known, np.nan_to_num(y), 0.0), np.where(known, 1 - np.nan_to_num(y), 0.0)
-        basis = "observed outcomes"
-    else:
-        w_pos, w_neg = model_risk, 1 - model_risk
-        basis = "outcomes expected from the model's risk"
+    w_pos, w_neg = model_risk, 1 - model_risk
+    basis = "outcomes expected from the model's risk"
     gm, ngm = figures.tie_groups(model_lo)
     gs = scored.total - scored.total.min()
     ngs = int(gs.max()) + 1
@@ -163,8 +165,8 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
         "calibration_intercept": cal_a,
         "calibration_slope": cal_b,
         "brier_basis": basis,
-        "brier_model": figures.brier(model_risk[known], y[known]) if has_outcomes else figures.expected_brier(model_risk, model_risk),
-        "brier_sheet": figures.brier(scored.risk[known], y[known]) if has_outcomes else figures.expected_brier(scored.risk, model_risk),
+        "brier_model": figures.expected_brier(model_risk, model_risk),
+        "brier_sheet": figures.expected_brier(scored.risk, model_risk),
     }
     bands = _band_matrix(sheet, model_risk, scored)
     agreement["band_agreement"] = None if bands is None else bands["agreement"]
@@ -183,6 +185,7 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
     conversion_error = float(np.max(np.abs(stated - logistic(scale["offset"] + scale["logodds_per_point"] * totals))))
     most_rows = max((n for t in sheet["terms"] for n in _rows_per_block(t)), default=0)
     share = agreement["share_over_risk_error"]
+    span = int(sheet["total"]["max"]) - int(sheet["total"]["min"])
     checks = [
         _bound("model", "the model is the one the sheet was built from (fingerprint)", model.fingerprint,
                sheet["model"]["fingerprint"], model_matches, "same fingerprint" if model_matches else "DIFFERENT model (overridden)"),
@@ -201,8 +204,8 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
                int(over_chart.sum()), 0, not over_chart.any(), f"{int(over_chart.sum())} patients over"),
         _bound("rows", "printed rows per block at most the bound", most_rows, bound["max_rows"],
                most_rows <= bound["max_rows"], f"{most_rows} vs {bound['max_rows']}"),
-        _bound("total_points", "largest total at most the bound", int(sheet["total"]["max"]), bound["max_total_points"],
-               int(sheet["total"]["max"]) <= bound["max_total_points"], f"{sheet['total']['max']} vs {bound['max_total_points']}"),
+        _bound("total_points", "range of total points (highest - lowest) at most the bound", span, bound["max_total_points"],
+               span <= bound["max_total_points"], f"{span} vs {bound['max_total_points']}"),
     ]
     magnitude = float(np.ceil(np.abs(diff).max() * 1000) / 10) or 0.1  # percentage points, to 0.1
     counts, edges = np.histogram(diff * 100, bins=HISTOGRAM_BINS, range=(-magnitude, magnitude))

@@ -137,7 +137,7 @@ def read_pdf(path: str | Path) -> list[PrintedPage]:
             for number, page in enumerate(doc.pages, start=1):
                 raw = page.extract_words(keep_blank_chars=False, use_text_flow=False, extra_attrs=["fontname"])
                 words = [Word(w["text"], w["x0"], w["x1"], w["top"], w["bottom"], "bold" in w["fontname"].lower()) for w in raw]
-                pages.append(PrintedPage(number, page.extract_text() or "", words, _tables(number, words, page.edges)))
+                pages.append(PrintedPage(number, " ".join(w.text for w in words), words, _tables(number, words, page.edges)))
     except (PDFSyntaxError, ValueError, KeyError, TypeError) as exc:
         raise UserError(f"{p}: cannot be read as a PDF ({type(exc).__name__}); give the PDF written by `scorecard render`") from None
     except Exception as exc:  # pdfminer raises many private error types for damaged files

@@ -202,6 +202,7 @@ def _outcomes_table(o: dict) -> Table:
                             ("calibration slope", "calibration_slope", _num), ("Brier score", "brier", _num),
                             ("mean predicted risk", "mean_risk", lambda v: _pct(v, 1))):
         rows.append([label, fmt(o["model"][key]), fmt(o["sheet"][key])])
+    rows.append(["AUC loss (model − sheet)", _num(o["auc_loss"]), ""])
     rows.append(["observed event rate", _pct(o["event_rate"], 1), f"n = {o['n']:,}"])
     return _table(rows, [70 * mm, 45 * mm, 45 * mm])
 

@@ -55,14 +55,14 @@ def model_dict() -> dict:
     })
 
 
-def _points(scores, missing=None):
+def _points(scores, missing=None, lpp=LPP):
     """Integer points per row and the shift (log-odds) the offset absorbs; error per row."""
     shift = min(list(scores) + ([missing] if missing is not None else []))
-    pts = [round((s - shift) / LPP) for s in scores]
-    mpts = None if missing is None else round((missing - shift) / LPP)
-    errs = [abs(p * LPP + shift - s) for p, s in zip(pts, scores)]
+    pts = [round((s - shift) / lpp) for s in scores]
+    mpts = None if missing is None else round((missing - shift) / lpp)
+    errs = [abs(p * lpp + shift - s) for p, s in zip(pts, scores)]
     if missing is not None:
-        errs.append(abs(mpts * LPP + shift - missing))
+        errs.append(abs(mpts * lpp + shift - missing))
     return pts, mpts, shift, max(errs)
 
 
@@ -81,8 +81,16 @@ def logistic(z: float) -> float:
     return 1.0 / (1.0 + math.exp(-z)) if z >= 0 else math.exp(z) / (1.0 + math.exp(z))
 
 
-def sheet_dict(model: dict | None = None, bands: bool = True) -> dict:
+def compact_model_dict() -> dict:
+    """The same model without temperature and cognition's own term: a sheet with few cells (tamper tests)."""
+    doc = model_dict()
+    doc["terms"] = [t for t in doc["terms"] if t["name"] not in ("temperature", "cognition")]
+    return doc
+
+
+def sheet_dict(model: dict | None = None, bands: bool = True, lpp: float = LPP) -> dict:
     """The sheet built by hand from `model_dict()` (pass an edited model to get a sheet for it)."""
+    LPP = lpp  # noqa: N806 - the scale of this sheet
     model = copy.deepcopy(model or model_dict())
     feats = {f["name"]: f for f in model["features"]}
     terms, per_term, offset = [], {}, model["intercept"]
@@ -90,7 +98,7 @@ def sheet_dict(model: dict | None = None, bands: bool = True) -> dict:
     for t in model["terms"]:
         if t["kind"] == "pair":
             flat = [s for row in t["scores"] for s in row]
-            pts, mpts, shift, err = _points(flat, t.get("missing_score") or 0.0)
+            pts, mpts, shift, err = _points(flat, t.get("missing_score") or 0.0, lpp)
             n1 = len(t["scores"][0])
             grid = [pts[i * n1:(i + 1) * n1] for i in range(len(t["scores"]))]
             axes = []
@@ -105,7 +113,7 @@ def sheet_dict(model: dict | None = None, bands: bool = True) -> dict:
             all_pts = pts + [mpts]
         else:
             f = feats[t["feature"]]
-            pts, mpts, shift, err = _points(t["scores"], t.get("missing_score"))
+            pts, mpts, shift, err = _points(t["scores"], t.get("missing_score"), lpp)
             if t["kind"] == "continuous":
                 rows = _continuous_rows(t["edges"], f["decimals"], pts)
                 term = {"name": t["name"], "kind": "continuous", "label": f["label"], "feature": f["name"], "unit": f["unit"],
