@@ -31,10 +31,27 @@ class Quadratic:
     yy: float
 
     @classmethod
-    def from_design(cls, x, y: np.ndarray, w: np.ndarray) -> "Quadratic":
-        xwm = x.multiply(w[:, None]).tocsr()
+    def from_rows(cls, row_ids: np.ndarray, starts: np.ndarray, y: np.ndarray, w: np.ndarray) -> "Quadratic":
+        """From (patients x terms) global row ids, term t owning rows starts[t]..starts[t+1]-1.
+
+        X (patients x rows, 0/1) is never formed: each block of X'WX is the weighted 2-D histogram of two
+        terms' rows, one bincount over the patients per pair of terms."""
+        n_terms = row_ids.shape[1]
+        n_rows = int(starts[-1])
+        sizes = np.diff(starts)
+        local = np.ascontiguousarray((row_ids - starts[:-1][None, :]).T)  # terms x patients, rows contiguous
+        gram = np.zeros((n_rows, n_rows))
+        for s in range(n_terms):
+            for t in range(s, n_terms):
+                block = np.bincount(local[s] * sizes[t] + local[t], weights=w, minlength=sizes[s] * sizes[t])
+                block = block.reshape(sizes[s], sizes[t])
+                gram[starts[s]:starts[s + 1], starts[t]:starts[t + 1]] = block
+                gram[starts[t]:starts[t + 1], starts[s]:starts[s + 1]] = block.T
+        flat = row_ids.ravel()
+        ww = np.repeat(w, n_terms)
         return cls(
-            gram=(x.T @ xwm).toarray(), xwy=np.asarray(xwm.T @ y).ravel(), xw=np.asarray(xwm.sum(axis=0)).ravel(),
+            gram=gram, xwy=np.bincount(flat, weights=np.repeat(w * y, n_terms), minlength=n_rows),
+            xw=np.bincount(flat, weights=ww, minlength=n_rows),
             sw=float(w.sum()), swy=float(w @ y), yy=float(w @ (y * y)),
         )
 

@@ -29,7 +29,7 @@ from scorecard.quantize.figures import full_figures, quick_figures, expected_auc
 from scorecard.quantize.nice import MAX_CANDIDATES
 from scorecard.quantize.population import Population, evaluation_population
 from scorecard.quantize.points import Quadratic, round_points
-from scorecard.quantize.refit import indicator_matrix, refit_row_values
+from scorecard.quantize.refit import refit_row_values
 from scorecard.sheet import CAUTIONS, ROUNDING_RULE, risk_text
 
 PLACEHOLDER_WORDING = "Write your unit's agreed action here (local protocol)."
@@ -147,10 +147,9 @@ def _evaluate(problem: Problem, budget: int) -> Candidate | None:
         return None
     layouts = [problem.options[t][i].layout for t, i in enumerate(choice)]
     ids, v0, term_of_row, starts = _design(problem, layouts)
-    x = indicator_matrix(ids, len(v0))
     y = problem.population.logodds
-    values, _ = refit_row_values(x, y, problem.weight, v0)
-    q = Quadratic.from_design(x, y, problem.weight)
+    q = Quadratic.from_rows(ids, starts, y, problem.weight)
+    values, _ = refit_row_values(q, v0)
     span = _span(values, term_of_row)
     if span <= 0:
         span = 1.0
@@ -161,7 +160,7 @@ def _evaluate(problem: Problem, budget: int) -> Candidate | None:
         if found is None:
             return None
         scale, (pts, offset) = found
-        sheet = offset + scale * (x @ pts)
+        sheet = offset + scale * pts[ids].sum(axis=1)
         figs = quick_figures(y, sheet, bound.max_risk_error, problem.auc_model)
         passed = figs["auc_loss"] <= bound.max_auc_loss and figs["share_over_risk_error"] <= bound.risk_error_share
         per_term = [pts[starts[t]:starts[t + 1]] for t in range(len(layouts))]
@@ -270,11 +269,10 @@ def _readability(problem: Problem, cand: Candidate) -> dict:
 
 def _tradeoff(problem: Problem, cand: Candidate) -> list[dict]:
     """How the allowed total-points range trades against per-patient error, at the chosen rows."""
-    ids, v0, term_of_row, _ = _design(problem, cand.layouts)
-    x = indicator_matrix(ids, len(v0))
+    ids, v0, term_of_row, starts = _design(problem, cand.layouts)
     y = problem.population.logodds
-    values, _ = refit_row_values(x, y, problem.weight, v0)
-    q = Quadratic.from_design(x, y, problem.weight)
+    q = Quadratic.from_rows(ids, starts, y, problem.weight)
+    values, _ = refit_row_values(q, v0)
     span = _span(values, term_of_row) or 1.0
     out = []
     for target in sorted({10, 15, 20, 30, 40, 60, 100, problem.bound.max_total_points, cand.total_range}):
@@ -282,7 +280,7 @@ def _tradeoff(problem: Problem, cand: Candidate) -> list[dict]:
         if found is None:
             continue
         scale, (pts, offset) = found
-        figs = quick_figures(y, offset + scale * (x @ pts), problem.bound.max_risk_error, problem.auc_model)
+        figs = quick_figures(y, offset + scale * pts[ids].sum(axis=1), problem.bound.max_risk_error, problem.auc_model)
         out.append({"total_points": target, "auc_loss": figs["auc_loss"], "p95_abs_risk_error": figs["p95_abs_risk_error"],
                     "mean_abs_risk_error": figs["mean_abs_risk_error"], "share_over_risk_error": figs["share_over_risk_error"]})
     return out

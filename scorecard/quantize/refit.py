@@ -14,33 +14,21 @@ ridge towards the per-term values v0 so a row no patient falls in keeps the valu
 from __future__ import annotations
 
 import numpy as np
-import scipy.sparse as sp
+
+from scorecard.quantize.points import Quadratic
 
 
-def indicator_matrix(row_ids: np.ndarray, n_rows: int) -> sp.csr_matrix:
-    """Patients x rows 0/1 matrix from (patients x terms) global row ids."""
-    n, t = row_ids.shape
-    data = np.ones(n * t)
-    cols = row_ids.ravel()
-    rows = np.repeat(np.arange(n), t)
-    return sp.csr_matrix((data, (rows, cols)), shape=(n, n_rows))
-
-
-def refit_row_values(x: sp.csr_matrix, y: np.ndarray, w: np.ndarray, v0: np.ndarray, ridge: float = 1e-6) -> tuple[np.ndarray, float]:
-    """Row values and intercept solving the penalised weighted least squares above."""
-    n_rows = x.shape[1]
-    xw = x.multiply(w[:, None]).tocsr()
-    gram = (x.T @ xw).toarray()
-    rhs = xw.T @ y
-    col_w = np.asarray(xw.sum(axis=0)).ravel()
-    sw = float(w.sum())
-    omega = ridge * max(float(col_w.mean()), 1e-12)
+def refit_row_values(q: Quadratic, v0: np.ndarray, ridge: float = 1e-6) -> tuple[np.ndarray, float]:
+    """Row values and intercept solving the penalised weighted least squares above (normal equations from
+    the Gram form `q` of the row indicators)."""
+    n_rows = len(v0)
+    omega = ridge * max(float(q.xw.mean()), 1e-12)
     # unknowns: [row values..., intercept]
     a = np.zeros((n_rows + 1, n_rows + 1))
-    a[:n_rows, :n_rows] = gram + omega * np.eye(n_rows)
-    a[:n_rows, n_rows] = col_w
-    a[n_rows, :n_rows] = col_w
-    a[n_rows, n_rows] = sw
-    b = np.concatenate([rhs + omega * v0, [float(w @ y)]])
+    a[:n_rows, :n_rows] = q.gram + omega * np.eye(n_rows)
+    a[:n_rows, n_rows] = q.xw
+    a[n_rows, :n_rows] = q.xw
+    a[n_rows, n_rows] = q.sw
+    b = np.concatenate([q.xwy + omega * v0, [q.swy]])
     sol = np.linalg.solve(a, b)
     return sol[:n_rows], float(sol[n_rows])

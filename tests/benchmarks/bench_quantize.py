@@ -1,0 +1,202 @@
+"""Benchmark: our quantizer against the Framingham points method, and its speed on a large model.
+
+Run: python tests/benchmarks/bench_quantize.py   (prints figures; ratios are measured in the same run)
+
+Baseline: the Framingham points method (Sullivan, Massaro & D'Agostino, Statistics in Medicine 2004),
+scorecard/quantize/framingham.py, given its best shot: for each number of categories per factor, every
+points constant B whose largest total fits the allowed points is tried.
+Models: the demo's true model (evaluated on its own bin counts) and a spline logistic model fitted with
+scikit-learn to the breast-cancer data shipped with scikit-learn (evaluated on those 569 patients).
+Targets (issue 4): rows needed to meet the default bounds, ours <= 0.6 x baseline; loss at equal total rows,
+ours <= 0.5 x baseline; a 40-term model with 256 bins per term quantised under a bound in <= 5 s.
+"""
+
+from __future__ import annotations
+
+import math
+import sys
+import time
+from pathlib import Path
+
+import numpy as np
+import pandas as pd
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[2]))
+
+from sklearn.datasets import load_breast_cancer  # noqa: E402
+from sklearn.linear_model import LogisticRegression  # noqa: E402
+from sklearn.preprocessing import SplineTransformer  # noqa: E402
+
+from scorecard.demo import true_model  # noqa: E402
+from scorecard.errors import CheckFailed  # noqa: E402
+from scorecard.model import model_from_dict  # noqa: E402
+from scorecard.quantize import Bound  # noqa: E402
+from scorecard.quantize.figures import quick_figures  # noqa: E402
+from scorecard.quantize.framingham import framingham_span, framingham_table  # noqa: E402
+from scorecard.quantize.quantizer import build_sheet, prepare, search  # noqa: E402
+
+
+# -- models ------------------------------------------------------------------------------------------
+
+
+def breast_cancer_model() -> tuple:
+    """Spline logistic regression on the ten 'mean' features; each feature's partial function becomes a step
+    term on fine bins at a printable precision (the model document the fitter would write)."""
+    data = load_breast_cancer()
+    cols = [i for i, n in enumerate(data.feature_names) if n.startswith("mean ")]
+    names = [data.feature_names[i].replace("mean ", "").replace(" ", "_") for i in cols]
+    x = data.data[:, cols]
+    y = 1 - data.target  # 1 = malignant
+    splines = [SplineTransformer(n_knots=4, degree=3, extrapolation="constant").fit(x[:, [j]]) for j in range(len(cols))]
+    basis = [s.transform(x[:, [j]]) for j, s in enumerate(splines)]
+    sd = [b.std(axis=0) + 1e-12 for b in basis]
+    design = np.hstack([b / s for b, s in zip(basis, sd)])
+    fit = LogisticRegression(C=0.05, max_iter=5000).fit(design, y)
+    coef = np.split(fit.coef_.ravel(), np.cumsum([b.shape[1] for b in basis])[:-1])
+    features, terms, intercept = [], [], float(fit.intercept_[0])
+    frame = {}
+    for j, name in enumerate(names):
+        col = x[:, j]
+        lo, hi = float(col.min()), float(col.max())
+        decimals = max(0, math.ceil(2 - math.log10(hi - lo)))
+        unit = 10.0**-decimals
+        n_units = int(round((hi - lo) / unit))
+        step = max(1, math.ceil(n_units / 120))
+        first = math.floor(lo / unit)
+        edges = [round((first + k + 0.5) * unit, decimals + 1) for k in range(step, n_units + 1, step)]
+        edges = [e for e in edges if lo < e < hi]
+        centres = np.concatenate([[lo], (np.array(edges[:-1]) + np.array(edges[1:])) / 2, [hi]]) if edges else np.array([lo])
+        f = (splines[j].transform(centres[:, None]) / sd[j]) @ coef[j]
+        counts = np.bincount(np.searchsorted(edges, col, side="right"), minlength=len(edges) + 1).astype(float)
+        mean = float(f @ counts / counts.sum())
+        intercept += mean
+        rounded = np.round(col, decimals)
+        frame[name] = rounded
+        features.append({"name": name, "label": name.replace("_", " ").capitalize(), "kind": "continuous", "unit": "",
+                         "decimals": decimals, "missing": "error",
+                         "training_range": {"min": lo, "max": hi, "p01": float(np.quantile(col, 0.01)), "p99": float(np.quantile(col, 0.99))}})
+        terms.append({"kind": "continuous", "name": name, "feature": name, "shape": "step", "edges": edges,
+                      "scores": (f - mean).tolist(), "counts": counts.tolist()})
+    model = model_from_dict({
+        "format_version": 1, "document": "scorecard-model", "name": "breast cancer (scikit-learn data)", "version": "1",
+        "outcome": {"event": "malignant tumour", "horizon": "at biopsy", "population": "Wisconsin diagnostic breast cancer data"},
+        "link": "logit", "intercept": intercept, "features": features, "terms": terms, "provenance": {"source": "benchmark"},
+    })
+    return model, pd.DataFrame(frame)
+
+
+def large_model(n_terms: int = 40, n_bins: int = 256, seed: int = 0):
+    rng = np.random.default_rng(seed)
+    features, terms = [], []
+    for t in range(n_terms):
+        name = f"x{t:02d}"
+        edges = [k + 0.5 for k in range(n_bins - 1)]
+        grid = np.arange(n_bins) / n_bins
+        shape = sum(rng.normal(0, 0.1 / (k + 1)) * np.sin((k + 1) * math.pi * grid + rng.uniform(0, 6)) for k in range(4))
+        counts = 50 + 40 * np.sin(grid * 3 + t)
+        shape = shape - np.average(shape, weights=counts)
+        features.append({"name": name, "label": name, "kind": "continuous", "unit": "", "decimals": 0,
+                         "training_range": {"min": 0.0, "max": float(n_bins - 1)}, "missing": "error"})
+        terms.append({"kind": "continuous", "name": name, "feature": name, "shape": "step", "edges": edges,
+                      "scores": shape.tolist(), "counts": counts.tolist()})
+    return model_from_dict({
+        "format_version": 1, "document": "scorecard-model", "name": "large synthetic", "version": "1",
+        "outcome": {"event": "event", "horizon": "-", "population": "synthetic"}, "link": "logit",
+        "intercept": -1.0, "features": features, "terms": terms, "provenance": {},
+    })
+
+
+# -- baseline ----------------------------------------------------------------------------------------
+
+
+def baseline_at(problem, categories: int, bound: Bound):
+    """Best Framingham table for this many categories: the smallest B-total that passes, else the most accurate."""
+    curves, y = problem.curves, problem.population.logodds
+    span = framingham_span(curves, categories)
+    best = None
+    for total in range(1, bound.max_total_points + 1):
+        table = framingham_table(curves, problem.model.intercept, categories, span / total)
+        if table.total_range > bound.max_total_points:
+            continue
+        figs = quick_figures(y, table.sheet_logodds(curves), bound.max_risk_error, problem.auc_model)
+        passed = figs["auc_loss"] <= bound.max_auc_loss and figs["share_over_risk_error"] <= bound.risk_error_share
+        if passed:
+            return True, table, figs
+        if best is None or figs["mean_abs_risk_error"] < best[2]["mean_abs_risk_error"]:
+            best = (False, table, figs)
+    return best
+
+
+def compare(label: str, model, data, bound: Bound) -> dict:
+    print(f"\n== {label} ==")
+    t0 = time.perf_counter()
+    problem = prepare(model, data, bound)
+    try:
+        cand = search(problem)
+    except CheckFailed as exc:
+        print(f"ours: {exc}")
+        return {}
+    doc = build_sheet(problem, cand, [], bootstrap=0)
+    ours_rows = doc["report"]["printed_rows"]
+    a = doc["achieved"]
+    print(f"ours: {ours_rows} printed rows, totals {doc['total']['min']}-{doc['total']['max']}, ΔAUC {a['auc_loss']:.4f}, "
+          f"mean |Δrisk| {a['mean_abs_risk_error'] * 100:.2f} pp, p95 {a['p95_abs_risk_error'] * 100:.1f} pp, "
+          f"share over {bound.max_risk_error * 100:g} pp {a['share_over_risk_error']:.1%}  ({time.perf_counter() - t0:.1f} s)")
+    needed = None
+    by_categories = {}
+    for c in range(2, 16):
+        passed, table, figs = baseline_at(problem, c, bound)
+        by_categories[c] = (table.printed_rows(), figs)
+        if passed and needed is None:
+            needed = (c, table.printed_rows(), figs)
+            break
+    if needed:
+        c, rows, figs = needed
+        print(f"baseline meets the bound at {c} categories per factor: {rows} printed rows "
+              f"(ΔAUC {figs['auc_loss']:.4f}, share over {figs['share_over_risk_error']:.1%})")
+        print(f"ROWS RATIO ours/baseline = {ours_rows / rows:.2f}  (target <= 0.6)")
+    else:
+        rows15, figs15 = by_categories[max(by_categories)]
+        print(f"baseline never meets the bound up to 15 categories per factor ({rows15} rows: ΔAUC {figs15['auc_loss']:.4f}, "
+              f"share over {figs15['share_over_risk_error']:.1%}); ROWS RATIO ours/baseline < {ours_rows / rows15:.2f}")
+    # equal total rows: the baseline with the fewest categories giving at least as many rows as ours
+    equal = None
+    for c in range(2, 30):
+        _, table, figs = baseline_at(problem, c, Bound(**{**bound.__dict__, "max_auc_loss": -1.0}))  # never passes: most accurate
+        if table.printed_rows() >= ours_rows:
+            equal = (c, table.printed_rows(), figs)
+            break
+    if equal:
+        c, rows, figs = equal
+        ratio_mean = a["mean_abs_risk_error"] / figs["mean_abs_risk_error"]
+        ratio_auc = a["auc_loss"] / figs["auc_loss"] if figs["auc_loss"] > 0 else float("nan")
+        print(f"at equal rows: baseline {c} categories, {rows} rows: ΔAUC {figs['auc_loss']:.4f}, mean |Δrisk| "
+              f"{figs['mean_abs_risk_error'] * 100:.2f} pp, share over {figs['share_over_risk_error']:.1%}")
+        print(f"LOSS RATIO ours/baseline at equal rows: mean |Δrisk| {ratio_mean:.2f}, ΔAUC {ratio_auc:.2f}  (target <= 0.5)")
+    return {"ours_rows": ours_rows}
+
+
+def main() -> None:
+    bound = Bound()
+    print(f"default bound: ΔAUC <= {bound.max_auc_loss}, <= {bound.risk_error_share:.0%} of patients over "
+          f"{bound.max_risk_error * 100:g} pp, <= {bound.max_rows} rows per factor, <= {bound.max_total_points} points")
+    compare("demo true model (its own bin counts)", true_model(), None, bound)
+    model, data = breast_cancer_model()
+    compare("breast cancer spline model (569 patients)", model, data, bound)
+
+    print("\n== speed: 40 terms x 256 bins ==")
+    big = large_model()
+    lenient = Bound(max_auc_loss=0.01, max_risk_error=0.10, risk_error_share=0.05, max_rows=6, max_total_points=100)
+    t0 = time.perf_counter()
+    problem = prepare(big, None, lenient)
+    t1 = time.perf_counter()
+    cand = search(problem)
+    t2 = time.perf_counter()
+    doc = build_sheet(problem, cand, [], bootstrap=0)
+    t3 = time.perf_counter()
+    print(f"prepare {t1 - t0:.2f} s, search {t2 - t1:.2f} s, sheet {t3 - t2:.2f} s: TOTAL {t3 - t0:.2f} s (target <= 5 s); "
+          f"{doc['report']['printed_rows']} rows, ΔAUC {doc['achieved']['auc_loss']:.4f}")
+
+
+if __name__ == "__main__":
+    main()
