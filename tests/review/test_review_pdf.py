@@ -63,3 +63,15 @@ def test_every_page_carries_the_cautions_and_the_fingerprint_and_its_term(render
 def test_flags_are_also_listed_on_stderr(rendered):
     *_, result = rendered
     assert "flag protective_care_marker [geriatric_review]" in result.stderr
+
+
+def test_flags_that_do_not_fit_continue_on_another_summary_page(care_model):
+    from scorecard.review.figures import summary_page
+    from scorecard.review.flags import Flag, FlagSettings
+    from scorecard.review.importance import rank_terms
+
+    many = [Flag("sparse_data", "sodium", f"invented flag number {i} " + "with a long explanation " * 6) for i in range(60)]
+    _, left = summary_page(care_model, rank_terms(care_model), many, FlagSettings(), "test")
+    assert 0 < len(left) < 60 and left == many[60 - len(left):]
+    _, rest = summary_page(care_model, None, left, FlagSettings(), "test")
+    assert len(rest) < len(left)
