@@ -15,6 +15,20 @@ from scorecard.sheet import CAUTIONS, load_sheet
 from scorecard.tabular import read_csv
 
 
+def guess_outcome_column(sheet: dict, columns: list[str]) -> str | None:
+    """A cohort column the sheet's outcome names (e.g. 'delirium' in 'Delirium within 5 days'), never a feature."""
+    import re
+
+    from scorecard.audit.paper import sheet_features
+
+    words = set(re.findall(r"[a-z0-9_]+", sheet["outcome"]["event"].lower()))
+    features = set(sheet_features(sheet))
+    for c in columns:
+        if c not in features and (c.lower() in words or c.lower() == "_".join(sorted(words))):
+            return c
+    return None
+
+
 @click.command()
 @click.argument("sheet_path", metavar="SHEET.json", type=click.Path(dir_okay=False))
 @click.option("--model", "model_path", required=True, type=click.Path(dir_okay=False), metavar="MODEL.json",
@@ -24,7 +38,7 @@ from scorecard.tabular import read_csv
 @click.option("-o", "--output", required=True, type=click.Path(dir_okay=False), metavar="REPORT.pdf", help="The report PDF to write.")
 @click.option("--json", "json_path", type=click.Path(dir_okay=False), metavar="REPORT.json", help="Also write every figure as JSON.")
 @click.option("--outcome", metavar="COLUMN",
-              help="Cohort column with the observed outcome (1/0, yes/no). Default: the sheet's outcome name if the cohort has such a column.")
+              help="Cohort column with the observed outcome (1/0, yes/no). Default: a column named by a word of the sheet's outcome (e.g. 'delirium').")
 @click.option("--bootstrap", "replicates", default=200, show_default=True, type=click.IntRange(20, 10_000),
               help="Bootstrap resamples for the interval of the AUC loss.")
 @click.option("--seed", default=0, show_default=True, type=int, help="Seed of the bootstrap (same seed, same report).")
@@ -57,8 +71,9 @@ def command(sheet_path, model_path, cohort_path, output, json_path, outcome, rep
     matches = model_matches_sheet(model, sheet, model_path, allow_other, say)
     cohort = read_csv(cohort_path)
     if outcome is None:
-        guess = sheet["outcome"]["event"].strip().lower().replace(" ", "_")
-        outcome = next((c for c in cohort.columns if c.lower() == guess), None)
+        outcome = guess_outcome_column(sheet, list(cohort.columns))
+        if outcome:
+            say(f"note: using column {outcome!r} as the observed outcome (named in the sheet's outcome); change it with --outcome")
     elif outcome not in cohort.columns:
         raise UserError(f"{cohort_path}: outcome column {outcome!r} (from --outcome) is not in the file")
     report = check_agreement(sheet, model, cohort, outcome=outcome, replicates=replicates, seed=seed,

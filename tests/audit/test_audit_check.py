@@ -1,0 +1,210 @@
+"""`check`: the agreement figures against scikit-learn and statsmodels on the same arrays, the demo sheet within
+its certificate, PASS/FAIL and exit codes, and a deterministic report PDF carrying cautions and fingerprint."""
+
+from __future__ import annotations
+
+import io
+import json
+
+import numpy as np
+import pandas as pd
+import pdfplumber
+import pytest
+import statsmodels.api as sm
+from click.testing import CliRunner
+from sklearn.metrics import brier_score_loss, roc_auc_score
+
+from scorecard.audit import figures
+from scorecard.audit.agreement import check_agreement
+from scorecard.audit.paper import score_cohort, sheet_logodds
+from scorecard.cli import main
+from scorecard.demo import cohort_csv_text, generate_cohort, true_model
+from scorecard.jsondoc import pretty_text
+from scorecard.model import model_from_dict, predict_logodds
+from scorecard.quantize import Bound, quantize_model
+from scorecard.sheet import CAUTIONS, sheet_fingerprint, short_fingerprint
+from tests.audit.handmade import model_dict, sheet_dict
+
+
+# -- the statistics, on arrays ------------------------------------------------------------------------
+
+
+def test_auc_matches_scikit_learn_with_ties_and_weights():
+    rng = np.random.default_rng(0)
+    y = (rng.random(3000) < 0.25).astype(float)
+    score = np.round(rng.normal(size=3000) + y, 1)  # rounded: many ties
+    g, n = figures.tie_groups(score)
+    # scikit-learn roc_auc_score, the outside reference
+    assert figures.weighted_auc(g, n, y, 1 - y) == pytest.approx(roc_auc_score(y, score), abs=1e-12)
+    p = rng.uniform(0.02, 0.9, 3000)
+    expected = roc_auc_score(np.r_[np.ones(3000), np.zeros(3000)], np.r_[score, score], sample_weight=np.r_[p, 1 - p])
+    assert figures.weighted_auc(g, n, p, 1 - p) == pytest.approx(expected, abs=1e-12)
+
+
+def test_brier_matches_scikit_learn():
+    rng = np.random.default_rng(1)
+    risk, q = rng.uniform(0, 1, 500), rng.uniform(0, 1, 500)
+    y = (rng.random(500) < q).astype(float)
+    assert figures.brier(risk, y) == pytest.approx(brier_score_loss(y, risk), abs=1e-12)  # scikit-learn
+    dup = brier_score_loss(np.r_[np.ones(500), np.zeros(500)], np.r_[risk, risk], sample_weight=np.r_[q, 1 - q])
+    assert figures.expected_brier(risk, q) == pytest.approx(dup, abs=1e-12)  # scikit-learn, weighted duplicates
+
+
+def test_logistic_calibration_matches_statsmodels():
+    rng = np.random.default_rng(2)
+    x = rng.normal(-1, 1, 4000)
+    y = (rng.random(4000) < 1 / (1 + np.exp(-(0.3 + 0.8 * x)))).astype(float)
+    a, b = figures.logistic_calibration(*figures.grouped(x, y))
+    fit = sm.Logit(y, sm.add_constant(x)).fit(disp=0)  # statsmodels logistic regression
+    assert (a, b) == pytest.approx(tuple(fit.params), abs=1e-7)
+    # fractional responses (the model's risk as the outcome), grouped on few distinct x like sheet totals
+    xt = rng.integers(0, 12, 4000).astype(float)
+    p = 1 / (1 + np.exp(-(-2 + 0.3 * xt + rng.normal(0, 0.2, 4000))))
+    a, b = figures.logistic_calibration(*figures.grouped(xt, p))
+    glm = sm.GLM(p, sm.add_constant(xt), family=sm.families.Binomial()).fit()  # statsmodels GLM, binomial
+    assert (a, b) == pytest.approx(tuple(glm.params), abs=1e-7)
+
+
+def test_bootstrap_interval_is_seeded_and_brackets_the_estimate():
+    rng = np.random.default_rng(3)
+    y = (rng.random(2000) < 0.3).astype(float)
+    a = y + rng.normal(0, 1, 2000)
+    b = np.round(a + rng.normal(0, 0.5, 2000))
+    ga, na = figures.tie_groups(a)
+    gb, nb = figures.tie_groups(b)
+    diff = figures.weighted_auc(ga, na, y, 1 - y) - figures.weighted_auc(gb, nb, y, 1 - y)
+    ci = figures.bootstrap_auc_difference(ga, na, gb, nb, y, 1 - y, replicates=200, seed=7)
+    assert ci == figures.bootstrap_auc_difference(ga, na, gb, nb, y, 1 - y, replicates=200, seed=7)
+    assert ci[0] < diff < ci[1] and ci[1] - ci[0] < 0.1
+
+
+# -- the demo: quantize the true model, then audit it ------------------------------------------------
+
+
+@pytest.fixture(scope="module")
+def demo():
+    model = true_model()
+    sheet = quantize_model(model, bound=Bound(max_auc_loss=0.01, max_risk_error=0.1, risk_error_share=0.05), bootstrap=0)
+    sheet["fingerprint"] = sheet_fingerprint(sheet)
+    cohort = generate_cohort(4000, seed=11)
+    frame = pd.read_csv(io.StringIO(cohort_csv_text(cohort)), dtype=str, keep_default_na=False)
+    frame.attrs["source"] = "demo.csv"
+    return model, sheet, frame
+
+
+def test_demo_sheet_is_within_its_certificate_of_the_exact_model(demo):
+    model, sheet, frame = demo
+    scored = score_cohort(sheet, frame)
+    model_lo, _ = predict_logodds(model, frame)
+    gap = np.abs(sheet_logodds(sheet, scored.total) - model_lo)
+    inside = ~scored.outside_training
+    assert inside.mean() > 0.95
+    assert gap[inside].max() <= sheet["certificate"]["max_logodds_error"] + 1e-9
+    assert gap.max() > 0  # the sheet is a real approximation, not the model itself
+
+
+def test_demo_figures_match_reference_libraries_on_the_same_arrays(demo):
+    model, sheet, frame = demo
+    report = check_agreement(sheet, model, frame, outcome="delirium", replicates=50)
+    scored = score_cohort(sheet, frame)
+    model_lo, _ = predict_logodds(model, frame)
+    p = 1 / (1 + np.exp(-model_lo))
+    y = frame["delirium"].astype(float).to_numpy()
+    a = report["agreement"]
+    both = np.r_[np.ones(len(p)), np.zeros(len(p))]
+    w = np.r_[p, 1 - p]
+    # scikit-learn roc_auc_score with the model's risks as expected outcomes
+    assert a["auc_model"] == pytest.approx(roc_auc_score(both, np.r_[model_lo, model_lo], sample_weight=w), abs=1e-10)
+    assert a["auc_sheet"] == pytest.approx(roc_auc_score(both, np.r_[scored.total, scored.total], sample_weight=w), abs=1e-10)
+    assert a["max_abs_risk_error"] == pytest.approx(np.abs(scored.risk - p).max(), abs=1e-12)
+    o = report["against_outcomes"]
+    assert o["model"]["auc"] == pytest.approx(roc_auc_score(y, model_lo), abs=1e-10)  # scikit-learn
+    assert o["sheet"]["auc"] == pytest.approx(roc_auc_score(y, scored.total), abs=1e-10)  # scikit-learn
+    assert o["sheet"]["brier"] == pytest.approx(brier_score_loss(y, scored.risk), abs=1e-12)  # scikit-learn
+    fit = sm.Logit(y, sm.add_constant(sheet_logodds(sheet, scored.total))).fit(disp=0)  # statsmodels
+    assert (o["sheet"]["calibration_intercept"], o["sheet"]["calibration_slope"]) == pytest.approx(tuple(fit.params), abs=1e-6)
+    glm = sm.GLM(p, sm.add_constant(sheet_logodds(sheet, scored.total)), family=sm.families.Binomial()).fit()  # statsmodels
+    assert (a["calibration_intercept"], a["calibration_slope"]) == pytest.approx(tuple(glm.params), abs=1e-6)
+    assert report["passed"], [b for b in report["bounds"] if not b["pass"]]
+    assert len(report["largest"]) == 20
+    worst = report["largest"][0]
+    assert abs(worst["difference"]) == pytest.approx(a["max_abs_risk_error"])
+
+
+# -- the command ------------------------------------------------------------------------------------
+
+
+@pytest.fixture()
+def files(tmp_path):
+    (tmp_path / "sheet.json").write_text(pretty_text(sheet_dict()))
+    (tmp_path / "model.json").write_text(pretty_text(model_dict()))
+    c = generate_cohort(1500, seed=3)
+    residence = c["residence"].map({"own_home": "home", "with_family": "home", "care_home": "care_home"})
+    table = pd.DataFrame({"age": c.age, "temperature": c.temperature, "cognition": c.cognition, "residence": residence,
+                          "prior_delirium": c.prior_delirium, "delirium": c.delirium})
+    table.to_csv(tmp_path / "cohort.csv", index=False)
+    return tmp_path
+
+
+def run(*args):
+    return CliRunner().invoke(main, list(map(str, args)))
+
+
+def test_check_passes_writes_a_deterministic_report_with_cautions_and_fingerprint(files):
+    args = ["check", files / "sheet.json", "--model", files / "model.json", "--data", files / "cohort.csv", "--bootstrap", 50]
+    first = run(*args, "-o", files / "a.pdf", "--json", files / "a.json")
+    assert first.exit_code == 0, first.output
+    second = run(*args, "-o", files / "b.pdf")
+    assert second.exit_code == 0
+    assert (files / "a.pdf").read_bytes() == (files / "b.pdf").read_bytes()
+    report = json.loads((files / "a.json").read_text())
+    assert report["passed"] and report["cohort"]["outcome_column"] == "delirium"
+    assert {b["name"] for b in report["bounds"]} >= {"auc_loss", "risk_error_share", "certificate_logodds", "model"}
+    short = short_fingerprint(sheet_dict())
+    with pdfplumber.open(files / "a.pdf") as pdf:
+        assert pdf.metadata.get("CreationDate") == first_meta(files / "b.pdf")
+        for page in pdf.pages:
+            text = " ".join((page.extract_text() or "").split())
+            assert short in text
+            assert "does not replace clinical judgement" in text and "associations, not causes" in text
+
+
+def first_meta(path):
+    with pdfplumber.open(path) as pdf:
+        return pdf.metadata.get("CreationDate")
+
+
+def test_a_failed_bound_is_exit_3_and_the_report_is_still_written(files):
+    strict = sheet_dict()
+    strict["bound"]["max_risk_error"] = 0.001
+    strict["bound"]["risk_error_share"] = 0.0
+    strict["fingerprint"] = sheet_fingerprint({k: v for k, v in strict.items() if k != "fingerprint"})
+    (files / "strict.json").write_text(pretty_text(strict))
+    result = run("check", files / "strict.json", "--model", files / "model.json", "--data", files / "cohort.csv",
+                 "-o", files / "r.pdf", "--bootstrap", 20)
+    assert result.exit_code == 3 and "risk_error_share" in result.output
+    assert (files / "r.pdf").exists()
+
+
+def test_a_different_model_is_refused_unless_overridden_loudly(files):
+    other = model_dict()
+    other["intercept"] = -1.5
+    (files / "other.json").write_text(pretty_text(other))
+    args = ["check", files / "sheet.json", "--model", files / "other.json", "--data", files / "cohort.csv", "-o", files / "r.pdf"]
+    refused = run(*args)
+    assert refused.exit_code == 2 and len(refused.output.strip().splitlines()) == 1 and "fingerprint" in refused.output
+    assert not (files / "r.pdf").exists()
+    forced = run(*args, "--allow-other-model", "--bootstrap", 20)
+    assert forced.exit_code == 3 and "WARNING" in forced.output and "NOT the model" in forced.output
+
+
+def test_check_bad_inputs(files):
+    (files / "short.csv").write_text("age,temperature,residence,prior_delirium\n70,37,home,no\n")
+    result = run("check", files / "sheet.json", "--model", files / "model.json", "--data", files / "short.csv", "-o", files / "r.pdf")
+    assert result.exit_code == 2 and "'cognition'" in result.output
+    (files / "empty.csv").write_text("age,temperature,cognition,residence,prior_delirium\n")
+    result = run("check", files / "sheet.json", "--model", files / "model.json", "--data", files / "empty.csv", "-o", files / "r.pdf")
+    assert result.exit_code == 2 and "no data rows" in result.output
+    result = run("check", files / "sheet.json", "--model", files / "model.json", "--data", files / "cohort.csv",
+                 "-o", files / "r.pdf", "--outcome", "death")
+    assert result.exit_code == 2 and "'death'" in result.output
