@@ -111,3 +111,29 @@ def test_wide_band_and_sparse_large_effect_are_flagged():
     sparse = [f for f in review_flags(model) if f.kind == "sparse_data" and f.term == "haemoglobin"]
     assert sparse and "rests on" in sparse[0].message
     assert "sparse_data" not in kinds(review_flags(model, settings=FlagSettings(sparse_patients=0.0)), "haemoglobin")
+
+
+def test_care_flag_from_an_adjusted_logistic_fit(cohort_frame):
+    """The same trap with an adjusted estimate: scikit-learn's LogisticRegression on the demo cohort, all
+    recorded features in, and the geriatric_review coefficient set as that term's score (centred)."""
+    from sklearn.linear_model import LogisticRegression
+
+    frame = cohort_frame.drop(columns=["patient_id", "delirium"])
+    frame["albumin_not_measured"] = frame["albumin"].isna().astype(float)
+    frame["albumin"] = frame["albumin"].fillna(frame["albumin"].median())
+    x = pd.get_dummies(frame, columns=["anaesthesia", "residence"], drop_first=True, dtype=float)
+    x = (x - x.mean()) / x.std()
+    fit = LogisticRegression(C=1e6, max_iter=5000).fit(x, cohort_frame["delirium"])
+    coefficient = float(fit.coef_[0][list(x.columns).index("geriatric_review")] / frame["geriatric_review"].std())
+    assert coefficient < 0  # protective-looking even after adjustment: the hidden routine is not recorded
+    model = true_model()
+    # the true model already marks the review as a care process, with effect 0: nothing to flag
+    assert model.feature("geriatric_review").role == "care_process"
+    assert "protective_care_marker" not in kinds(review_flags(model), "geriatric_review")
+    term = model.term("geriatric_review")
+    counts = np.asarray(term.counts, dtype=float)
+    scores = np.array([0.0, coefficient])
+    term.scores = (scores - np.average(scores, weights=counts)).tolist()
+    flags = [f for f in review_flags(model) if f.kind == "protective_care_marker"]
+    assert [f.term for f in flags] == ["geriatric_review"]
+    assert f"lowers risk by {-coefficient:.2f} log-odds" in flags[0].message
