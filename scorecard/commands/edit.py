@@ -105,6 +105,8 @@ def command(model_path, declarations, merges, clips, monotones, zeros, reason, e
     if not (declarations or merges or clips or monotones or zeros):
         raise UserError("no edit given; use --declare, --merge, --clip, --monotone or --zero (see scorecard edit --help)")
     model = load_model(model_path)
+    if not isinstance(model.provenance.get("edits", []), list):
+        raise UserError(f"{model_path}: provenance.edits must be a list of earlier edits; fix or remove it")
     cohort = read_csv(cohort_path) if cohort_path else None
     column = _outcome_column(model, outcome) if cohort is not None else None
     if outcome and cohort is None:
@@ -133,8 +135,10 @@ def command(model_path, declarations, merges, clips, monotones, zeros, reason, e
             record["cost"] = edit_cost(current, edited, cohort, observed)
         records.append(record)
         current = edited
-    history = list(model.provenance.get("edits", []))
-    current.provenance["edits"] = history + records
+    history = model.provenance.get("edits", [])
+    if not isinstance(history, list):
+        raise UserError(f"{model_path}: provenance.edits must be a list of earlier edits; found {type(history).__name__}")
+    current.provenance["edits"] = list(history) + records
     fingerprint = save_model(current, out, protect=(model_path,) + ((cohort_path,) if cohort_path else ()))
 
     for record in records:

@@ -66,7 +66,21 @@ def summary_page(
     top = 0.575 if ranking is not None else 0.90
     if ranking is not None:
         _ranking_chart(fig, ranking, flags, population_note)
+        declared = declarations_text(model)
+        fig.text(LEFT, top, "\n".join(textwrap.wrap(declared, 150)), fontsize=6.5, va="top")
+        top -= 0.012 * (1 + len(declared) // 150) + 0.008
     return fig, _flag_list(fig, flags, settings, top, continued=ranking is None)
+
+
+def declarations_text(model: AdditiveModel) -> str:
+    """What the methodologist has declared, which the direction and care-process flags rely on."""
+    directions = [f"{f.name} {f.direction}" for f in model.features if f.direction and f.name in model.used_features]
+    care = [f.name for f in model.features if f.role == "care_process" and f.name in model.used_features]
+    return (
+        "Declared directions: " + (", ".join(directions) if directions else "none")
+        + ". Care-process markers: " + (", ".join(care) if care else "none")
+        + ". (Declare with scorecard edit --declare FEATURE=increasing|decreasing|care_process.)"
+    )
 
 
 def _ranking_chart(fig: Figure, ranking: list[TermImportance], flags: list[Flag], population_note: str) -> None:
