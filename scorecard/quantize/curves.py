@@ -97,6 +97,15 @@ class Curve:
     patient_piece: np.ndarray
     n_main: int  # pieces that take part in segmentation (the rest are not measured / other)
 
+    missing_allowed = True
+
+    def certified(self) -> np.ndarray:
+        """Pieces an input can reach on the sheet (a pair's not-measured cell only when the model allows it)."""
+        mask = np.ones(len(self.scores), dtype=bool)
+        if not self.missing_allowed:
+            mask[self.n_main:] = False
+        return mask
+
     def piece_weights(self, patient_weight: np.ndarray) -> np.ndarray:
         w = np.bincount(self.patient_piece, weights=patient_weight, minlength=len(self.scores)).astype(float)
         return w + EPS_WEIGHT * max(float(w.mean()), 1e-12)
@@ -269,6 +278,8 @@ class PairCurve(Curve):
         cells = grid[np.ix_(self.axes[0]["piece_bin"], self.axes[1]["piece_bin"])]
         self.n_main = p0 * p1
         self.special = ["missing"]
+        # the model scores "either not measured" only if one of the two features may be left unmeasured
+        self.missing_allowed = any(f.missing != "error" for f in self.features)
         self.scores = np.concatenate([cells.ravel(), [float(term.missing_score or 0.0)]])
         a0, a1 = patient_axis
         missing = (a0 < 0) | (a1 < 0)
@@ -339,10 +350,11 @@ class PairCurve(Curve):
                              "rows": [{"levels": [lv], "text": _level_text(lv)} for lv in ax["levels"]]})
         n0, n1 = len(axes[0]["rows"]), len(axes[1]["rows"])
         grid = [[int(points[r * n1 + c]) for c in range(n1)] for r in range(n0)]
+        missing_points = int(points[n0 * n1]) if self.missing_allowed else min(min(row) for row in grid)
         return {
             "name": self.name, "kind": "pair", "label": " and ".join(f.label for f in self.features),
             "features": [f.name for f in self.features], "labels": [f.label for f in self.features],
-            "axes": axes, "points": grid, "missing_points": int(points[n0 * n1]),
+            "axes": axes, "points": grid, "missing_points": missing_points, "missing_allowed": self.missing_allowed,
         }
 
 

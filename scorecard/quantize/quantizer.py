@@ -327,9 +327,9 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
             effect = float(np.ptp(curve.scores))
             dropped.append({"name": curve.name, "reason":
                             f"its whole effect ({effect:.2f} log-odds) rounds to 0 points at {scale:.3g} log-odds per point"})
-            piece_errors[curve.name] = -curve.scores
+            piece_errors[curve.name] = -curve.scores[curve.certified()]
             continue
-        piece_errors[curve.name] = scale * pts[lay.row_of_piece] - curve.scores
+        piece_errors[curve.name] = (scale * pts[lay.row_of_piece] - curve.scores)[curve.certified()]
         if isinstance(curve, LevelCurve):
             terms.append(curve.sheet_term(lay, pts.tolist(), merge_equal=merge_equal_levels))
         else:
@@ -385,7 +385,7 @@ def printed_rows(terms: list[dict]) -> int:
 
 def _term_points(term: dict) -> list[int]:
     if term["kind"] == "pair":
-        return [p for row in term["points"] for p in row] + [term["missing_points"]]
+        return [p for row in term["points"] for p in row] + ([term["missing_points"]] if term.get("missing_allowed", True) else [])
     return [r["points"] for r in term["rows"]]
 
 
