@@ -97,7 +97,7 @@ def command(model_path, declarations, merges, clips, monotones, zeros, reason, e
     Edits run in this order, each on the result of the one before:
       --declare, --merge, --clip, --monotone, --zero.
     Every edit is appended to the model's provenance under `edits`: who (--by), when (UTC), what (in words
-    and figures), why (--reason), the fingerprint of the model it was applied to and, with --data, its cost
+    and figures), why (--reason), the fingerprint of the model it was applied to (with the earlier edits' records) and, with --data, its cost
     (AUC before and after; calibration-in-the-large, observed minus mean predicted risk). The cost is also
     printed. The output's fingerprint changes with every edit; nothing is written if any edit is refused.
     """
@@ -134,11 +134,11 @@ def command(model_path, declarations, merges, clips, monotones, zeros, reason, e
             record["data"] = data_note
             record["cost"] = edit_cost(current, edited, cohort, observed)
         records.append(record)
+        # each step's model carries its own record, so `applied_to` of the next edit is the fingerprint the
+        # model would have had if the edits had been run one command at a time
+        edited.provenance["edits"] = list(current.provenance.get("edits", [])) + [record]
         current = edited
     history = model.provenance.get("edits", [])
-    if not isinstance(history, list):
-        raise UserError(f"{model_path}: provenance.edits must be a list of earlier edits; found {type(history).__name__}")
-    current.provenance["edits"] = list(history) + records
     fingerprint = save_model(current, out, protect=(model_path,) + ((cohort_path,) if cohort_path else ()))
 
     for record in records:

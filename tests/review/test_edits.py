@@ -117,6 +117,13 @@ def test_edit_history_round_trips_and_the_fingerprint_changes(care_model_path, c
     assert edits[1]["by"] == "methodologist" and edits[1]["at"] == "2026-05-28T20:26:40Z"  # SOURCE_DATE_EPOCH 1780000000
     assert edits[1]["reason"] == "care-process marker must not lower the score"
     assert edits[0]["applied_to"] == original.fingerprint and edits[1]["applied_to"] != original.fingerprint
+    # the chain: running the two edits one command at a time gives the same history and the same bytes
+    step1, step2 = review_dir / "step1.model.json", review_dir / "step2.model.json"
+    common = ["--reason", "care-process marker must not lower the score", "--by", "methodologist", "--data", cohort_csv, "--outcome", "delirium"]
+    assert run_cli("edit", care_model_path, "--declare", "geriatric_review=care_process", *common, "-o", step1).exit_code == 0
+    assert load_model(step1).fingerprint == edits[1]["applied_to"]
+    assert run_cli("edit", step1, "--zero", "geriatric_review", *common, "-o", step2).exit_code == 0
+    assert step2.read_bytes() == out.read_bytes()
     cost = edits[1]["cost"]
     assert cost["against"] == "observed outcome" and cost["delta_auc"] == pytest.approx(cost["auc_after"] - cost["auc_before"], abs=2e-6)
     # save -> load -> save is stable, and the same inputs give the same bytes
