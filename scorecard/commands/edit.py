@@ -97,9 +97,10 @@ def command(model_path, declarations, merges, clips, monotones, zeros, reason, e
     Edits run in this order, each on the result of the one before:
       --declare, --merge, --clip, --monotone, --zero.
     Every edit is appended to the model's provenance under `edits`: who (--by), when (UTC), what (in words
-    and figures), why (--reason), the fingerprint of the model it was applied to (with the earlier edits' records) and, with --data, its cost
-    (AUC before and after; calibration-in-the-large, observed minus mean predicted risk). The cost is also
-    printed. The output's fingerprint changes with every edit; nothing is written if any edit is refused.
+    and figures), why (--reason), the fingerprint of the model it was applied to and, with --data, its
+    cost (AUC before and after; calibration-in-the-large, observed minus mean predicted risk). The cost is
+    also printed. One run with several edits gives the same file as running them one at a time. The
+    output's fingerprint changes with every edit; nothing is written if any edit is refused.
     """
     out = output_path(output, model_path, cohort_path or "")
     if not (declarations or merges or clips or monotones or zeros):
