@@ -1,0 +1,251 @@
+"""`scorecard fit`: learn an additive risk model from a patient table and write it as a model document."""
+
+from __future__ import annotations
+
+import hashlib
+from pathlib import Path
+
+import click
+import numpy as np
+import pandas as pd
+
+from scorecard.commands._common import output_path, say
+from scorecard.errors import UserError
+from scorecard.model import save_model
+from scorecard.tabular import FLAG_FALSE, FLAG_TRUE, flag_column, is_missing_text, numeric_column, read_csv
+
+MIN_EVENTS = 10  # below this no shape can be told from noise (common practice: >= 10 events per variable is already generous)
+
+
+def _names(values: tuple[str, ...]) -> list[str]:
+    """Repeatable options that also accept comma-separated lists."""
+    out: list[str] = []
+    for v in values:
+        out.extend(p.strip() for p in v.split(",") if p.strip())
+    return out
+
+
+def _settings(values: tuple[str, ...], option: str, known: list[str], cast) -> dict:
+    out = {}
+    for item in values:
+        name, sep, value = item.partition("=")
+        name = name.strip()
+        if not sep or not name:
+            raise UserError(f"{option} {item!r}: write it as FEATURE=VALUE, e.g. {option} sodium=mmol/L")
+        if name not in known:
+            raise UserError(f"{option} {item!r}: {name!r} is not a feature being fitted; features: {', '.join(known)}")
+        try:
+            out[name] = cast(value.strip())
+        except ValueError:
+            raise UserError(f"{option} {item!r}: {value.strip()!r} is not a valid value") from None
+    return out
+
+
+def _decimals(text: str) -> int:
+    n = int(text)
+    if not 0 <= n <= 6:
+        raise ValueError(text)
+    return n
+
+
+def outcome_values(frame: pd.DataFrame, column: str, source: str) -> np.ndarray:
+    """0/1 outcome from 1/0, yes/no or true/false; anything else names the values found."""
+    col = frame[column]
+    missing = is_missing_text(col)
+    if missing.any():
+        row = int(np.flatnonzero(missing)[0])
+        raise UserError(f"{source}: row {row + 1}, column {column!r}: the outcome is empty; every patient needs 0 or 1")
+    text = col.astype(str).str.strip().str.lower()
+    known = text.isin(FLAG_TRUE | FLAG_FALSE)
+    if not known.all():
+        found = sorted(set(col.astype(str).str.strip()))
+        shown = ", ".join(repr(v) for v in found[:6]) + (f" and {len(found) - 6} more" if len(found) > 6 else "")
+        raise UserError(f"{source}: outcome column {column!r} must be binary (0/1, yes/no); found values {shown}")
+    y = flag_column(frame, column)
+    events = int(y.sum())
+    if events == 0 or events == len(y):
+        only = "1 (event)" if events else "0 (no event)"
+        raise UserError(f"{source}: outcome column {column!r} has only one class, {only}, in all {len(y)} rows; a risk model needs both")
+    if events < MIN_EVENTS:
+        raise UserError(f"{source}: outcome column {column!r} has {events} events; at least {MIN_EVENTS} are needed to fit a model")
+    return y
+
+
+def feature_column(frame: pd.DataFrame, name: str, categorical: bool) -> tuple[np.ndarray, str]:
+    """(values, kind): numbers (NaN = not measured), 0/1 from yes/no text, or level text (None = missing).
+
+    A column is read as categories when named with --categorical or when none of its cells is a number; a
+    column that is mostly numbers with some text is an error naming the first bad row."""
+    col = frame[name]
+    missing = is_missing_text(col)
+    text = col.astype(str).str.strip()
+    if categorical:
+        levels = text.to_numpy(dtype=object)
+        levels[missing] = None
+        return levels, "categorical"
+    present = text[~missing]
+    lowered = present.str.lower()
+    if len(present) and lowered.isin(FLAG_TRUE | FLAG_FALSE).all() and not pd.to_numeric(present, errors="coerce").notna().all():
+        return flag_column(frame, name), "flag"
+    if len(present) and pd.to_numeric(present, errors="coerce").isna().all():
+        levels = text.to_numpy(dtype=object)
+        levels[missing] = None
+        return levels, "categorical"
+    return numeric_column(frame, name), "numeric"
+
+
+def _informative(values: np.ndarray) -> str | None:
+    """Why a column cannot inform the model (all missing, or one value and nothing missing), or None."""
+    if values.dtype == object:
+        present = [v for v in values if v is not None]
+        n_missing = len(values) - len(present)
+        distinct = len(set(present))
+    else:
+        present = values[~np.isnan(values)]
+        n_missing = len(values) - len(present)
+        distinct = len(np.unique(present))
+    if distinct == 0:
+        return "every value is missing"
+    if distinct == 1 and n_missing == 0:
+        return "it has the same value for every patient"
+    return None
+
+
+def _file_sha256(path: str) -> str:
+    digest = hashlib.sha256()
+    with open(path, "rb") as handle:
+        for block in iter(lambda: handle.read(1 << 20), b""):
+            digest.update(block)
+    return digest.hexdigest()
+
+
+def _pairs_option(text: str):
+    if text.strip().lower() == "auto":
+        return "auto"
+    try:
+        n = int(text)
+    except ValueError:
+        raise UserError(f"--pairs {text!r}: give a whole number of pairs (0 for none) or 'auto'") from None
+    if n < 0:
+        raise UserError(f"--pairs {text!r}: give a whole number of pairs (0 for none) or 'auto'")
+    return n
+
+
+@click.command()
+@click.argument("data_path", metavar="DATA.csv", type=click.Path(dir_okay=False))
+@click.option("--outcome", required=True, metavar="COLUMN", help="The 0/1 (or yes/no) outcome column: 1 = the event happened.")
+@click.option("--features", "features", multiple=True, metavar="NAMES", help="Columns to use (comma-separated or repeated). Default: every column but the outcome, --weights and --exclude.")
+@click.option("--exclude", multiple=True, metavar="NAMES", help="Columns never to use, such as a patient id (comma-separated or repeated).")
+@click.option("--categorical", multiple=True, metavar="NAMES", help="Columns to treat as categories even if they hold numbers (text columns always are).")
+@click.option("--weights", "weights_column", metavar="COLUMN", help="Column of non-negative patient weights (sample weights).")
+@click.option("--pairs", "pairs_text", default="auto", show_default=True, metavar="N|auto", help="Number of two-feature terms; 'auto' keeps those that pass a held-out interaction test (at most --max-pairs).")
+@click.option("--max-pairs", default=3, show_default=True, type=click.IntRange(0, 20), help="Most pairs 'auto' may keep.")
+@click.option("--bags", default=8, show_default=True, type=click.IntRange(1, 100), help="Bags (repeat fits on different held-out splits); shapes are their mean, spread bands their standard deviation.")
+@click.option("--seed", default=0, show_default=True, type=click.IntRange(0), help="Seed of the bags' splits; the same seed and data give the same bytes.")
+@click.option("--learning-rate", default=0.04, show_default=True, type=click.FloatRange(0, 1, min_open=True), help="Scale of each boosting step.")
+@click.option("--min-leaf", default=5, show_default=True, type=click.FloatRange(1), help="Fewest patients in any leaf of any step (raise it for small cohorts).")
+@click.option("--max-bins", default=256, show_default=True, type=click.IntRange(2, 1024), help="Most bins per continuous feature.")
+@click.option("--name", default=None, help="Model name (default: the data file's name).")
+@click.option("--event", default=None, help="What the outcome is, printed on the sheet (default: the outcome column's name).")
+@click.option("--horizon", default="not stated", show_default=True, help="Over what time the event is counted, e.g. '5 days after surgery'.")
+@click.option("--population", default="not stated", show_default=True, help="Who the model is for, e.g. 'adults aged 60 or over after hip-fracture surgery'.")
+@click.option("--label", "labels", multiple=True, metavar="FEATURE=TEXT", help="Printed label of a feature (repeatable).")
+@click.option("--unit", "units", multiple=True, metavar="FEATURE=UNIT", help="Unit of a feature, e.g. sodium=mmol/L (repeatable).")
+@click.option("--decimals", "decimals", multiple=True, metavar="FEATURE=N", help="Decimals to print for a feature (repeatable; default: as recorded).")
+@click.option("--jobs", default=None, type=click.IntRange(1), help="Processes for the bags (default: all usable cores); the result does not depend on it.")
+@click.option("-o", "--output", required=True, type=click.Path(dir_okay=False), help="Model document to write (*.model.json).")
+def command(data_path, outcome, features, exclude, categorical, weights_column, pairs_text, max_pairs, bags, seed,
+            learning_rate, min_leaf, max_bins, name, event, horizon, population, labels, units, decimals, jobs, output):
+    """Fit an additive risk model to DATA.csv and write it as a model document.
+
+    \b
+    The method (see docs/fitting.md): every feature gets a shape curve, grown by cyclic gradient boosting
+    of tiny trees with a low learning rate and early stopping; this is repeated on --bags different
+    held-out splits and averaged (the spread between bags is stored as each shape's band); pairs of
+    features are ranked by the FAST interaction test and the strongest are added as purified grids; every
+    term is centred to population mean zero.
+
+    \b
+    Cells: numbers with a decimal point, 0/1 or yes/no flags, or text categories. Empty cells (or NA,
+    'not measured') mean not measured; a feature measured for only some patients gets a not-measured score.
+    A constant or never-measured column is skipped with a warning. Progress goes to stderr.
+
+    \b
+    Example:
+      scorecard fit cohort.csv --outcome delirium --exclude patient_id \\
+          --event "delirium" --horizon "5 days after surgery" --unit sodium=mmol/L -o delirium.model.json
+    """
+    out = output_path(output, data_path)
+    frame = read_csv(data_path, "patient data")
+    source = str(data_path)
+    columns = list(frame.columns)
+    if outcome not in columns:
+        raise UserError(f"{source}: outcome column {outcome!r} is not in the file; columns: {', '.join(columns)}")
+    chosen, excluded, as_categories = _names(features), _names(exclude), _names(categorical)
+    for option, listed in (("--features", chosen), ("--exclude", excluded), ("--categorical", as_categories)):
+        unknown = [c for c in listed if c not in columns]
+        if unknown:
+            raise UserError(f"{source}: {option} names column {unknown[0]!r}, which is not in the file; columns: {', '.join(columns)}")
+    if weights_column and weights_column not in columns:
+        raise UserError(f"{source}: --weights column {weights_column!r} is not in the file")
+    if outcome in chosen:
+        raise UserError(f"{source}: --features lists the outcome column {outcome!r}; a model cannot use its own outcome")
+    if not chosen:
+        chosen = [c for c in columns if c not in (outcome, weights_column) and c not in excluded]
+    else:
+        chosen = [c for c in chosen if c not in excluded]
+    y = outcome_values(frame, outcome, source)
+    weights = None
+    if weights_column:
+        weights = numeric_column(frame, weights_column)
+        bad = np.isnan(weights) | (weights < 0)
+        if bad.any():
+            row = int(np.flatnonzero(bad)[0])
+            raise UserError(f"{source}: row {row + 1}, column {weights_column!r}: a weight must be a number >= 0")
+
+    data, kinds = {}, {}
+    for column in chosen:
+        values, kind = feature_column(frame, column, column in as_categories)
+        why = _informative(values)
+        if why:
+            say(f"warning: skipping feature {column!r}: {why}")
+            continue
+        data[column], kinds[column] = values, kind
+    if not data:
+        raise UserError(f"{source}: no usable feature left to fit; check --features and the columns' contents")
+    kept = list(data)
+    unit_of = _settings(units, "--unit", kept, str)
+    decimals_of = _settings(decimals, "--decimals", kept, _decimals)
+    label_of = _settings(labels, "--label", kept, str)
+    pairs = _pairs_option(pairs_text)
+    say(f"read {len(frame)} patients, {int(y.sum())} events, {len(kept)} features from {source}")
+
+    from scorecard.fit import AdditiveRiskClassifier
+
+    table = pd.DataFrame({c: pd.Series(v, dtype=object if v.dtype == object else float) for c, v in data.items()})
+    estimator = AdditiveRiskClassifier(
+        learning_rate=learning_rate, bags=bags, pairs=pairs, max_pairs=max_pairs, max_bins=max_bins,
+        min_samples_leaf=min_leaf, categorical_features=[c for c in kept if kinds[c] == "categorical"],
+        n_jobs=jobs, random_state=seed, verbose=1,
+    )
+    try:
+        estimator.fit(table, y, sample_weight=weights)
+    except ValueError as exc:  # e.g. all weights zero
+        raise UserError(f"{source}: cannot fit: {exc}") from None
+    model = estimator.to_model(
+        name=name or Path(data_path).stem,
+        event=event or outcome,
+        horizon=horizon,
+        population=population,
+        labels=label_of,
+        units=unit_of,
+        decimals=decimals_of,
+        provenance={"source": {"file": Path(data_path).name, "sha256": _file_sha256(data_path), "outcome": outcome,
+                               "weights": weights_column}},
+    )
+    validation = model.provenance.get("validation", {})
+    if "out_of_bag_auc" in validation:
+        say(f"out-of-bag AUC {validation['out_of_bag_auc']:.3f} on {validation['out_of_bag_rows']} patients")
+    fingerprint = save_model(model, out, protect=(data_path,))
+    pairs_kept = [t.name for t in model.terms if t.kind == "pair"]
+    say(f"wrote {out}: {len(model.terms) - len(pairs_kept)} shapes, pairs: {', '.join(pairs_kept) or 'none'}; fingerprint {fingerprint[:16]}")
