@@ -10,7 +10,7 @@ from scorecard.commands._common import output_path, say
 from scorecard.errors import UserError
 from scorecard.jsondoc import atomic_write_bytes
 from scorecard.model import load_model
-from scorecard.review import build_review, pdf_bytes, write_previews
+from scorecard.review.report import build_review, pdf_bytes, write_previews
 from scorecard.tabular import read_csv
 
 
