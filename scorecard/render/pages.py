@@ -208,8 +208,8 @@ def _story(sheet: dict, layout: Layout, styles: Styles, short_fingerprint: str, 
             if part == "instructions":
                 story.append(instructions_block(sheet, styles, layout.compact))
             elif part == "terms" and "instructions" not in section.parts:
-                story.append(Paragraph("Find the patient's row in each table and write its points in the box "
-                                       "beside the table's heading.", styles.body))
+                story.append(Paragraph(markup(sheet["rounding_rule"]) + " Write the points of the patient's row in "
+                                       "the box beside each table's heading.", styles.body))
                 story.append(Spacer(1, styles.body_pt * 0.5))
                 story += [term_block(term, styles, signed, width) for term in sheet["terms"]]
             elif part == "terms":
@@ -293,10 +293,10 @@ def _check_limits(layout: Layout, placement: _Placement) -> None:
             last_allowed = starts[i] + section.max_pages - 1
             spill = [what for what, page in placement.placed if last_allowed < page < ends[i]]
             names = ", ".join(dict.fromkeys(spill)) or "the end of the section"
+            room = "one page" if section.max_pages == 1 else f"{section.max_pages} pages"
             raise UserError(
-                f"layout {layout.name}: the {section.name} side needs {used} pages but the layout allows "
-                f"{section.max_pages}; these do not fit at {layout.min_pt:g} pt: {names}. Use a larger layout "
-                f"(e.g. ward-a4) or build a sheet with fewer rows")
+                f"layout {layout.name}: the {section.name} part may take {room} and these do not fit on it at "
+                f"{layout.min_pt:g} pt: {names}. Use a larger layout (e.g. ward-a4) or build a sheet with fewer rows")
     if layout.max_pages and placement.pages > layout.max_pages:
         raise UserError(f"layout {layout.name}: the sheet needs {placement.pages} pages but the layout allows "
                         f"{layout.max_pages}; use a larger layout (e.g. ward-a4) or build a sheet with fewer rows")

@@ -8,12 +8,14 @@ from __future__ import annotations
 from reportlab.lib import colors
 from reportlab.platypus import Flowable, KeepTogether, Paragraph, Spacer, Table, TableStyle
 
+from scorecard.errors import UserError
 from scorecard.render.fonts import text_width
 from scorecard.render.styles import Styles
 from scorecard.render.text import MINUS, markup, points_text, term_heading
 
 RULE = colors.Color(0.55, 0.55, 0.55)
 TINT = colors.Color(0.92, 0.92, 0.92)
+ZEBRA = colors.Color(0.96, 0.96, 0.96)
 PAD = 2.0
 
 def cautions_line(sheet: dict, short_fingerprint: str) -> str:
@@ -61,6 +63,8 @@ def term_block(term: dict, styles: Styles, signed: bool, width: float) -> Flowab
     if term["kind"] == "pair":
         return pair_block(term, styles, signed, width)
     points_w = points_column_width(styles)
+    # a wide column would leave the eye a long way to travel from a range to its points: cap the table
+    width = min(width, styles.body_pt * 24)
     text_w = width - points_w
     box_w = points_w - 2 * PAD
     data = [[Paragraph(markup(term_heading(term)), styles.heading), WriteInBox(box_w, _box_height(styles))]]
@@ -70,9 +74,10 @@ def term_block(term: dict, styles: Styles, signed: bool, width: float) -> Flowab
     commands = [
         ("VALIGN", (0, 0), (-1, -1), "MIDDLE"),
         ("LEFTPADDING", (0, 0), (-1, -1), PAD), ("RIGHTPADDING", (0, 0), (-1, -1), PAD),
-        ("TOPPADDING", (0, 0), (-1, -1), 1), ("BOTTOMPADDING", (0, 0), (-1, -1), 1.5),
-        ("TOPPADDING", (0, 0), (-1, 0), 2), ("BOTTOMPADDING", (0, 0), (-1, 0), 2),
+        ("TOPPADDING", (0, 0), (-1, -1), 0.6), ("BOTTOMPADDING", (0, 0), (-1, -1), 1.2),
+        ("TOPPADDING", (0, 0), (-1, 0), 1.5), ("BOTTOMPADDING", (0, 0), (-1, 0), 1.5),
         ("BACKGROUND", (0, 0), (0, 0), TINT),
+        ("ROWBACKGROUNDS", (0, 1), (-1, -1), [colors.white, ZEBRA]),  # every other row, to keep the eye on its row
         ("LINEBELOW", (0, 0), (-1, 0), 0.8, colors.black),
         ("LINEBELOW", (0, 1), (-1, -2), 0.3, RULE),
         ("BOX", (0, 0), (-1, -1), 0.8, colors.black),
@@ -97,13 +102,25 @@ def pair_block(term: dict, styles: Styles, signed: bool, width: float) -> Flowab
     needed = max([text_width(axis_title(label0, axis0), styles.body_pt)]
                  + [text_width(r["text"], styles.body_pt) for r in axis0["rows"]]) + 2 * PAD + 2
     first_w = min(width * 0.5, max(width * 0.3, needed))
+    # a cell must hold its column's printed range on one line and the widest points
+    widest_points = max(text_width(points_text(p, signed), styles.body_pt, bold=True) for row in term["points"] for p in row)
+    min_cell = max([widest_points] + [text_width(r["text"], styles.body_pt) for r in axis1["rows"]]) + 2 * PAD + 1
+    box_cells = 1 if n_cols == 1 else 2  # the write-in box sits over the last one or two cells
+    min_first = max(text_width(w, styles.body_pt) for r in axis0["rows"] for w in r["text"].split()) + 2 * PAD + 2
+    if min_first + n_cols * min_cell > width + 0.01 or box_cells * min_cell < points_w - 0.01:
+        raise UserError(
+            f"the grid {term_heading(term)!r} needs {min_first + n_cols * min_cell:.0f} pt across at "
+            f"{styles.body_pt:g} pt but a column of this layout is {width:.0f} pt wide; use a layout with fewer "
+            "columns or wider paper")
     cell_w = (width - first_w) / n_cols
-    if cell_w < points_w:  # many columns: give the cells their minimum and let the row labels wrap
-        cell_w = points_w
+    if cell_w < min_cell:  # many columns: give the cells their minimum and let the row labels wrap
+        cell_w = min_cell
         first_w = width - n_cols * cell_w
 
-    heading = [Paragraph(markup(f"{term_heading(term)}: both together"), styles.heading)] + [""] * (n_cols - 1)
-    heading.append(WriteInBox(box_w, _box_height(styles)))  # in the last column; the heading spans the others
+    # the write-in box sits over the last one or two cells; the heading spans the others
+    box = WriteInBox(box_w, _box_height(styles))
+    title = Paragraph(markup(f"{term_heading(term)}: both together"), styles.heading)
+    heading = [title, box] if n_cols == 1 else [title] + [""] * (n_cols - 2) + [box, ""]
     # the second feature's name spans its columns, the first feature's name heads the row labels
     over = [""] + [Paragraph(markup(axis_title(label1, axis1)), styles.body_center)] + [""] * (n_cols - 1)
     header = [Paragraph(markup(axis_title(label0, axis0)), styles.body)] + [
@@ -120,8 +137,8 @@ def pair_block(term: dict, styles: Styles, signed: bool, width: float) -> Flowab
     commands = [
         ("VALIGN", (0, 0), (-1, -1), "MIDDLE"),
         ("LEFTPADDING", (0, 0), (-1, -1), PAD), ("RIGHTPADDING", (0, 0), (-1, -1), PAD),
-        ("TOPPADDING", (0, 0), (-1, -1), 1), ("BOTTOMPADDING", (0, 0), (-1, -1), 1.5),
-        ("BACKGROUND", (0, 0), (-2 if n_cols > 1 else 0, 0), TINT),
+        ("TOPPADDING", (0, 0), (-1, -1), 0.6), ("BOTTOMPADDING", (0, 0), (-1, -1), 1.2),
+        ("BACKGROUND", (0, 0), (-3 if n_cols > 1 else 0, 0), TINT),
         ("LINEBELOW", (0, 0), (-1, 0), 0.8, colors.black),
         ("SPAN", (1, 1), (-1, 1)),
         ("ALIGN", (-1, 0), (-1, 0), "RIGHT"),
@@ -132,7 +149,7 @@ def pair_block(term: dict, styles: Styles, signed: bool, width: float) -> Flowab
         ("BOX", (0, 0), (-1, -1), 0.8, colors.black),
     ]
     if n_cols > 1:
-        commands.append(("SPAN", (0, 0), (-2, 0)))
+        commands += [("SPAN", (0, 0), (-3, 0)), ("SPAN", (-2, 0), (-1, 0)), ("ALIGN", (-2, 0), (-1, 0), "RIGHT")]
     table.setStyle(TableStyle(commands))
     return Tracked([table, Spacer(1, styles.body_pt * 0.6)], what=term_heading(term))
 
