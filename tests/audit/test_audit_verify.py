@@ -1,0 +1,186 @@
+"""`verify`: the printed PDF read back with pdfplumber agrees cell by cell with the sheet; every changed number is
+caught (100 % detection), the untouched PDF raises no alarm, another sheet version and non-sheets are refused."""
+
+from __future__ import annotations
+
+import copy
+import io
+import re
+
+import pytest
+from click.testing import CliRunner
+from pypdf import PdfReader, PdfWriter
+from pypdf.generic import ContentStream, TextStringObject
+
+from scorecard.audit.pdf_tables import read_pdf
+from scorecard.audit.readback import verify_pages, verify_pdf
+from scorecard.cli import main
+from scorecard.jsondoc import pretty_text
+from scorecard.render import load_layout, render_pdf, shipped_layouts
+from scorecard.sheet import short_fingerprint
+from tests.audit.handmade import compact_model_dict, sheet_dict
+
+
+def bump(text: str) -> str:
+    """The same text with its last digit changed (9 -> 0)."""
+    digits = [m.start() for m in re.finditer(r"\d", text)]
+    k = digits[-1]
+    return text[:k] + str((int(text[k]) + 1) % 10) + text[k + 1:]
+
+
+def pdf_pages(data: bytes, tmp_path, name="x.pdf"):
+    path = tmp_path / name
+    path.write_bytes(data)
+    return read_pdf(path)
+
+
+@pytest.fixture(scope="module")
+def compact():
+    return sheet_dict(compact_model_dict(), lpp=0.5)
+
+
+@pytest.mark.parametrize("layout", sorted(shipped_layouts()))
+def test_untouched_pdf_matches_in_every_shipped_layout(layout, tmp_path):
+    sheet = sheet_dict()
+    result = verify_pages(sheet, pdf_pages(render_pdf(sheet, load_layout(layout), short_fingerprint(sheet)), tmp_path))
+    assert result.mismatches == [], [m.line() for m in result.mismatches]
+    # every row text, points cell, grid cell and conversion entry was compared
+    rows = sum(len(t["rows"]) for t in sheet["terms"] if t["kind"] != "pair")
+    assert result.cells_checked >= 2 * rows + 2 * len(sheet["conversion"])
+
+
+def numeric_cells(sheet: dict):
+    """Every printed cell of the sheet document that holds a number: (description, function altering it)."""
+    cells = []
+    for ti, term in enumerate(sheet["terms"]):
+        if term["kind"] == "pair":
+            for i, row in enumerate(term["points"]):
+                for j in range(len(row)):
+                    cells.append((f"{term['name']} grid [{i}][{j}]", lambda s, ti=ti, i=i, j=j: s["terms"][ti]["points"][i].__setitem__(j, s["terms"][ti]["points"][i][j] + 1)))
+            cells.append((f"{term['name']} not measured", lambda s, ti=ti: s["terms"][ti].__setitem__("missing_points", s["terms"][ti]["missing_points"] + 1)))
+            for a, axis in enumerate(term["axes"]):
+                for r, row in enumerate(axis["rows"]):
+                    if re.search(r"\d", row["text"]):
+                        cells.append((f"{term['name']} axis {a} row {r} text", lambda s, ti=ti, a=a, r=r: s["terms"][ti]["axes"][a]["rows"][r].__setitem__("text", bump(s["terms"][ti]["axes"][a]["rows"][r]["text"]))))
+            continue
+        for r, row in enumerate(term["rows"]):
+            cells.append((f"{term['name']} row {r} points", lambda s, ti=ti, r=r: s["terms"][ti]["rows"][r].__setitem__("points", s["terms"][ti]["rows"][r]["points"] + 1)))
+            if re.search(r"\d", row["text"]):
+                cells.append((f"{term['name']} row {r} text", lambda s, ti=ti, r=r: s["terms"][ti]["rows"][r].__setitem__("text", bump(s["terms"][ti]["rows"][r]["text"]))))
+    for k in range(len(sheet["conversion"])):
+        cells.append((f"conversion {k} risk text", lambda s, k=k: s["conversion"][k].__setitem__("text", bump(s["conversion"][k]["text"]))))
+        # one unit down for the first total, up for the others, so the printed chart keeps its ends in order
+        step = -1 if k == 0 else 1
+        cells.append((f"conversion {k} total", lambda s, k=k, step=step: s["conversion"][k].__setitem__("total", s["conversion"][k]["total"] + step)))
+    return cells
+
+
+TABLES_ONLY = """
+name = "tables-only"
+description = "ward-a4 without the curve and the nomogram: every table the audit reads, nothing drawn from totals"
+[page]
+size = "A4"
+orientation = "portrait"
+margins_mm = { top = 10, bottom = 10, left = 12, right = 12 }
+two_sided = false
+[type]
+min_pt = 9
+body_pt = 9
+heading_pt = 9.5
+title_pt = 13
+[[section]]
+name = "point tables"
+columns = 2
+parts = ["terms", "total"]
+[[section]]
+name = "conversion"
+columns = 1
+parts = ["instructions", "conversion_table", "bands", "ranges", "cautions"]
+"""
+
+
+def test_every_changed_number_is_caught(compact, tmp_path):
+    """Render from a copy of the sheet with exactly one printed number changed, but the approved sheet's
+    fingerprint on every page (a doctored print): verify against the approved sheet must flag it. The layout
+    leaves out the curve and nomogram, which cannot be drawn from a conversion table whose totals are doctored."""
+    (tmp_path / "tables-only.toml").write_text(TABLES_ONLY)
+    layout = load_layout(str(tmp_path / "tables-only.toml"))
+    clean = verify_pages(compact, pdf_pages(render_pdf(compact, layout, short_fingerprint(compact)), tmp_path))
+    assert clean.mismatches == []  # no false alarm in this layout either
+    short = short_fingerprint(compact)
+    cells = numeric_cells(compact)
+    assert len(cells) > 40
+    missed = []
+    for name, alter in cells:
+        doctored = copy.deepcopy(compact)
+        alter(doctored)
+        result = verify_pages(compact, pdf_pages(render_pdf(doctored, layout, short), tmp_path))
+        if not result.mismatches:
+            missed.append(name)
+    assert missed == []  # 100 % detection
+
+
+def test_content_stream_edit_of_any_points_cell_is_caught(compact, tmp_path):
+    """Edit the PDF itself (pypdf): change the digit of every number drawn on the points-table page."""
+    clean = render_pdf(compact, load_layout("ward-a4"), short_fingerprint(compact))
+    reader = PdfReader(io.BytesIO(clean))
+    ops = ContentStream(reader.pages[0].get_contents(), reader).operations
+    targets = [i for i, (operands, op) in enumerate(ops) if op == b"Tj" and re.fullmatch(r"[+\-\u2212]?\d+", str(operands[0]))]
+    assert len(targets) >= 15
+    missed = []
+    for i in targets:
+        writer = PdfWriter(clone_from=PdfReader(io.BytesIO(clean)))
+        page = writer.pages[0]
+        content = ContentStream(page.get_contents(), writer)
+        operands, op = content.operations[i]
+        content.operations[i] = ([TextStringObject(bump(str(operands[0])))], op)
+        page.replace_contents(content)
+        out = io.BytesIO()
+        writer.write(out)
+        result = verify_pages(compact, pdf_pages(out.getvalue(), tmp_path))
+        if not result.mismatches:
+            missed.append(str(operands[0]))
+    assert missed == []
+
+
+def test_another_sheet_version_is_caught_on_every_page(compact, tmp_path):
+    newer = copy.deepcopy(compact)
+    newer["title"] = "Delirium risk after hip-fracture surgery (revised)"
+    newer.pop("fingerprint")
+    pdf = render_pdf(newer, load_layout("ward-a4"), short_fingerprint(newer))
+    result = verify_pages(compact, pdf_pages(pdf, tmp_path))
+    pages = {m.page for m in result.mismatches if m.block == "fingerprint"}
+    assert pages == set(range(1, len(pdf_pages(pdf, tmp_path)) + 1))
+
+
+def test_verify_command_exit_codes(compact, tmp_path):
+    (tmp_path / "sheet.json").write_text(pretty_text(compact))
+    (tmp_path / "sheet.pdf").write_bytes(render_pdf(compact, load_layout("ward-a4"), short_fingerprint(compact)))
+    ok = CliRunner().invoke(main, ["verify", str(tmp_path / "sheet.pdf"), "--sheet", str(tmp_path / "sheet.json")])
+    assert ok.exit_code == 0, ok.output
+    doctored = copy.deepcopy(compact)
+    doctored["terms"][0]["rows"][1]["points"] += 1
+    (tmp_path / "bad.pdf").write_bytes(render_pdf(doctored, load_layout("ward-a4"), short_fingerprint(compact)))
+    bad = CliRunner().invoke(main, ["verify", str(tmp_path / "bad.pdf"), "--sheet", str(tmp_path / "sheet.json")])
+    assert bad.exit_code == 3
+    assert "page 1, table 'Age', row 2 (70–79) points: printed" in bad.output
+    # not a PDF, and a PDF that is not a sheet: exit 2 with one line
+    (tmp_path / "notes.pdf").write_text("hello")
+    for path in (tmp_path / "notes.pdf", tmp_path / "sheet.json"):
+        result = CliRunner().invoke(main, ["verify", str(path), "--sheet", str(tmp_path / "sheet.json")])
+        assert result.exit_code == 2 and len(result.output.strip().splitlines()) == 1
+    from reportlab.pdfgen import canvas  # a real PDF that is a letter, not a sheet
+
+    letter = io.BytesIO()
+    c = canvas.Canvas(letter, invariant=1)
+    c.drawString(72, 720, "Dear colleague, the ward meeting moved to Thursday.")
+    c.save()
+    (tmp_path / "letter.pdf").write_bytes(letter.getvalue())
+    result = CliRunner().invoke(main, ["verify", str(tmp_path / "letter.pdf"), "--sheet", str(tmp_path / "sheet.json")])
+    assert result.exit_code == 2 and "does not look like a printed points sheet" in result.output
+
+
+def test_verify_pdf_reads_a_file(compact, tmp_path):
+    path = tmp_path / "s.pdf"
+    path.write_bytes(render_pdf(compact, load_layout("pocket-card"), short_fingerprint(compact)))
+    assert verify_pdf(compact, path).passed
