@@ -10,11 +10,11 @@ using the sheet's own rule (round half up to the printed decimals) on the printe
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
 
 import numpy as np
 
-from scorecard.errors import UserError
 from scorecard.model import AdditiveModel
 from scorecard.model.document import Feature, Term
 from scorecard.model.predict import axis_bins, feature_values, level_bins, step_bins
@@ -23,6 +23,7 @@ from scorecard.quantize.segment import best_segmentations, rows_of_pieces, segme
 from scorecard.sheet.printed import NOT_MEASURED_TEXT, flag_text, range_text, round_half_up_array
 
 EPS_WEIGHT = 1e-6  # share of the mean weight given to every piece, so unpopulated pieces still get a value
+MAX_LINEAR_PIECES = 400
 
 
 @dataclass
@@ -99,6 +100,10 @@ class Curve:
 
     missing_allowed = True
 
+    def score_range(self) -> tuple[np.ndarray, np.ndarray]:
+        """Lowest and highest model score inside each piece (equal for step shapes, levels and cells)."""
+        return getattr(self, "score_low", self.scores), getattr(self, "score_high", self.scores)
+
     def certified(self) -> np.ndarray:
         """Pieces an input can reach on the sheet (a pair's not-measured cell only when the model allows it)."""
         mask = np.ones(len(self.scores), dtype=bool)
@@ -122,22 +127,43 @@ class ContinuousCurve(Curve):
     kind = "continuous"
 
     def __init__(self, model: AdditiveModel, term: Term, frame, max_candidates: int):
-        if term.shape != "step":
-            raise UserError(
-                f"term {term.name!r}: a linear shape cannot be quantised yet; convert it to a step shape "
-                "(e.g. scorecard edit) before quantizing"
-            )
         feature = model.feature(term.feature)
         self.name, self.term, self.feature = term.name, term, feature
-        self.axis = _axis_pieces(feature, term.edges, feature.decimals, max_candidates)
-        scores = np.asarray(term.scores, dtype=float)[self.axis["piece_bin"]]
-        self.n_main = len(scores)
         missing = _missing_score(feature, term)
         self.special = ["missing"] if missing is not None else []
-        self.scores = np.concatenate([scores, [missing] if missing is not None else []])
+        extra = [missing] if missing is not None else []
+        if term.shape == "linear":
+            self._linear_pieces(term, feature, max_candidates, extra)
+        else:
+            self.axis = _axis_pieces(feature, term.edges, feature.decimals, max_candidates)
+            scores = np.asarray(term.scores, dtype=float)[self.axis["piece_bin"]]
+            self.n_main = len(scores)
+            self.scores = np.concatenate([scores, extra])
+            self.score_low = self.score_high = self.scores
         x = feature_values(frame, feature)
         piece = _continuous_patient_pieces(self.axis, x)
         self.patient_piece = np.where(piece < 0, self.n_main, piece)
+
+    def _linear_pieces(self, term: Term, feature: Feature, max_candidates: int, extra: list) -> None:
+        """A linear shape varies inside every piece: split it at the knots and on a grid of at most
+        MAX_LINEAR_PIECES display-unit steps, score each piece at its middle and keep the lowest and highest
+        value the model takes inside it, so the certificate stays a true bound."""
+        knots = np.asarray(term.edges, dtype=float)
+        scores = np.asarray(term.scores, dtype=float)
+        d = feature.decimals
+        lo_u, hi_u = math.ceil(knots[0] * 10**d), math.floor(knots[-1] * 10**d)
+        step = max(1, math.ceil((hi_u - lo_u + 1) / MAX_LINEAR_PIECES))
+        grid = cut_boundary(np.arange(lo_u, hi_u + 1, step), d)
+        edges = np.unique(np.concatenate([knots, grid]))
+        self.axis = _axis_pieces(feature, list(edges), d, max_candidates)
+        b = self.axis["boundaries"]
+        left = np.clip(np.concatenate([[knots[0]], b]), knots[0], knots[-1])
+        right = np.clip(np.concatenate([b, [knots[-1]]]), knots[0], knots[-1])
+        at_left, at_right = np.interp(left, knots, scores), np.interp(right, knots, scores)
+        self.n_main = len(left)
+        self.scores = np.concatenate([np.interp((left + right) / 2, knots, scores), extra])
+        self.score_low = np.concatenate([np.minimum(at_left, at_right), extra])
+        self.score_high = np.concatenate([np.maximum(at_left, at_right), extra])
 
     def options(self, patient_weight: np.ndarray, max_rows: int, cap: float, nice: bool = True) -> list[Option]:
         w = self.piece_weights(patient_weight)

@@ -327,9 +327,13 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
             effect = float(np.ptp(curve.scores))
             dropped.append({"name": curve.name, "reason":
                             f"its whole effect ({effect:.2f} log-odds) rounds to 0 points at {scale:.3g} log-odds per point"})
-            piece_errors[curve.name] = -curve.scores[curve.certified()]
+            pts = np.zeros_like(pts)
+        low, high = curve.score_range()
+        sheet_value = scale * pts[lay.row_of_piece]
+        keep = curve.certified()
+        piece_errors[curve.name] = np.concatenate([(sheet_value - low)[keep], (sheet_value - high)[keep]])
+        if np.ptp(pts) == 0:
             continue
-        piece_errors[curve.name] = (scale * pts[lay.row_of_piece] - curve.scores)[curve.certified()]
         if isinstance(curve, LevelCurve):
             terms.append(curve.sheet_term(lay, pts.tolist(), merge_equal=merge_equal_levels))
         else:

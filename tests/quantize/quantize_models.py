@@ -25,11 +25,16 @@ def small_model_dict(with_pair: bool = True) -> dict:
     alb_t["missing_count"] = 800.0
     features = [age_f, na_f, alb_f,
                 {"name": "prior_delirium", "label": "Prior delirium", "kind": "flag", "missing": "error"},
-                {"name": "residence", "label": "Lives in", "kind": "categorical", "levels": ["home", "family", "care_home"], "missing": "error"}]
+                {"name": "residence", "label": "Lives in", "kind": "categorical", "levels": ["home", "family", "care_home"], "missing": "error"},
+                {"name": "haemoglobin", "label": "Haemoglobin", "kind": "continuous", "unit": "g/L", "decimals": 0,
+                 "training_range": {"min": 70, "max": 170}, "missing": "average"}]
     terms = [age_t, na_t, alb_t,
              {"kind": "flag", "name": "prior_delirium", "feature": "prior_delirium", "scores": [-0.2, 0.8], "counts": [800, 200]},
              {"kind": "categorical", "name": "residence", "feature": "residence", "levels": ["home", "family", "care_home"],
-              "scores": [-0.1, 0.0, 0.45], "counts": [600, 250, 150], "unseen": "error"}]
+              "scores": [-0.1, 0.0, 0.45], "counts": [600, 250, 150], "unseen": "error"},
+             # a linear shape (knots and values), as the coefficient-table importer writes
+             {"kind": "continuous", "name": "haemoglobin", "feature": "haemoglobin", "shape": "linear",
+              "edges": [80.0, 115.0, 160.0], "scores": [0.7, 0.0, -0.15]}]
     if with_pair:
         terms.append({"kind": "pair", "name": "age:prior_delirium", "features": ["age", "prior_delirium"],
                       "axes": [{"edges": [69.5, 79.5, 89.5]}, {"levels": ["no", "yes"]}],

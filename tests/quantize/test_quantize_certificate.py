@@ -61,6 +61,7 @@ def _random_patients(rng, n):
         "age": edgy(60, 100, n), "sodium": edgy(120, 160, n), "albumin": albumin,
         "prior_delirium": rng.integers(0, 2, n).astype(float),
         "residence": rng.choice(["home", "family", "care_home"], n),
+        "haemoglobin": np.where(rng.random(n) < 0.1, np.nan, edgy(70, 170, n)),
     })
 
 

@@ -56,7 +56,8 @@ def test_data_option_uses_the_cohort(model_file, tmp_path):
     n = 1500
     cohort = pd.DataFrame({"age": rng.integers(60, 100, n), "sodium": rng.integers(125, 155, n),
                            "albumin": np.where(rng.random(n) < 0.3, np.nan, rng.integers(22, 48, n)),
-                           "prior_delirium": rng.integers(0, 2, n), "residence": rng.choice(["home", "family", "care_home"], n)})
+                           "prior_delirium": rng.integers(0, 2, n), "residence": rng.choice(["home", "family", "care_home"], n),
+                           "haemoglobin": rng.integers(75, 165, n)})
     csv = tmp_path / "cohort.csv"
     cohort.to_csv(csv, index=False)
     out = tmp_path / "s.sheet.json"
