@@ -57,7 +57,7 @@ class ConversionTable(Flowable):
     def _column_widths(self) -> list[float]:
         s = self.styles.body_pt
         total_w = max(text_width("Total", s, bold=True), max(text_width(total_text(r["total"]), s, bold=True) for r in self.rows)) + 2 * PAD + 2
-        risk_w = max(text_width("Risk", s, bold=True), max(text_width(r["text"], s) for r in self.rows)) + 2 * PAD + 2
+        risk_w = max(text_width("Risk", s, bold=True), max(text_width(r["text"], s) for r in self.rows)) + 2 * PAD + 4
         widths = [total_w, risk_w]
         if self.band_names:
             widths.append(max(text_width("Band", s, bold=True), max(text_width(n, s) for n in self.band_names)) + PAD + BAND_GAP + 2)
@@ -88,8 +88,9 @@ class ConversionTable(Flowable):
             ("BOX", (0, 0), (-1, -1), 0.8, colors.black),
         ]
         k = len(widths)
-        if self.band_names:  # room between the risk figure and the band name, so they do not read as one
-            for g in range(groups):
+        for g in range(groups):  # the risk figure keeps clear of the rule or band name after it
+            commands.append(("RIGHTPADDING", (g * k + 1, 0), (g * k + 1, -1), PAD + 2))
+            if self.band_names:
                 commands.append(("LEFTPADDING", (g * k + 2, 0), (g * k + 2, -1), BAND_GAP))
         for r in range(per):
             line = []
@@ -139,11 +140,8 @@ class ConversionTable(Flowable):
 
 
 def conversion_table_block(sheet: dict, styles: Styles, compact: bool = False) -> list[Flowable]:
-    if compact:  # the outcome and horizon are in the page header just above
-        title = Paragraph("Total points \u2192 risk", styles.section)
-    else:
-        title = Paragraph("Total points \u2192 risk of " + markup(sheet["outcome"]["event"].rstrip(".").lower())
-                          + " " + markup(sheet["outcome"]["horizon"]), styles.section)
+    # the outcome, horizon and population are in the header of this very page
+    title = Paragraph("Total points \u2192 risk", styles.section)
     table = ConversionTable(sheet, styles)
     table.tracked_as = "the conversion table"
     return [KeepTogether([title, Spacer(1, 3), table]), Spacer(1, styles.body_pt * (0.5 if compact else 1))]

@@ -93,8 +93,8 @@ class _Furniture:
         model = sheet["model"]
         self.title = Paragraph(markup(sheet["title"]), styles.title)
         self.outcome = Paragraph(
-            f"<b>Outcome:</b> {markup(outcome['event'])}, {markup(outcome['horizon'])}. "
-            f"<b>For:</b> {markup(outcome['population'])}.", styles.small)
+            f"<b>Outcome:</b> {markup(outcome['event'])} \u00b7 <b>Horizon:</b> {markup(outcome['horizon'])} \u00b7 "
+            f"<b>For:</b> {markup(outcome['population'])}", styles.small)
         self.ident = f"Fingerprint {short_fingerprint} \u00b7 model {model['name']} version {model['version']}"
         self.printed_label = "Printed on:"
         self.cautions = Paragraph(markup(cautions_line(sheet, short_fingerprint)), styles.small)
