@@ -5,6 +5,7 @@ from __future__ import annotations
 
 import copy
 import io
+import itertools
 import re
 
 import pytest
@@ -49,30 +50,51 @@ def test_untouched_pdf_matches_in_every_shipped_layout(layout, tmp_path):
     assert result.cells_checked >= 2 * rows + 2 * len(sheet["conversion"])
 
 
-def numeric_cells(sheet: dict):
-    """Every printed cell of the sheet document that holds a number: (description, function altering it)."""
-    cells = []
+def _add(sheet: dict, path: tuple, delta: int) -> None:
+    node = sheet
+    for key in path[:-1]:
+        node = node[key]
+    node[path[-1]] += delta
+
+
+def _bump_text(sheet: dict, path: tuple) -> None:
+    node = sheet
+    for key in path[:-1]:
+        node = node[key]
+    node[path[-1]] = bump(node[path[-1]])
+
+
+def numeric_cells(sheet: dict) -> dict[str, list[tuple[str, str, object]]]:
+    """Every printed cell of the sheet document that holds a number, grouped by the table printing it:
+    {group: [(block, where the mismatch must be reported, function altering the cell)]}."""
+    groups: dict[str, list] = {}
     for ti, term in enumerate(sheet["terms"]):
+        cells = groups.setdefault(term["name"], [])
         if term["kind"] == "pair":
+            block = f"grid {term['label']!r}"
             for i, row in enumerate(term["points"]):
                 for j in range(len(row)):
-                    cells.append((f"{term['name']} grid [{i}][{j}]", lambda s, ti=ti, i=i, j=j: s["terms"][ti]["points"][i].__setitem__(j, s["terms"][ti]["points"][i][j] + 1)))
-            cells.append((f"{term['name']} not measured", lambda s, ti=ti: s["terms"][ti].__setitem__("missing_points", s["terms"][ti]["missing_points"] + 1)))
+                    cells.append((block, f"row {i + 1} (.*) x column {j + 1} ", lambda s, p=("terms", ti, "points", i, j): _add(s, p, 1)))
+            cells.append((block, "not measured points", lambda s, p=("terms", ti, "missing_points"): _add(s, p, 1)))
             for a, axis in enumerate(term["axes"]):
                 for r, row in enumerate(axis["rows"]):
                     if re.search(r"\d", row["text"]):
-                        cells.append((f"{term['name']} axis {a} row {r} text", lambda s, ti=ti, a=a, r=r: s["terms"][ti]["axes"][a]["rows"][r].__setitem__("text", bump(s["terms"][ti]["axes"][a]["rows"][r]["text"]))))
+                        where = f"row {r + 1} text" if a == 0 else f"column {r + 1}"
+                        cells.append((block, where, lambda s, p=("terms", ti, "axes", a, "rows", r, "text"): _bump_text(s, p)))
             continue
+        block = f"table {term['label']!r}"
         for r, row in enumerate(term["rows"]):
-            cells.append((f"{term['name']} row {r} points", lambda s, ti=ti, r=r: s["terms"][ti]["rows"][r].__setitem__("points", s["terms"][ti]["rows"][r]["points"] + 1)))
+            cells.append((block, f"row {r + 1} (.*) points", lambda s, p=("terms", ti, "rows", r, "points"): _add(s, p, 1)))
             if re.search(r"\d", row["text"]):
-                cells.append((f"{term['name']} row {r} text", lambda s, ti=ti, r=r: s["terms"][ti]["rows"][r].__setitem__("text", bump(s["terms"][ti]["rows"][r]["text"]))))
-    for k in range(len(sheet["conversion"])):
-        cells.append((f"conversion {k} risk text", lambda s, k=k: s["conversion"][k].__setitem__("text", bump(s["conversion"][k]["text"]))))
-        # one unit down for the first total, up for the others, so the printed chart keeps its ends in order
+                cells.append((block, f"row {r + 1} text", lambda s, p=("terms", ti, "rows", r, "text"): _bump_text(s, p)))
+    for k, entry in enumerate(sheet["conversion"]):
+        # one unit down for the first total, up for the others, so the printed table keeps its ends in order
         step = -1 if k == 0 else 1
-        cells.append((f"conversion {k} total", lambda s, k=k, step=step: s["conversion"][k].__setitem__("total", s["conversion"][k]["total"] + step)))
-    return cells
+        groups.setdefault("conversion totals", []).append(
+            ("conversion table", f"entry {k + 1} total", lambda s, p=("conversion", k, "total"), d=step: _add(s, p, d)))
+        groups.setdefault("conversion risks", []).append(
+            ("conversion table", f"total {entry['total']} risk", lambda s, p=("conversion", k, "text"): _bump_text(s, p)))
+    return groups
 
 
 TABLES_ONLY = """
@@ -108,15 +130,20 @@ def test_every_changed_number_is_caught(compact, tmp_path):
     clean = verify_pages(compact, pdf_pages(render_pdf(compact, layout, short_fingerprint(compact)), tmp_path))
     assert clean.mismatches == []  # no false alarm in this layout either
     short = short_fingerprint(compact)
-    cells = numeric_cells(compact)
-    assert len(cells) > 40
+    groups = numeric_cells(compact)
+    assert sum(len(c) for c in groups.values()) > 40
+    # one doctored print per round, each round changing one cell in every table (so each change is reported
+    # in its own table and row); every changed cell must appear among the mismatches
     missed = []
-    for name, alter in cells:
+    for round_cells in itertools.zip_longest(*groups.values()):
         doctored = copy.deepcopy(compact)
-        alter(doctored)
-        result = verify_pages(compact, pdf_pages(render_pdf(doctored, layout, short), tmp_path))
-        if not result.mismatches:
-            missed.append(name)
+        cells = [c for c in round_cells if c is not None]
+        for _, _, alter in cells:
+            alter(doctored)
+        result = verify_pages(compact, pdf_pages(render_pdf(doctored, layout, short_fingerprint(compact)), tmp_path))
+        for block, where, _ in cells:
+            if not any(m.block == block and re.match(where, m.row) for m in result.mismatches):
+                missed.append((block, where))
     assert missed == []  # 100 % detection
 
 
