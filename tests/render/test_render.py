@@ -337,3 +337,25 @@ def test_the_audit_reader_finds_every_printed_cell_as_the_sheet_says(sheet, tmp_
     result = runner.invoke(main, ["verify", str(pdf_path), "--sheet", str(sheet_path)])
     assert result.exit_code == 0, result.output
     assert "all match" in result.output
+
+
+def test_layouts_are_found_as_installed_package_data(tmp_path):
+    # an installed wheel maps the repo's layouts/ to the package scorecard.layouts (pyproject package-dir);
+    # rebuild that shape away from the checkout and check the loader finds the layouts through importlib.resources
+    import shutil
+    import subprocess
+    import sys
+
+    root = Path(__file__).resolve().parents[2]
+    site = tmp_path / "site"
+    shutil.copytree(root / "scorecard", site / "scorecard", ignore=shutil.ignore_patterns("__pycache__"))
+    shutil.copytree(root / "layouts", site / "scorecard" / "layouts", ignore=shutil.ignore_patterns("__pycache__"))
+    code = ("import scorecard.render.layout as m, pathlib; f = m._shipped_folder(); "
+            "print(pathlib.Path(str(f)).resolve()); print(','.join(m.shipped_layouts())); print(m.load_layout('pocket-card').name)")
+    done = subprocess.run([sys.executable, "-c", code], cwd=tmp_path, env={"PYTHONPATH": str(site), "PATH": ""},
+                          capture_output=True, text=True)
+    assert done.returncode == 0, done.stderr
+    folder, names, card = done.stdout.split("\n")[:3]
+    assert Path(folder) == (site / "scorecard" / "layouts").resolve()
+    assert {"ward-a4", "ward-letter", "pocket-card", "large-print-a4"} <= set(names.split(","))
+    assert card == "pocket-card"
