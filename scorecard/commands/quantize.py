@@ -63,7 +63,7 @@ def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_shar
     data = read_csv(data_path) if data_path else None
     doc = quantize_model(model, data=data, bound=bound, bands=band_list, allow_negative=allow_negative,
                          merge_equal_levels=merge_equal_levels, bootstrap=bootstrap, title=title, progress=say)
-    fp = save_sheet(doc, out, protect=(model_path, data_path) if data_path else (model_path,))
+    save_sheet(doc, out, protect=(model_path, data_path) if data_path else (model_path,))
     a = doc["achieved"]
     say(f"sheet: {doc['report']['printed_rows']} rows, totals {doc['total']['min']}-{doc['total']['max']}, "
         f"{doc['scale']['logodds_per_point']:.3g} log-odds per point")
@@ -71,7 +71,8 @@ def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_shar
         f"p99 |Δrisk| {a['p99_abs_risk_error'] * 100:.1f} pp, mean {a['mean_abs_risk_error'] * 100:.1f} pp")
     say(f"certificate: no patient further than {doc['certificate']['max_logodds_error']:.2f} log-odds "
         f"({doc['certificate']['max_risk_error'] * 100:.1f} pp) from the model")
+    extra = doc["report"]["readability"]["extra_error_share"]
+    say(f"readable cut-points cost {extra:+.0%} error before rounding (vs cuts anywhere between model bins)")
     for d in doc["dropped_terms"]:
         say(f"dropped {d['name']}: {d['reason']}")
     say(f"wrote {out} (fingerprint {short_fingerprint(doc)})")
-    del fp

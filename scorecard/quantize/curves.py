@@ -144,6 +144,12 @@ class ContinuousCurve(Curve):
         piece = _continuous_patient_pieces(self.axis, x)
         self.patient_piece = np.where(piece < 0, self.n_main, piece)
 
+    def model_score(self, value: float) -> float:
+        """The model's score at a measured value (what the exact model adds for it)."""
+        if self.term.shape == "linear":
+            return float(np.interp(value, self.term.edges, self.term.scores))
+        return float(self.term.scores[int(np.searchsorted(self.term.edges, value, side="right"))])
+
     def _linear_pieces(self, term: Term, feature: Feature, max_candidates: int, extra: list) -> None:
         """A linear shape varies inside every piece: split it at the knots and on a grid of at most
         MAX_LINEAR_PIECES display-unit steps, score each piece at its middle and keep the lowest and highest

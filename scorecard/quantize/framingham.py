@@ -65,10 +65,6 @@ def _axis_categories(ax: dict, feature, categories: int):
     return cut_pieces, mids
 
 
-def _score_at(ax: dict, scores_by_bin: np.ndarray, value: float) -> float:
-    return float(scores_by_bin[np.searchsorted(ax["edges"], value, side="right")])
-
-
 def reference_values(curves: list[Curve], categories: int) -> tuple[list[Layout], list[np.ndarray]]:
     """Steps 1-2: the categories of every factor (as layouts over its pieces) and f at each reference value."""
     layouts, refvals = [], []
@@ -76,7 +72,7 @@ def reference_values(curves: list[Curve], categories: int) -> tuple[list[Layout]
         if isinstance(c, ContinuousCurve):
             cut_pieces, mids = _axis_categories(c.axis, c.feature, categories)
             row = rows_of_pieces(c.n_main, cut_pieces)
-            values = [_score_at(c.axis, np.asarray(c.term.scores, float), m) for m in mids]
+            values = [c.model_score(m) for m in mids]
             extra = list(c.scores[c.n_main:])
             k = len(values)
             layouts.append(Layout(np.concatenate([row, np.arange(len(extra)) + k]), k + len(extra), k + len(extra), {"cuts": cut_pieces}))

@@ -275,7 +275,7 @@ def _tradeoff(problem: Problem, cand: Candidate) -> list[dict]:
     values, _ = refit_row_values(q, v0)
     span = _span(values, term_of_row) or 1.0
     out = []
-    for target in sorted({10, 15, 20, 30, 40, 60, 100, problem.bound.max_total_points, cand.total_range}):
+    for target in sorted({10, 15, 20, 30, 40, 60, 100, problem.bound.max_total_points, max(1, cand.total_range)}):
         found = _points_for_total(q, values, term_of_row, span, target, problem.allow_negative)
         if found is None:
             continue
