@@ -256,11 +256,14 @@ def _readability(problem: Problem, cand: Candidate) -> dict:
     for curve, opts, i in zip(problem.curves, problem.options, cand.choice):
         if isinstance(curve, LevelCurve):
             continue
-        nice = opts[i]
-        free = {o.size: o.cost for o in curve.options(problem.weight, problem.bound.max_rows, problem.bound.max_row_error, nice=False)}
-        f = free.get(nice.size, nice.cost)
-        per_term[curve.name] = {"rows": nice.size, "error_nice_cuts": nice.cost, "error_any_cuts": f}
-        nice_total += nice.cost
+        size = opts[i].size
+        # compared without the cap, which would otherwise differ between the two sets of cuts
+        rows = {o.size: o.cost for o in curve.options(problem.weight, problem.bound.max_rows, math.inf, nice=True)}
+        free = {o.size: o.cost for o in curve.options(problem.weight, problem.bound.max_rows, math.inf, nice=False)}
+        n_cost = rows.get(size, opts[i].cost)
+        f = free.get(size, n_cost)
+        per_term[curve.name] = {"rows": size, "error_nice_cuts": n_cost, "error_any_cuts": f}
+        nice_total += n_cost
         free_total += f
     extra = (nice_total / free_total - 1) if free_total > 0 else 0.0
     return {"extra_error_share": extra, "per_term": per_term,
@@ -401,8 +404,12 @@ def quantize_model(model: AdditiveModel, data: pd.DataFrame | None = None, bound
     `bound` on `data` (or on a synthetic population from the model's bin counts). Raises CheckFailed with
     the best achievable figures when no sheet within the limits meets the bound."""
     bound = bound or Bound()
+    say = progress or (lambda _m: None)
+    say("evaluation population: " + ("the cohort given" if data is not None else "synthetic, from the model's bin counts"))
     problem = prepare(model, data, bound, allow_negative, population)
     cand = search(problem, progress)
+    if bootstrap:
+        say(f"measuring the chosen sheet ({bootstrap} bootstrap resamples for the ΔAUC interval)")
     settings = {"max_row_error": bound.max_row_error, "allow_negative": allow_negative,
                 "merge_equal_levels": merge_equal_levels, "bootstrap": bootstrap}
     return build_sheet(problem, cand, bands or [], merge_equal_levels, bootstrap, title, settings)
