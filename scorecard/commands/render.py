@@ -22,7 +22,7 @@ def _layout_help() -> str:
 @click.option("--layout", "layout_name", metavar="NAME|FILE", default=DEFAULT_LAYOUT, show_default=False, help=_layout_help())
 @click.option("-o", "--output", "output", required=True, type=click.Path(dir_okay=False), help="PDF file to write.")
 @click.option("--preview", "preview_dir", metavar="DIR", type=click.Path(file_okay=False),
-              help="Also write a PNG picture of every page into DIR (page-01.png, ...), to check by eye.")
+              help="Also write a PNG picture of every page into DIR (NAME-01.png, NAME-02.png, ... after the PDF's name), to check by eye.")
 def command(sheet_path: str, layout_name: str, output: str, preview_dir: str | None) -> None:
     """Print SHEET.json as PDF pages: point tables, total box, conversion chart, nomogram.
 
