@@ -11,7 +11,7 @@ import numpy as np
 import pandas as pd
 
 from scorecard.audit import figures
-from scorecard.audit.paper import ScoredCohort, score_cohort, sheet_logodds
+from scorecard.audit.paper import ScoredCohort, parse_cohort, score_cohort, sheet_logodds
 from scorecard.errors import UserError
 from scorecard.model import AdditiveModel, contributions, logistic
 from scorecard.tabular import flag_column, source_of
@@ -35,6 +35,20 @@ def _rows_per_block(term: dict) -> list[int]:
 
 def _bound(name: str, what: str, value, limit, passed: bool, shown: str) -> dict:
     return {"name": name, "what": what, "value": value, "bound": limit, "pass": bool(passed), "shown": shown}
+
+
+def _parsed_frame(frame: pd.DataFrame, values: dict[str, np.ndarray], model: AdditiveModel) -> pd.DataFrame:
+    """The cohort with the columns the sheet already parsed handed over as typed values (floats with NaN,
+    levels with None), which the model reads exactly as it reads their text; other columns stay as text."""
+    columns = {}
+    for name in model.used_features:
+        if name in values:
+            columns[name] = pd.Series(values[name], index=frame.index, dtype=object if values[name].dtype == object else float)
+        elif name in frame.columns:
+            columns[name] = frame[name]
+    typed = pd.DataFrame(columns, index=frame.index)
+    typed.attrs["source"] = source_of(frame)
+    return typed
 
 
 def outcome_values(frame: pd.DataFrame, column: str | None) -> np.ndarray | None:
@@ -128,10 +142,11 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
     """Every figure of the agreement report as a plain dict (also the --json output)."""
     say = progress or (lambda message: None)
     say(f"scoring {len(frame)} patients with the sheet")
-    scored = score_cohort(sheet, frame)
+    values = parse_cohort(sheet, frame)
+    scored = score_cohort(sheet, frame, values)
     y = outcome_values(frame, outcome)
     say("computing the exact model")
-    parts, model_report = contributions(model, frame)
+    parts, model_report = contributions(model, _parsed_frame(frame, values, model))
     model_lo = model.intercept + parts.to_numpy().sum(axis=1)
     model_risk = logistic(model_lo)
     sheet_lo = sheet_logodds(sheet, scored.total)

@@ -303,10 +303,11 @@ def units_warnings(sheet: dict, values: dict[str, np.ndarray], share: float = 0.
     return warnings, outside_any
 
 
-def score_cohort(sheet: dict, frame: pd.DataFrame) -> ScoredCohort:
-    """Apply the printed sheet to every patient in `frame` (one row per patient)."""
+def score_cohort(sheet: dict, frame: pd.DataFrame, values: dict[str, np.ndarray] | None = None) -> ScoredCohort:
+    """Apply the printed sheet to every patient in `frame` (one row per patient); `values` are the columns
+    already parsed by `parse_cohort`, when the caller has them."""
     source = source_of(frame)
-    values = parse_cohort(sheet, frame)
+    values = parse_cohort(sheet, frame) if values is None else values
     scored = ScoredCohort(terms=[], total=np.zeros(len(frame), dtype=np.int64), risk=np.empty(0), risk_text=np.empty(0), band=None)
     scored.warnings, scored.outside_training = units_warnings(sheet, values)
     total = np.zeros(len(frame), dtype=np.int64)
