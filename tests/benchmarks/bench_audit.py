@@ -13,6 +13,8 @@ from __future__ import annotations
 import argparse
 import copy
 import itertools
+import os
+import resource
 import subprocess
 import sys
 import tempfile
@@ -36,10 +38,14 @@ from tests.audit.test_audit_verify import TABLES_ONLY, numeric_cells  # noqa: E4
 
 
 def timed(label: str, args: list[str]) -> float:
+    """Wall time of one CLI run; its CPU time too, which a machine shared with other work inflates less."""
+    before = resource.getrusage(resource.RUSAGE_CHILDREN)
     start = time.perf_counter()
     done = subprocess.run([sys.executable, "-m", "scorecard", *args], cwd=ROOT, capture_output=True, text=True)
     seconds = time.perf_counter() - start
-    print(f"  {label}: {seconds:.2f} s (exit {done.returncode})")
+    after = resource.getrusage(resource.RUSAGE_CHILDREN)
+    cpu = (after.ru_utime - before.ru_utime) + (after.ru_stime - before.ru_stime)
+    print(f"  {label}: {seconds:.2f} s wall, {cpu:.2f} s CPU (exit {done.returncode}; load average {os.getloadavg()[0]:.1f})")
     if done.returncode not in (0, 3):
         print(done.stderr)
     return seconds
