@@ -227,7 +227,7 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
     say("writing the report")
     from scorecard.sheet import short_fingerprint
 
-    return {
+    return _without_nan({
         "document": REPORT_TAG,
         "format_version": 1,
         "passed": all(c["pass"] for c in checks),
@@ -247,4 +247,16 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
         "largest": _largest(sheet, model, frame, scored, parts, model_risk, diff, TOP_PATIENTS),
         "warnings": list(scored.warnings),
         "notes": list(scored.notes) + [f"model: {line}" for line in model_report.lines()],
-    }
+    })
+
+
+def _without_nan(value):
+    """A figure that cannot be computed on this cohort (an AUC with no events, a slope with one total) is
+    null in the report, shown as '–'."""
+    if isinstance(value, dict):
+        return {k: _without_nan(v) for k, v in value.items()}
+    if isinstance(value, (list, tuple)):
+        return [_without_nan(v) for v in value]
+    if isinstance(value, float) and not np.isfinite(value):
+        return None
+    return value

@@ -187,7 +187,7 @@ def _figures_table(report: dict) -> Table:
     for label, key, fmt in lines:
         value = a.get(key)
         shown = fmt(value)
-        if key == "auc_loss":
+        if key == "auc_loss" and None not in (a.get("auc_loss_ci") or [None]):
             lo, hi = a["auc_loss_ci"]
             shown += f"  (95% CI {lo:.4f} to {hi:.4f})"
         stored_value = stored.get(key)

@@ -85,8 +85,10 @@ def command(sheet_path, model_path, cohort_path, output, json_path, outcome, rep
     if json_out is not None:
         atomic_write_text(json_out, pretty_text({**report, "cautions": sheet.get("cautions") or CAUTIONS}), protect=inputs)
     a = report["agreement"]
-    say(f"AUC loss {a['auc_loss']:.4f} (95% CI {a['auc_loss_ci'][0]:.4f} to {a['auc_loss_ci'][1]:.4f}), "
-        f"max |risk difference| {a['max_abs_risk_error'] * 100:.2f} points; report written to {out}")
+    loss = "not computable" if a["auc_loss"] is None else f"{a['auc_loss']:.4f}"
+    if a["auc_loss"] is not None and None not in a["auc_loss_ci"]:
+        loss += f" (95% CI {a['auc_loss_ci'][0]:.4f} to {a['auc_loss_ci'][1]:.4f})"
+    say(f"AUC loss {loss}, max |risk difference| {a['max_abs_risk_error'] * 100:.2f} points; report written to {out}")
     failed = [b for b in report["bounds"] if not b["pass"]]
     if failed:
         raise CheckFailed("; ".join(f"{b['name']}: {b['shown']}" for b in failed))

@@ -208,3 +208,17 @@ def test_check_bad_inputs(files):
     result = run("check", files / "sheet.json", "--model", files / "model.json", "--data", files / "cohort.csv",
                  "-o", files / "r.pdf", "--outcome", "death")
     assert result.exit_code == 2 and "'death'" in result.output
+
+
+def test_a_cohort_too_small_for_some_figures_still_gets_a_report(files):
+    # one patient, and a cohort without a single event: the AUC against observed outcomes cannot be computed
+    table = pd.read_csv(files / "cohort.csv")
+    table.head(1).to_csv(files / "one.csv", index=False)
+    table.head(60).assign(delirium=0).to_csv(files / "none.csv", index=False)
+    for name in ("one", "none"):
+        result = run("check", files / "sheet.json", "--model", files / "model.json", "--data", files / f"{name}.csv",
+                     "-o", files / f"{name}.pdf", "--json", files / f"{name}.json", "--bootstrap", 20)
+        assert result.exit_code in (0, 3), result.output
+        report = json.loads((files / f"{name}.json").read_text())
+        assert report["cohort"]["n"] == (1 if name == "one" else 60)
+    assert json.loads((files / "none.json").read_text())["against_outcomes"]["model"]["auc"] is None
