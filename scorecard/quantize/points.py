@@ -35,18 +35,21 @@ class Quadratic:
         """From (patients x terms) global row ids, term t owning rows starts[t]..starts[t+1]-1.
 
         X (patients x rows, 0/1) is never formed: each block of X'WX is the weighted 2-D histogram of two
-        terms' rows, one bincount over the patients per pair of terms."""
+        terms' rows, computed by weighted bincounts over the patients."""
         n_terms = row_ids.shape[1]
         n_rows = int(starts[-1])
         sizes = np.diff(starts)
-        local = np.ascontiguousarray((row_ids - starts[:-1][None, :]).T)  # terms x patients, rows contiguous
-        gram = np.zeros((n_rows, n_rows))
+        ids = np.ascontiguousarray(row_ids.T)  # terms x patients
+        upper = np.zeros((n_rows, n_rows))
         for s in range(n_terms):
-            for t in range(s, n_terms):
-                block = np.bincount(local[s] * sizes[t] + local[t], weights=w, minlength=sizes[s] * sizes[t])
-                block = block.reshape(sizes[s], sizes[t])
-                gram[starts[s]:starts[s + 1], starts[t]:starts[t + 1]] = block
-                gram[starts[t]:starts[t + 1], starts[s]:starts[s + 1]] = block.T
+            # rows of term s against the rows of every later term, one weighted bincount for all of them
+            local = ids[s] - starts[s]
+            keys = local[None, :] * n_rows + ids[s:]
+            weights = np.broadcast_to(w, keys.shape)
+            block = np.bincount(keys.ravel(), weights=weights.ravel(), minlength=sizes[s] * n_rows)
+            upper[starts[s]:starts[s + 1], :] = block.reshape(sizes[s], n_rows)
+        gram = upper + upper.T
+        gram[np.diag_indices(n_rows)] /= 2  # a term's own block is diagonal and was counted twice
         flat = row_ids.ravel()
         ww = np.repeat(w, n_terms)
         return cls(
@@ -65,6 +68,7 @@ def round_points(q: Quadratic, values: np.ndarray, term_of_row: np.ndarray, scal
     """Integer points and offset for one scale, or None when independent rounding already breaks the
     total-points limit (a coarser scale is needed)."""
     n_terms = int(term_of_row.max()) + 1
+    first_rows = np.concatenate([[0], np.flatnonzero(np.diff(term_of_row)) + 1])  # rows of a term are contiguous
     p = np.zeros(len(values))
     for t in range(n_terms):
         sel = term_of_row == t
@@ -73,10 +77,8 @@ def round_points(q: Quadratic, values: np.ndarray, term_of_row: np.ndarray, scal
     gp = q.gram @ p
     diag = np.diag(q.gram)
     for _ in range(max_moves):
-        tmax = np.full(n_terms, -np.inf)
-        tmin = np.full(n_terms, np.inf)
-        np.maximum.at(tmax, term_of_row, p)
-        np.minimum.at(tmin, term_of_row, p)
+        tmax = np.maximum.reduceat(p, first_rows)
+        tmin = np.minimum.reduceat(p, first_rows)
         total = float((tmax - tmin).sum())
         a = best_offset(q, scale, p)
         grad = 2 * scale * scale * gp + 2 * a * scale * q.xw - 2 * scale * q.xwy

@@ -94,6 +94,7 @@ class Problem:
     bound: Bound
     allow_negative: bool
     tried: list[dict] = field(default_factory=list)
+    design: "Design | None" = None  # the chosen allocation, set by `search`
 
 
 def _design(problem: Problem, layouts: list[Layout]):
@@ -116,7 +117,7 @@ def _points_for_total(q: Quadratic, values, term_of_row, span: float, target: in
     """Best (scale, (points, offset)) whose total-points range is at most `target`: a few scales at and
     below span / target, each rounded and improved, keeping the smallest weighted error."""
     best = None
-    for shrink in (1.0, 0.95, 0.9, 0.8, 0.7, 0.5):
+    for shrink in (1.0, 0.93, 0.85, 0.7, 0.5):
         scale = span / (target * shrink)
         got = round_points(q, values, term_of_row, scale, target, allow_negative)
         if got is None:
@@ -139,54 +140,71 @@ def _span(values, term_of_row) -> float:
     return float(sum(np.ptp(values[term_of_row == t]) for t in range(n_terms)))
 
 
-def _evaluate(problem: Problem, budget: int) -> Candidate | None:
-    """The best sheet with at most `budget` rows: allocation, refit, then the smallest total that passes
-    (or, if none passes, the candidate at the largest total allowed)."""
+@dataclass
+class Design:
+    """One allocation of rows, its refitted row values and the Gram form of its error."""
+
+    budget: int
+    choice: list[int]
+    layouts: list[Layout]
+    ids: np.ndarray
+    starts: np.ndarray
+    term_of_row: np.ndarray
+    q: Quadratic
+    values: np.ndarray
+    span: float
+
+
+def _allocate(problem: Problem, budget: int) -> Design | None:
     choice = allocate_rows(problem.options, budget)
     if choice is None:
         return None
     layouts = [problem.options[t][i].layout for t, i in enumerate(choice)]
     ids, v0, term_of_row, starts = _design(problem, layouts)
-    y = problem.population.logodds
-    q = Quadratic.from_rows(ids, starts, y, problem.weight)
+    q = Quadratic.from_rows(ids, starts, problem.population.logodds, problem.weight)
     values, _ = refit_row_values(q, v0)
     span = _span(values, term_of_row)
-    if span <= 0:
-        span = 1.0
+    return Design(budget, choice, layouts, ids, starts, term_of_row, q, values, span if span > 0 else 1.0)
+
+
+def _attempt(problem: Problem, design: Design, target: int) -> Candidate | None:
+    """Points for one allocation with total-points range at most `target`, and whether they pass."""
+    found = _points_for_total(design.q, design.values, design.term_of_row, design.span, target, problem.allow_negative)
+    if found is None:
+        return None
     bound = problem.bound
+    scale, (pts, offset) = found
+    sheet = offset + scale * pts[design.ids].sum(axis=1)
+    figs = quick_figures(problem.population.logodds, sheet, bound.max_risk_error, problem.auc_model)
+    passed = figs["auc_loss"] <= bound.max_auc_loss and figs["share_over_risk_error"] <= bound.risk_error_share
+    s = design.starts
+    per_term = [pts[s[t]:s[t + 1]] for t in range(len(design.layouts))]
+    total_range = int(sum(np.ptp(p) for p in per_term))
+    problem.tried.append({"row_budget": design.budget, "total_points_target": target, "scale": scale,
+                          "auc_loss": figs["auc_loss"], "share_over_risk_error": figs["share_over_risk_error"],
+                          "passed": passed})
+    return Candidate(design.budget, design.choice, design.layouts, per_term, scale, offset, sheet, figs, total_range, passed)
 
-    def attempt(target: int) -> Candidate | None:
-        found = _points_for_total(q, values, term_of_row, span, target, problem.allow_negative)
-        if found is None:
-            return None
-        scale, (pts, offset) = found
-        sheet = offset + scale * pts[ids].sum(axis=1)
-        figs = quick_figures(y, sheet, bound.max_risk_error, problem.auc_model)
-        passed = figs["auc_loss"] <= bound.max_auc_loss and figs["share_over_risk_error"] <= bound.risk_error_share
-        per_term = [pts[starts[t]:starts[t + 1]] for t in range(len(layouts))]
-        total_range = int(sum(np.ptp(p) for p in per_term))
-        cand = Candidate(budget, choice, layouts, per_term, scale, offset, sheet, figs, total_range, passed)
-        problem.tried.append({"row_budget": budget, "total_points_target": target, "scale": scale,
-                              "auc_loss": figs["auc_loss"], "share_over_risk_error": figs["share_over_risk_error"],
-                              "passed": passed})
-        return cand
 
-    top = attempt(bound.max_total_points)
-    if top is None or not top.passed:
-        return top
-    lo, hi, best = 1, bound.max_total_points, top
-    while lo < hi:  # smallest total-points target that still passes
+def _evaluate(problem: Problem, budget: int) -> tuple[Design, Candidate] | None:
+    """The sheet with at most `budget` rows at the largest total allowed (the most accurate for those rows)."""
+    design = _allocate(problem, budget)
+    if design is None:
+        return None
+    return design, _attempt(problem, design, problem.bound.max_total_points)
+
+
+def _smallest_total(problem: Problem, design: Design, top: Candidate) -> Candidate:
+    """Bisection on the total-points target: the smallest range that still passes."""
+    lo, hi, best = 1, problem.bound.max_total_points, top
+    while lo < hi:
         mid = (lo + hi) // 2
-        cand = attempt(mid)
+        cand = _attempt(problem, design, mid)
         if cand is not None and cand.passed:
             best, hi = cand, mid
         else:
             lo = mid + 1
     return best
-
-
-def _printed_rows(layouts: list[Layout]) -> int:
-    return int(sum(lay.size for lay in layouts))
 
 
 def prepare(model: AdditiveModel, data: pd.DataFrame | None = None, bound: Bound | None = None,
@@ -211,19 +229,22 @@ def search(problem: Problem, progress: Callable[[str], None] | None = None) -> C
     lo = sum(min(o.size for o in opts) for opts in problem.options)
     hi = sum(max(o.size for o in opts) for opts in problem.options)
     say(f"searching row budgets {lo}-{hi} over {len(problem.curves)} terms")
-    top = _evaluate(problem, hi)
-    if top is None or not top.passed:
-        raise CheckFailed(_infeasible_message(problem, top))
-    best = top
-    while lo < hi:
+    found = _evaluate(problem, hi)
+    if found is None or found[1] is None or not found[1].passed:
+        raise CheckFailed(_infeasible_message(problem, None if found is None else found[1]))
+    best = found
+    while lo < hi:  # fewest rows that pass, judged at the largest total allowed
         mid = (lo + hi) // 2
-        cand = _evaluate(problem, mid)
-        say(f"  {mid} rows: {'meets' if cand is not None and cand.passed else 'misses'} the bound")
-        if cand is not None and cand.passed:
-            best, hi = cand, mid
+        found = _evaluate(problem, mid)
+        ok = found is not None and found[1] is not None and found[1].passed
+        say(f"  {mid} rows: {'meets' if ok else 'misses'} the bound")
+        if ok:
+            best, hi = found, mid
         else:
             lo = mid + 1
-    return best
+    design, top = best
+    problem.design = design
+    return _smallest_total(problem, design, top)
 
 
 def _infeasible_message(problem: Problem, top: Candidate | None) -> str:
@@ -270,20 +291,17 @@ def _readability(problem: Problem, cand: Candidate) -> dict:
             "note": "risk-weighted squared log-odds error before rounding; readable cuts vs cuts at any model bin edge"}
 
 
-def _tradeoff(problem: Problem, cand: Candidate) -> list[dict]:
+def _tradeoff(problem: Problem) -> list[dict]:
     """How the allowed total-points range trades against per-patient error, at the chosen rows."""
-    ids, v0, term_of_row, starts = _design(problem, cand.layouts)
+    d = problem.design
     y = problem.population.logodds
-    q = Quadratic.from_rows(ids, starts, y, problem.weight)
-    values, _ = refit_row_values(q, v0)
-    span = _span(values, term_of_row) or 1.0
     out = []
-    for target in sorted({10, 15, 20, 30, 40, 60, 100, problem.bound.max_total_points, max(1, cand.total_range)}):
-        found = _points_for_total(q, values, term_of_row, span, target, problem.allow_negative)
+    for target in sorted({10, 15, 20, 30, 40, 60, 100, problem.bound.max_total_points}):
+        found = _points_for_total(d.q, d.values, d.term_of_row, d.span, target, problem.allow_negative)
         if found is None:
             continue
         scale, (pts, offset) = found
-        figs = quick_figures(y, offset + scale * pts[ids].sum(axis=1), problem.bound.max_risk_error, problem.auc_model)
+        figs = quick_figures(y, offset + scale * pts[d.ids].sum(axis=1), problem.bound.max_risk_error, problem.auc_model)
         out.append({"total_points": target, "auc_loss": figs["auc_loss"], "p95_abs_risk_error": figs["p95_abs_risk_error"],
                     "mean_abs_risk_error": figs["mean_abs_risk_error"], "share_over_risk_error": figs["share_over_risk_error"]})
     return out
@@ -356,7 +374,7 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
         "rows_per_term": {c.name: lay.size for c, lay in zip(problem.curves, cand.layouts)},
         "total_points_range": total_max - total_min,
         "readability": _readability(problem, cand),
-        "total_points_tradeoff": _tradeoff(problem, cand),
+        "total_points_tradeoff": _tradeoff(problem),
         "search": problem.tried,
     }
     return {

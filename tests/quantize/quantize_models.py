@@ -2,7 +2,6 @@
 
 import numpy as np
 
-from scorecard.model import model_from_dict
 
 
 def _continuous(name, label, unit, decimals, lo, hi, shape, missing="error"):

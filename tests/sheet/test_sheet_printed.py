@@ -1,7 +1,7 @@
 """Printed ranges, risk texts and the row-lookup rule."""
 
 import math
-from decimal import ROUND_HALF_UP, Decimal
+from decimal import Decimal
 
 import numpy as np
 import pytest
