@@ -3,7 +3,6 @@
 import numpy as np
 
 
-
 def _continuous(name, label, unit, decimals, lo, hi, shape, missing="error"):
     step = 10.0**-decimals
     edges = [round(v, 6) for v in np.arange(lo + step / 2, hi, step)][: 60]
