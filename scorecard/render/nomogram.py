@@ -105,7 +105,11 @@ class _TermAxis:
         if self.is_pair:
             canv.setFont(REGULAR, s)
             for i, line in enumerate(self.note_lines):
-                canv.drawString(self.left, top - (i + 1) * self.line_h + s * 0.25, line)
+                baseline = top - (i + 1) * self.line_h + s * 0.25
+                canv.setFillColor(colors.white)  # the guide lines do not strike through the note
+                canv.rect(self.left - 1, baseline - s * 0.25, text_width(line, s) + 2, s * 1.05, stroke=0, fill=1)
+                canv.setFillColor(colors.black)
+                canv.drawString(self.left, baseline, line)
             return
         axis_y = top - self.axis_y_from_top - s * 0.35
         xs = [x_of(p) for p in self.groups]
@@ -201,6 +205,8 @@ class NomogramBlock(Flowable):
                 break
             used += axis.height
             k += 1
+        if k == len(self._term_axes) and self.with_total:
+            k -= 1  # keep at least one term axis beside the total axis rather than a total axis alone
         if k == 0:
             return []
         return [NomogramBlock(self.sheet, self.styles, self.signed, self.terms[:k], with_total=False, continued=self.continued),
