@@ -105,7 +105,12 @@ def _tables(page_number: int, words: list[Word], edges: list[dict]) -> list[Prin
         current: list[Row] = []
         for top, bottom in zip(levels[:-1], levels[1:]):
             row_words = [w for w in inside if top < w.middle < bottom]
-            if not row_words:
+            # a band crossed by another table's rule is the space between tables, not a row of this one; a rule
+            # that starts at an inner column and stays inside is this table's own partial rule (a grid's)
+            crossed = any(top + _SAME_Y < e["top"] < bottom - _SAME_Y and min(e["x1"], x1) > max(e["x0"], x0)
+                          and not (e["x0"] > x0 + _SAME_X and e["x1"] <= x1 + _SAME_X)
+                          for e in horizontal)
+            if not row_words or crossed:
                 if current:
                     tables.append(PrintedTable(page_number, x0, x1, current))
                 current = []

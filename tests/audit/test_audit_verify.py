@@ -50,6 +50,17 @@ def test_untouched_pdf_matches_in_every_shipped_layout(layout, tmp_path):
     assert result.cells_checked >= 2 * rows + 2 * len(sheet["conversion"])
 
 
+@pytest.mark.parametrize("which, layout", [("twelve", "ward-a4"), ("many", "large-print-a4")])
+def test_untouched_pdf_of_larger_sheets_matches(which, layout, tmp_path):
+    # the renderer's own test sheets (tests/render/sheets.py): negative points with signs, markup characters,
+    # many blocks running over several pages and columns
+    from tests.render.sheets import many_term_sheet, twelve_term_sheet
+
+    sheet = twelve_term_sheet() if which == "twelve" else many_term_sheet()
+    result = verify_pages(sheet, pdf_pages(render_pdf(sheet, load_layout(layout), short_fingerprint(sheet)), tmp_path))
+    assert result.mismatches == [], [m.line() for m in result.mismatches]
+
+
 def _add(sheet: dict, path: tuple, delta: int) -> None:
     node = sheet
     for key in path[:-1]:
