@@ -127,10 +127,14 @@ def flag_column(frame: pd.DataFrame, name: str) -> np.ndarray:
     return values
 
 
-def category_column(frame: pd.DataFrame, name: str) -> np.ndarray:
-    """Object array of stripped level names, None for not measured."""
+def category_column(frame: pd.DataFrame, name: str, levels: list[str] | tuple[str, ...] = ()) -> np.ndarray:
+    """Object array of stripped level names, None for not measured.
+
+    A cell that spells one of the feature's own `levels` is that level even if it looks like a
+    not-measured token (a level may be called "none").
+    """
     codes, uniques = _distinct(frame[name])
     text = uniques.astype(str).str.strip()
-    missing_u = text.str.lower().isin(MISSING_TOKENS).to_numpy()
+    missing_u = text.str.lower().isin(MISSING_TOKENS).to_numpy() & ~text.isin(list(levels)).to_numpy()
     levels = np.where(missing_u, None, text.to_numpy(dtype=object)) if len(uniques) else np.empty(0, dtype=object)
     return _per_cell(codes, levels, None).astype(object)

@@ -59,7 +59,7 @@ def feature_values(frame: pd.DataFrame, feature: Feature) -> np.ndarray:
         return numeric_column(frame, feature.name)
     if feature.kind == "flag":
         return flag_column(frame, feature.name)
-    return category_column(frame, feature.name)
+    return category_column(frame, feature.name, feature.levels or ())
 
 
 def step_bins(edges, x: np.ndarray) -> np.ndarray:
