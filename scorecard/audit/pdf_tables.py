@@ -72,6 +72,43 @@ class PrintedPage:
     words: list[Word]
     tables: list[PrintedTable]
 
+    def passages(self) -> list[str]:
+        """The page's running text, one string per column of text (see `text_passages`)."""
+        return text_passages(self.words)
+
+
+def text_passages(words: list[Word]) -> list[str]:
+    """Running text as it flows: a line is cut where the gap between two words is wider than a column gutter,
+    and a piece continues on the next line when that line has a piece starting at the same left edge.
+    Two columns of text therefore read as two passages instead of interleaved lines."""
+    lines: list[list[Word]] = []
+    for w in sorted(words, key=lambda w: (w.middle, w.x0)):
+        if lines and abs(w.middle - lines[-1][0].middle) <= 0.5 * max(w.bottom - w.top, 1.0):
+            lines[-1].append(w)
+        else:
+            lines.append([w])
+    pieces: list[list[Word]] = []
+    for line in lines:
+        line.sort(key=lambda w: w.x0)
+        piece = [line[0]]
+        for prev, w in zip(line, line[1:]):
+            if w.x0 - prev.x1 > 1.2 * max(w.bottom - w.top, 1.0):
+                pieces.append(piece)
+                piece = [w]
+            else:
+                piece.append(w)
+        pieces.append(piece)
+    chains: list[list[list[Word]]] = []
+    for piece in sorted(pieces, key=lambda p: (p[0].top, p[0].x0)):
+        height = max(w.bottom - w.top for w in piece)
+        home = next((c for c in reversed(chains)
+                     if abs(c[-1][0].x0 - piece[0].x0) <= 3 and 0 < piece[0].top - c[-1][0].top <= 2.2 * height), None)
+        if home is None:
+            chains.append([piece])
+        else:
+            home.append(piece)
+    return [" ".join(w.text for p in chain for w in p) for chain in chains]
+
 
 def reading_order(words: list[Word]) -> list[Word]:
     """Top to bottom by line (words whose middles are within half a line share a line), then left to right."""

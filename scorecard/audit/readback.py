@@ -266,6 +266,47 @@ class _Checker:
                     return
         self.mismatches.append(Mismatch(None, block, "table", "(no band table found)", "Band | Totals | Risk table"))
 
+    # -- text printed around the tables -------------------------------------------------------------------
+    def running_text(self) -> None:
+        """Title, outcome, horizon, population and every caution on every page; the rounding rule and each
+        training range somewhere in the document (these carry numbers too: '5 days', '69.5', '60–100')."""
+        outcome = self.sheet["outcome"]
+        per_page = [("title", self.sheet["title"]), ("outcome", outcome["event"]), ("horizon", outcome["horizon"]),
+                    ("population", outcome["population"])]
+        per_page += [(f"caution {k + 1}", c) for k, c in enumerate(self.sheet.get("cautions") or [])]
+        passages = {page.number: [_norm(t) for t in page.passages()] for page in self.pages}
+        for page in self.pages:
+            for name, text in per_page:
+                self.cells += 1
+                if not any(_norm(text) in t for t in passages[page.number]):
+                    self.mismatches.append(Mismatch(page.number, "page text", name, "(not found)", text))
+        model = self.sheet["model"]
+        for page in self.pages:
+            self.cells += 1
+            if not any(_norm(model["name"]) in t and f"version {_norm(model['version'])}" in t for t in passages[page.number]):
+                self.mismatches.append(Mismatch(page.number, "page text", "model", "(not found)", f"{model['name']} version {model['version']}"))
+        # every printed copy of the rounding rule must be the whole rule (it carries the worked example)
+        rule = _norm(self.sheet["rounding_rule"])
+        opening = " ".join(rule.split()[:4])
+        for page in self.pages:
+            for t in passages[page.number]:
+                if opening in t:
+                    self.cells += 1
+                    if rule not in t:
+                        start = t.index(opening)
+                        self.mismatches.append(Mismatch(page.number, "text", "rounding rule", t[start:start + len(rule)], rule))
+        everywhere = [t for ts in passages.values() for t in ts]
+        once = [("rounding rule", self.sheet["rounding_rule"])]
+        for term in self.sheet["terms"]:
+            rng = term.get("training_range") if term["kind"] == "continuous" else None
+            if rng:
+                d = int(term["decimals"])
+                once.append((f"training range of {term['label']!r}", f"{term['label']} {_fixed(rng['min'], d)}\u2013{_fixed(rng['max'], d)}"))
+        for name, text in once:
+            self.cells += 1
+            if not any(_norm(text) in t for t in everywhere):
+                self.mismatches.append(Mismatch(None, "text", name, "(not found)", text))
+
     # -- fingerprint ----------------------------------------------------------------------------------
     def fingerprints(self, short: str) -> None:
         for page in self.pages:
@@ -276,6 +317,13 @@ class _Checker:
                 self.mismatches.append(Mismatch(page.number, "fingerprint", "another sheet version", ", ".join(others), short))
             elif short not in found:
                 self.mismatches.append(Mismatch(page.number, "fingerprint", "page", "(none)", short))
+
+
+def _fixed(value: float, decimals: int) -> str:
+    """A number at `decimals` places, rounded half up in decimal arithmetic (as the sheet prints it)."""
+    from decimal import ROUND_HALF_UP, Decimal
+
+    return str(Decimal(repr(float(value))).quantize(Decimal(1).scaleb(-decimals), rounding=ROUND_HALF_UP))
 
 
 def _is_conversion_header(row: Row) -> bool:
@@ -309,6 +357,7 @@ def verify_pages(sheet: dict, pages: list[PrintedPage], source: str = "PDF") -> 
             check.single_term(term)
     check.conversion()
     check.band_table()
+    check.running_text()
     return VerifyResult(len(pages), check.cells, check.mismatches)
 
 

@@ -222,3 +222,29 @@ def test_verify_pdf_reads_a_file(compact, tmp_path):
     path = tmp_path / "s.pdf"
     path.write_bytes(render_pdf(compact, load_layout("pocket-card"), short_fingerprint(compact)))
     assert verify_pdf(compact, path).passed
+
+
+@pytest.mark.parametrize("needle", ["5 days", "69.5", "version 1"])
+def test_numbers_in_the_running_text_are_caught(compact, tmp_path, needle):
+    """The horizon in the page header, the worked example of the rounding rule and the model version in the
+    footer carry numbers too: a content-stream edit of any of them is caught on the page where it happens."""
+    clean = render_pdf(compact, load_layout("ward-a4"), short_fingerprint(compact))
+    pages = len(PdfReader(io.BytesIO(clean)).pages)
+    edits = 0
+    for page_index in range(pages):
+        ops = ContentStream(PdfReader(io.BytesIO(clean)).pages[page_index].get_contents(), PdfReader(io.BytesIO(clean))).operations
+        for i in [i for i, (operands, op) in enumerate(ops) if op == b"Tj" and needle in str(operands[0])]:
+            writer = PdfWriter(clone_from=PdfReader(io.BytesIO(clean)))
+            page = writer.pages[page_index]
+            content = ContentStream(page.get_contents(), writer)
+            operands, op = content.operations[i]
+            text = str(operands[0])
+            at = text.index(needle) + needle.index(next(ch for ch in needle if ch.isdigit()))
+            content.operations[i] = ([TextStringObject(text[:at] + str((int(text[at]) + 1) % 10) + text[at + 1:])], op)
+            page.replace_contents(content)
+            out = io.BytesIO()
+            writer.write(out)
+            result = verify_pages(compact, pdf_pages(out.getvalue(), tmp_path))
+            assert any(m.page == page_index + 1 for m in result.mismatches), (needle, page_index)
+            edits += 1
+    assert edits >= 1
