@@ -11,9 +11,10 @@ import numpy as np
 import pandas as pd
 
 from scorecard.audit import figures
-from scorecard.audit.paper import ScoredCohort, parse_cohort, score_cohort, sheet_logodds
+from scorecard.audit.paper import ScoredCohort, band_index, parse_cohort, score_cohort, sheet_logodds
 from scorecard.errors import UserError
 from scorecard.model import AdditiveModel, contributions, logistic
+from scorecard.sheet import short_fingerprint
 from scorecard.tabular import flag_column, source_of
 
 REPORT_TAG = "scorecard-check-report"
@@ -71,8 +72,6 @@ def _risk_errors(diff: np.ndarray, limit: float) -> dict:
 
 
 def _band_matrix(sheet: dict, model_risk: np.ndarray, scored: ScoredCohort) -> dict | None:
-    from scorecard.audit.paper import band_index
-
     if scored.band is None:
         return None
     names = [b["name"] for b in sheet["bands"]]
@@ -225,8 +224,6 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
     magnitude = float(np.ceil(np.abs(diff).max() * 1000) / 10) or 0.1  # percentage points, to 0.1
     counts, edges = np.histogram(diff * 100, bins=HISTOGRAM_BINS, range=(-magnitude, magnitude))
     say("writing the report")
-    from scorecard.sheet import short_fingerprint
-
     return _without_nan({
         "document": REPORT_TAG,
         "format_version": 1,

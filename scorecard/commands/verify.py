@@ -24,7 +24,9 @@ def command(pdf_path: str, sheet_path: str) -> None:
       - each pair grid: its column headings, row texts and every cell, and the not-measured cell;
       - the conversion table: every total with its printed risk and band, in order;
       - the band table: each band's first and last total and risk;
-      - the sheet's short fingerprint on every page, and no other sheet's fingerprint anywhere.
+      - the sheet's short fingerprint on every page, and no other sheet's fingerprint anywhere;
+      - the title, outcome, horizon, population, model and cautions on every page, the rounding
+        rule wherever it is printed, and each item's training range.
     Every difference is listed as: page, table, row, what is printed and what the sheet says.
 
     Exit 0 when everything matches, 3 on any mismatch (a PDF of another sheet version, or any changed
