@@ -156,8 +156,11 @@ class NomogramBlock(Flowable):
     # geometry ---------------------------------------------------------------------------------------
     def _geometry(self, width: float) -> None:
         s = self.styles.body_pt
-        widest = max(text_width(w, s, bold=True) for t in self.sheet["terms"] for w in term_heading(t).split())
-        self.label_col = min(width * 0.3, max(widest, min(width * 0.3, max(text_width(term_heading(t), s, True) for t in self.sheet["terms"]))))
+        # the label column holds every heading (wrapped at words, never inside one) and the axis names on one line
+        widest_word = max(text_width(w, s, bold=True) for t in self.sheet["terms"] for w in term_heading(t).split())
+        fixed = max(text_width(t, s, bold=True) for t in ("Points (continued)", "Total points", "Risk"))
+        longest = max(text_width(term_heading(t), s, True) for t in self.sheet["terms"])
+        self.label_col = max(widest_word, fixed, min(width * 0.3, longest))
         self.left = self.label_col + s * 1.5
         self.right = width - s * 0.5
         end_room = max(text_width("88", s), s * 2)
