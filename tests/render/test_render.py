@@ -375,3 +375,24 @@ def test_layouts_are_found_as_installed_package_data(tmp_path):
     assert Path(folder) == (site / "scorecard" / "layouts").resolve()
     assert {"ward-a4", "ward-letter", "pocket-card", "large-print-a4"} <= set(names.split(","))
     assert card == "pocket-card"
+
+
+# The demo sheet as `scorecard quantize` wrote it from the demo's true model (`scorecard demo -o d`,
+# `scorecard quantize d/true.model.json -o demo.sheet.json`): 12 terms plus a 6 x 6 pair grid.
+DEMO_SHEET = Path(__file__).parent / "data" / "demo.sheet.json"
+
+
+@pytest.mark.parametrize("layout_name", ["ward-a4", "ward-letter"])
+def test_the_quantized_demo_sheet_fits_the_front_page_at_nine_point_and_reads_back(layout_name, tmp_path):
+    from scorecard.sheet import load_sheet
+
+    doc = load_sheet(DEMO_SHEET)
+    pdf = _render(doc, layout_name)
+    _assert_rows_in_order(doc, _column_lines(pdf, 0, layout_name, 2))
+    chars = _pages(pdf)[0][3]
+    assert min(ch["size"] for ch in chars if ch["text"].strip()) >= 9 - 0.01
+    assert "TOTAL POINTS" in _pages(pdf)[0][4]
+    out = tmp_path / "demo.pdf"
+    out.write_bytes(pdf)
+    result = CliRunner().invoke(main, ["verify", str(out), "--sheet", str(DEMO_SHEET)])
+    assert result.exit_code == 0, result.output
