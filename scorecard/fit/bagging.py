@@ -91,7 +91,7 @@ def _run(function, tasks, n_jobs, progress, what):
     for i, result in enumerate(stream, start=1):
         results.append(result)
         if progress:
-            progress(f"{what}: bag {i}/{len(tasks)} stopped at round {result['rounds']}")
+            progress(f"{what}: bag {i}/{len(tasks)} done, best at round {result['rounds']}")
     return results
 
 
@@ -128,6 +128,7 @@ def fit_additive_terms(
     bag_fraction: float = 1.0,
     n_jobs: int | None = None,
     progress: Callable[[str], None] | None = None,
+    names: list[str] | None = None,
 ) -> FittedTerms:
     """Fit every term; see the module doc for the method and its sources."""
     jobs = min(usable_cores() if n_jobs is None or n_jobs < 1 else n_jobs, n_bags)
@@ -149,7 +150,8 @@ def fit_additive_terms(
         ranking = rank_pairs(coarse, widths, w * (p - y), w * p * (1 - p), w, half, settings.l2, settings.min_leaf)
         chosen = choose_pairs(ranking, pairs, max_pairs, alpha)
         if progress:
-            picked = ", ".join(f"{s.first}x{s.second}" for s in chosen) or "none"
+            label = names or [str(j) for j in range(len(codes))]
+            picked = ", ".join(f"{label[s.first]} x {label[s.second]}" for s in chosen) or "none"
             progress(f"pairs: ranked {len(ranking)} by FAST gain; chosen: {picked}")
     layouts = [
         PairLayout(s.first, s.second, (coarse_maps[s.first], coarse_maps[s.second]),

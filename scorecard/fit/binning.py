@@ -76,7 +76,7 @@ def midpoint_cuts(values: np.ndarray, weights: np.ndarray, max_bins: int) -> np.
 
 
 def bin_numeric(name: str, values: np.ndarray, weights: np.ndarray, max_bins: int) -> FeatureBins:
-    measured = ~np.isnan(values)
+    measured = ~np.isnan(values) & (weights > 0)  # a patient with weight 0 must not move a cut point
     x = values[measured]
     distinct = np.unique(x)
     if len(distinct) == 2 and distinct[0] == 0.0 and distinct[1] == 1.0:

@@ -26,10 +26,11 @@ from scorecard.fit.trees import quadrant_step, step_tree
 
 @dataclass(frozen=True)
 class BoostSettings:
-    learning_rate: float = 0.04
+    learning_rate: float = 0.1
     leaves: int = 3
-    max_rounds: int = 2000
-    patience: int = 30
+    max_rounds: int = 1000
+    patience: int = 20
+    tolerance: float = 1e-3  # a round counts as better only if it lowers the held-out loss by this share
     l2: float = 1.0
     min_leaf: float = 5.0
     validation_fraction: float = 0.15
@@ -83,6 +84,7 @@ def gradients(odds, y, w, work):
     return g, h
 
 
+@np.errstate(divide="ignore", invalid="ignore")
 def boost_one_feature_terms(
     codes_fit: list[np.ndarray],
     y_fit: np.ndarray,
@@ -128,7 +130,7 @@ def boost_one_feature_terms(
             break
         if has_held:
             loss = weighted_log_loss(held_f, y_held, w_held)
-            if loss < best[0] - 1e-9:
+            if loss < best[0] * (1.0 - s.tolerance):
                 best = (loss, [a.copy() for a in shapes], rounds)
                 since_best = 0
             else:
@@ -140,6 +142,7 @@ def boost_one_feature_terms(
     return {"intercept": intercept, "shapes": best[1], "rounds": best[2], "held_loss": best[0]}
 
 
+@np.errstate(divide="ignore", invalid="ignore")
 def boost_pair_terms(
     pair_codes_fit: list[np.ndarray],
     start_fit: np.ndarray,
@@ -190,7 +193,7 @@ def boost_pair_terms(
             break
         if has_held:
             loss = weighted_log_loss(held_f, y_held, w_held)
-            if loss < best[0] - 1e-9:
+            if loss < best[0] * (1.0 - s.tolerance):
                 best = (loss, [g.copy() for g in grids], rounds)
                 since_best = 0
             else:

@@ -12,33 +12,38 @@ from __future__ import annotations
 import numpy as np
 
 
-def _cut_gains(cg, ch, cc, start, stop, l2, min_leaf):
-    """Gains of every cut of ordered positions [start, stop); cut s puts [start, s) left. -inf where invalid."""
-    s = np.arange(start + 1, stop)
-    gl, hl, cl = cg[s] - cg[start], ch[s] - ch[start], cc[s] - cc[start]
-    gt, ht, ct = cg[stop] - cg[start], ch[stop] - ch[start], cc[stop] - cc[start]
-    gr, hr, cr = gt - gl, ht - hl, ct - cl
-    with np.errstate(divide="ignore", invalid="ignore"):
-        gain = gl * gl / (hl + l2) + gr * gr / (hr + l2) - gt * gt / (ht + l2)
-    gain[~((cl >= min_leaf) & (cr >= min_leaf)) | ~np.isfinite(gain)] = -np.inf
-    return s, gain
-
-
 def _best_cut(cg, ch, cc, start, stop, l2, min_leaf):
+    """Best single cut of ordered positions [start, stop), from prefix sums (with a leading 0).
+
+    Cut s puts positions [start, s) in the left leaf. Since counts only accumulate, the cuts that leave at
+    least `min_leaf` patients on both sides form one contiguous run, found by binary search."""
     if stop - start < 2:
         return 0.0, -1
-    s, gain = _cut_gains(cg, ch, cc, start, stop, l2, min_leaf)
-    i = int(np.argmax(gain))
-    if not gain[i] > 1e-12:
+    lo = max(start + 1, int(cc.searchsorted(cc[start] + min_leaf, side="left")))
+    hi = min(stop - 1, int(cc.searchsorted(cc[stop] - min_leaf, side="right")) - 1)
+    if lo > hi:
         return 0.0, -1
-    return float(gain[i]), int(s[i])
+    gt, ht = cg[stop] - cg[start], ch[stop] - ch[start] + l2
+    gl = cg[lo : hi + 1] - cg[start]
+    hl = ch[lo : hi + 1] - (ch[start] - l2)
+    gr = gt - gl
+    hr = ht + l2 - hl
+    score = gl * gl / hl + gr * gr / hr  # callers silence 0/0 warnings (an empty leaf with l2 = 0)
+    i = int(score.argmax())
+    gain = float(score[i]) - gt * gt / ht
+    if not gain > 1e-12:  # also refuses NaN
+        return 0.0, -1
+    return gain, lo + i
 
 
 def _grow(order, G, H, C, leaves, l2, min_leaf):
     """Best tree of up to `leaves` (2 or 3) contiguous leaves along `order`; returns (gain, cut positions)."""
-    cg = np.concatenate(([0.0], np.cumsum(G[order])))
-    ch = np.concatenate(([0.0], np.cumsum(H[order])))
-    cc = np.concatenate(([0.0], np.cumsum(C[order])))
+    cg = np.zeros(len(order) + 1)
+    ch = np.zeros(len(order) + 1)
+    cc = np.zeros(len(order) + 1)
+    G.take(order).cumsum(out=cg[1:])
+    H.take(order).cumsum(out=ch[1:])
+    C.take(order).cumsum(out=cc[1:])
     n = len(order)
     gain, cut = _best_cut(cg, ch, cc, 0, n, l2, min_leaf)
     if cut < 0:
@@ -54,6 +59,15 @@ def _grow(order, G, H, C, leaves, l2, min_leaf):
     return gain, cuts
 
 
+_IDENTITY: dict[int, np.ndarray] = {}
+
+
+def _identity(n: int) -> np.ndarray:
+    if n not in _IDENTITY:
+        _IDENTITY[n] = np.arange(n)
+    return _IDENTITY[n]
+
+
 def step_tree(G: np.ndarray, H: np.ndarray, C: np.ndarray, ordered: bool, leaves: int, l2: float, min_leaf: float):
     """Fit one tiny tree to a one-feature histogram; return the Newton value of every slot, or None.
 
@@ -65,7 +79,7 @@ def step_tree(G: np.ndarray, H: np.ndarray, C: np.ndarray, ordered: bool, leaves
     """
     n = len(G)
     if ordered:
-        orders = [np.arange(n)]
+        orders = [_identity(n)]
         if C[n - 1] > 0:
             orders.append(np.concatenate(([n - 1], np.arange(n - 1))))
     else:
