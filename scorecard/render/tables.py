@@ -38,6 +38,17 @@ class WriteInBox(Flowable):
         self.canv.rect(0, 0, self.width, self.height, stroke=1, fill=0)
 
 
+class NamedTable(Table):
+    """A table whose pieces keep its name when it runs on to the next column or page."""
+
+    def split(self, avail_width, avail_height):
+        parts = super().split(avail_width, avail_height)
+        for part in parts:
+            if hasattr(self, "tracked_as"):
+                part.tracked_as = self.tracked_as
+        return parts
+
+
 class Tracked(KeepTogether):
     """A block kept together whose page is recorded once drawn (to say what does not fit on a card)."""
 
@@ -70,7 +81,7 @@ def term_block(term: dict, styles: Styles, signed: bool, width: float) -> Flowab
     data = [[Paragraph(markup(term_heading(term)), styles.heading), WriteInBox(box_w, _box_height(styles))]]
     for row in term["rows"]:
         data.append([Paragraph(markup(row["text"]), styles.body), Paragraph(points_text(row["points"], signed), styles.points)])
-    table = Table(data, colWidths=[text_w, points_w], repeatRows=1, hAlign="LEFT")
+    table = NamedTable(data, colWidths=[text_w, points_w], repeatRows=1, hAlign="LEFT")
     commands = [
         ("VALIGN", (0, 0), (-1, -1), "MIDDLE"),
         ("LEFTPADDING", (0, 0), (-1, -1), PAD), ("RIGHTPADDING", (0, 0), (-1, -1), PAD),
@@ -133,7 +144,7 @@ def pair_block(term: dict, styles: Styles, signed: bool, width: float) -> Flowab
     data.append([Paragraph(f"If either is not measured: <b>{markup(missing)}</b>", styles.body)] + [""] * n_cols)
     last = len(data) - 1
     col_widths = [first_w] + [cell_w] * n_cols
-    table = Table(data, colWidths=col_widths, hAlign="LEFT")
+    table = NamedTable(data, colWidths=col_widths, hAlign="LEFT")
     commands = [
         ("VALIGN", (0, 0), (-1, -1), "MIDDLE"),
         ("LEFTPADDING", (0, 0), (-1, -1), PAD), ("RIGHTPADDING", (0, 0), (-1, -1), PAD),
