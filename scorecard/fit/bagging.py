@@ -10,7 +10,9 @@ cores.
 
 from __future__ import annotations
 
+import multiprocessing
 import os
+from concurrent.futures import ProcessPoolExecutor
 from dataclasses import dataclass, field
 from typing import Callable
 
@@ -70,7 +72,8 @@ def _stage1_bag(codes, y, w, n_slots, ordered, settings, bag_fraction, seed):
     )
 
 
-def _stage2_bag(pair_codes, start, y, w, shapes, settings, bag_fraction, seed):
+def _stage2_bag(pair_codes, y, w, shapes, settings, bag_fraction, bag):
+    start, seed = bag
     fit_rows, held_rows = _bag_rows(y, settings, bag_fraction, seed)
     return boost_pair_terms(
         [c[fit_rows] for c in pair_codes], start[fit_rows], y[fit_rows], w[fit_rows],
@@ -79,19 +82,42 @@ def _stage2_bag(pair_codes, start, y, w, shapes, settings, bag_fraction, seed):
     )
 
 
-def _run(function, tasks, n_jobs, progress, what):
-    """Run tasks in order-preserving parallel (or in this process for one job), reporting each bag."""
-    results = []
-    if n_jobs <= 1 or len(tasks) <= 1:
-        stream = (function(*t) for t in tasks)
-    else:
-        from joblib import Parallel, delayed
+_SHARED: dict = {}  # the data of the stage being run, inherited by forked workers (never pickled)
 
-        stream = Parallel(n_jobs=n_jobs, return_as="generator")(delayed(function)(*t) for t in tasks)
-    for i, result in enumerate(stream, start=1):
-        results.append(result)
+
+def _call_shared(function, index):
+    return function(*_SHARED["common"], _SHARED["seeds"][index])
+
+
+def _run(function, common: tuple, seeds, n_jobs, progress, what):
+    """Run `function(*common, seed)` for every bag seed, in bag order, reporting each bag.
+
+    Workers are forked (Linux), so they inherit the arrays instead of receiving pickled copies, and start
+    in milliseconds; results come back in bag order whichever worker ran them. Where forking is not possible
+    (another OS, or inside a daemon worker such as a parallel cross-validation) the bags run in this process.
+    """
+    results = []
+    use_fork = (
+        n_jobs > 1 and len(seeds) > 1 and "fork" in multiprocessing.get_all_start_methods()
+        and not multiprocessing.current_process().daemon
+    )
+    if use_fork:
+        _SHARED.update(common=common, seeds=seeds)
+        try:
+            context = multiprocessing.get_context("fork")
+            with ProcessPoolExecutor(max_workers=n_jobs, mp_context=context) as pool:
+                stream = pool.map(_call_shared, [function] * len(seeds), range(len(seeds)))
+                for i, result in enumerate(stream, start=1):
+                    results.append(result)
+                    if progress:
+                        progress(f"{what}: bag {i}/{len(seeds)} done, best at round {result['rounds']}")
+        finally:
+            _SHARED.clear()
+        return results
+    for i, seed in enumerate(seeds, start=1):
+        results.append(function(*common, seed))
         if progress:
-            progress(f"{what}: bag {i}/{len(tasks)} done, best at round {result['rounds']}")
+            progress(f"{what}: bag {i}/{len(seeds)} done, best at round {results[-1]['rounds']}")
     return results
 
 
@@ -133,7 +159,7 @@ def fit_additive_terms(
     """Fit every term; see the module doc for the method and its sources."""
     jobs = min(usable_cores() if n_jobs is None or n_jobs < 1 else n_jobs, n_bags)
     seeds = np.random.SeedSequence(seed).spawn(n_bags)
-    stage1 = _run(_stage1_bag, [(codes, y, w, n_slots, ordered, settings, bag_fraction, s) for s in seeds], jobs, progress, "one-feature terms")
+    stage1 = _run(_stage1_bag, (codes, y, w, n_slots, ordered, settings, bag_fraction), seeds, jobs, progress, "one-feature terms")
     slot_weight = [np.bincount(c, weights=w, minlength=n) for c, n in zip(codes, n_slots)]
 
     # stage 2: rank pairs on the residuals of the bag-mean one-feature model
@@ -162,8 +188,9 @@ def fit_additive_terms(
     pair_weight = [np.bincount(pc, weights=w, minlength=lay.shape[0] * lay.shape[1] + 1)[:-1].reshape(lay.shape) for pc, lay in zip(pair_codes, layouts)]
     if layouts:
         starts = [logodds_of(b["intercept"], b["shapes"], codes) for b in stage1]
-        tasks = [(pair_codes, starts[i], y, w, [lay.shape for lay in layouts], settings, bag_fraction, s) for i, s in enumerate(seeds)]
-        stage2 = _run(_stage2_bag, tasks, jobs, progress, "pair terms")
+        bag_inputs = [(start, seed) for start, seed in zip(starts, seeds)]
+        common = (pair_codes, y, w, [lay.shape for lay in layouts], settings, bag_fraction)
+        stage2 = _run(_stage2_bag, common, bag_inputs, jobs, progress, "pair terms")
     else:
         stage2 = [{"grids": [], "rounds": 0, "held_loss": b["held_loss"]} for b in stage1]
 

@@ -16,6 +16,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 import numpy as np
+import pandas as pd
 
 UNSEEN = -1  # code of a categorical level the fitted bins do not know (scored at the average, 0)
 
@@ -43,9 +44,11 @@ class FeatureBins:
         """Bin code of every value: not measured -> n_bins, unknown level -> UNSEEN."""
         if self.kind == "categorical":
             lookup = {lv: int(b) for lv, b in zip(self.levels, self.level_bin)}
-            return np.fromiter(
-                (self.n_bins if v is None else lookup.get(v, UNSEEN) for v in values), dtype=np.intp, count=len(values)
-            )
+            series = pd.Series(values, dtype=object)
+            codes = series.map(lookup).to_numpy(dtype=float)
+            codes = np.where(np.isnan(codes), UNSEEN, codes).astype(np.intp)
+            codes[series.isna().to_numpy()] = self.n_bins
+            return codes
         x = np.asarray(values, dtype=float)
         missing = np.isnan(x)
         codes = np.searchsorted(self.edges, np.where(missing, 0.0, x), side="right").astype(np.intp)

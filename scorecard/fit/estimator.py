@@ -282,15 +282,15 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
 
 
 def _as_levels(col) -> np.ndarray:
-    out = np.empty(len(col), dtype=object)
-    for i, v in enumerate(col):
-        if v is None or (isinstance(v, float) and np.isnan(v)):
-            out[i] = None
-        elif isinstance(v, (float, np.floating)) and float(v).is_integer():
-            out[i] = str(int(v))
-        else:
-            text = str(v).strip()
-            out[i] = text if text else None
+    """Level names as stripped text (a whole number written without '.0'), None where not measured."""
+    series = pd.Series(np.asarray(col, dtype=object))
+    missing = series.isna().to_numpy()
+    text = series.astype(str).str.strip()
+    whole = series.map(lambda v: isinstance(v, (float, np.floating)) and float(v).is_integer()).to_numpy(dtype=bool)
+    if whole.any():
+        text[whole] = series[whole].map(lambda v: str(int(v)))
+    out = text.to_numpy(dtype=object)
+    out[missing | (text == "").to_numpy()] = None
     return out
 
 
