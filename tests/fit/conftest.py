@@ -5,9 +5,8 @@ from __future__ import annotations
 import pytest
 
 from scorecard.demo import FEATURES, OUTCOME, generate_cohort
+from fit_settings import QUICK
 from scorecard.fit import AdditiveRiskClassifier
-
-QUICK = dict(bags=2, n_jobs=1, learning_rate=0.08, n_iter_no_change=15)
 
 
 @pytest.fixture(scope="session")

@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from conftest import QUICK
+from fit_settings import QUICK
 from scorecard.demo import FEATURES, OUTCOME, PAIR_TERM, generate_cohort, true_shape
 from scorecard.fit import AdditiveRiskClassifier
 from scorecard.jsondoc import pretty_text
