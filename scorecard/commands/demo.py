@@ -1,4 +1,8 @@
-"""`scorecard demo`: the built-in, invented demo, one function per step so later stages can be added in order."""
+"""`scorecard demo`: the whole pipeline on the built-in, invented cohort, one function per step.
+
+Each step runs the same command a user would type (through click's `Context.invoke`), so the demo shows
+exactly what the verbs do and cannot drift from them.
+"""
 
 from __future__ import annotations
 
@@ -8,12 +12,14 @@ import click
 import pandas as pd
 
 from scorecard.commands._common import say
-from scorecard.demo import cohort_csv_text, generate_cohort, true_model
+from scorecard.demo import OUTCOME, cohort_csv_text, generate_cohort, true_model
+from scorecard.demo.true_model import FEATURE_INFO, OUTCOME_TEXT
 from scorecard.errors import UserError
 from scorecard.jsondoc import atomic_write_text
 from scorecard.model import save_model
 
 COHORT_FILE = "cohort.csv"
+AUDIT_COHORT_FILE = "audit-cohort.csv"
 TRUE_MODEL_FILE = "true.model.json"
 MAX_ROWS = 5_000_000
 
@@ -32,10 +38,10 @@ def prepare_output_folder(path: str, force: bool) -> Path:
     return folder
 
 
-def write_cohort(folder: Path, rows: int, seed: int, interaction: bool) -> tuple[Path, pd.DataFrame]:
-    """Step 1: the invented cohort (one row per patient, `delirium` is the outcome)."""
+def write_cohort(folder: Path, rows: int, seed: int, interaction: bool, name: str = COHORT_FILE) -> tuple[Path, pd.DataFrame]:
+    """Step 1: an invented cohort (one row per patient, `delirium` is the outcome)."""
     cohort = generate_cohort(rows, seed=seed, interaction=interaction)
-    path = folder / COHORT_FILE
+    path = folder / name
     atomic_write_text(path, cohort_csv_text(cohort))
     rate = cohort["delirium"].mean()
     say(f"wrote {rows} invented patients to {path} (seed {seed}; delirium in {rate:.1%})")
@@ -50,18 +56,98 @@ def write_true_model(folder: Path, interaction: bool) -> Path:
     return path
 
 
+CARE_PROCESS_FLAG = "geriatric_review"
+CARE_PROCESS_REASON = (
+    "care-process marker: it looks protective only because of how care was given; "
+    "it must not lower anyone's points"
+)
+
+
+def fit_model(ctx: click.Context, folder: Path, cohort: Path) -> Path:
+    """Step 3: learn an additive model from the cohort, as a methodologist without a model would."""
+    from scorecard.commands.fit import command as fit
+
+    path = folder / "fitted.model.json"
+    ctx.invoke(
+        fit, data_path=str(cohort), outcome=OUTCOME, exclude=("patient_id",), name="Delirium after hip fracture (demo)",
+        event=OUTCOME_TEXT["event"], horizon=OUTCOME_TEXT["horizon"], population=OUTCOME_TEXT["population"],
+        labels=tuple(f"{n}={label}" for n, label, *_ in FEATURE_INFO),
+        units=tuple(f"{n}={unit}" for n, _, unit, *_ in FEATURE_INFO if unit),
+        decimals=tuple(f"{n}={d}" for n, _, _, d, kind, *_ in FEATURE_INFO if kind == "continuous"),
+        output=str(path),
+    )
+    return path
+
+
+def review_model(ctx: click.Context, folder: Path, fitted: Path, cohort: Path) -> Path:
+    """Step 4: mark the care-process flag for what it is, then review every shape (the flag is raised)."""
+    from scorecard.commands.edit import command as edit
+    from scorecard.commands.review import command as review
+
+    declared = folder / "declared.model.json"
+    ctx.invoke(edit, model_path=str(fitted), declarations=(f"{CARE_PROCESS_FLAG}=care_process",),
+               reason="the older-people's team review is a care process, not a patient measurement",
+               editor="scorecard demo", output=str(declared))
+    ctx.invoke(review, model_path=str(declared), cohort_path=str(cohort), output=str(folder / "review.pdf"),
+               preview_dir=str(folder / "review-previews"))
+    return declared
+
+
+def edit_model(ctx: click.Context, folder: Path, declared: Path, cohort: Path) -> Path:
+    """Step 5: remove the care-process effect without retraining, and record why and what it cost."""
+    from scorecard.commands.edit import command as edit
+
+    edited = folder / "edited.model.json"
+    ctx.invoke(edit, model_path=str(declared), zeros=(CARE_PROCESS_FLAG,), reason=CARE_PROCESS_REASON,
+               editor="scorecard demo", cohort_path=str(cohort), outcome=OUTCOME, output=str(edited))
+    return edited
+
+
+def make_sheet(ctx: click.Context, folder: Path, model: Path, cohort: Path) -> Path:
+    """Step 6: quantise the model into integer point tables under the default accuracy bound."""
+    from scorecard.commands.quantize import command as quantize
+
+    sheet = folder / "sheet.json"
+    ctx.invoke(quantize, model_path=str(model), data_path=str(cohort), bands="low<10,moderate<25,high", output=str(sheet))
+    return sheet
+
+
+def print_sheet(ctx: click.Context, folder: Path, sheet: Path, layout: str) -> Path:
+    """Step 7: lay the sheet out as print-ready pages, with a PNG preview of every page."""
+    from scorecard.commands.render import command as render
+
+    pdf = folder / "sheet.pdf"
+    ctx.invoke(render, sheet_path=str(sheet), layout_name=layout, output=str(pdf), preview_dir=str(folder / "sheet-previews"))
+    return pdf
+
+
+def audit_sheet(ctx: click.Context, folder: Path, sheet: Path, pdf: Path, model: Path, audit_cohort: Path) -> None:
+    """Step 8: the auditor's checks: agreement on patients the model never saw, and the PDF read back."""
+    from scorecard.commands.check import command as check
+    from scorecard.commands.verify import command as verify
+
+    ctx.invoke(check, sheet_path=str(sheet), model_path=str(model), cohort_path=str(audit_cohort),
+               output=str(folder / "check-report.pdf"), json_path=str(folder / "check-report.json"), outcome=OUTCOME)
+    ctx.invoke(verify, pdf_path=str(pdf), sheet_path=str(sheet))
+
+
 @click.command()
 @click.option("-o", "--output", "output", required=True, metavar="DIR",
               help="Folder to write into; created if absent. An existing non-empty folder needs --force.")
-@click.option("--rows", default=5000, show_default=True, type=click.IntRange(1, MAX_ROWS),
-              help="Number of invented patients.")
+@click.option("--rows", default=20000, show_default=True, type=click.IntRange(100, MAX_ROWS),
+              help="Number of invented patients to fit on (the audit cohort is half as many, drawn separately).")
 @click.option("--seed", default=0, show_default=True, type=click.IntRange(min=0),
-              help="Random seed; the same rows and seed always give the same cohort, byte for byte.")
+              help="Random seed; the same rows and seed always give the same cohorts, byte for byte.")
 @click.option("--without-pair", is_flag=True,
               help="Generate from the additive truth without the age x cognition interaction.")
+@click.option("--layout", default="ward-a4", show_default=True, metavar="NAME|FILE",
+              help="Page layout of the printed sheet (see `scorecard render --help`).")
+@click.option("--cohort-only", is_flag=True, help="Only write the invented cohort and the generator's true model.")
 @click.option("--force", is_flag=True, help="Write into a non-empty folder, replacing the demo's own files there.")
-def command(output: str, rows: int, seed: int, without_pair: bool, force: bool) -> None:
-    """Run the built-in demo on an invented cohort (nothing in it is real).
+@click.pass_context
+def command(ctx: click.Context, output: str, rows: int, seed: int, without_pair: bool, layout: str,
+            cohort_only: bool, force: bool) -> None:
+    """Run the whole pipeline on an invented cohort (nothing in it is real).
 
     The scenario: adults aged 60 or over having surgery for a hip fracture; the outcome is delirium within
     5 days after the operation. A seeded generator draws the patients from a known true additive model with
@@ -71,11 +157,31 @@ def command(output: str, rows: int, seed: int, without_pair: bool, force: bool) 
     given (its true effect is nil).
 
     \b
-    Writes into DIR:
-      cohort.csv        one row per invented patient; `delirium` (0/1) is the outcome
-      true.model.json   the generator's true additive model (a model document)
+    Writes into DIR, in pipeline order:
+      cohort.csv, audit-cohort.csv   invented patients to fit on, and others to audit on
+      true.model.json                the generator's true additive model
+      fitted.model.json              `scorecard fit` on cohort.csv
+      declared.model.json            the review flag declared a care-process marker (`scorecard edit`)
+      review.pdf, review-previews/   every shape with its band and density, and the flags
+      edited.model.json              the care-process effect removed, with its cost recorded
+      sheet.json                     integer point tables under the accuracy bound (`scorecard quantize`)
+      sheet.pdf, sheet-previews/     the print-ready ward sheet and nomogram (`scorecard render`)
+      check-report.pdf/.json         agreement of paper and software on the audit cohort (`scorecard check`)
+    and finally reads sheet.pdf back and compares it with sheet.json cell by cell (`scorecard verify`).
+    Exit 3 if a check fails its bound.
     """
     interaction = not without_pair
     folder = prepare_output_folder(output, force)
-    write_cohort(folder, rows, seed, interaction)
+    cohort, _ = write_cohort(folder, rows, seed, interaction)
     write_true_model(folder, interaction)
+    if cohort_only:
+        return
+    # a separate draw the model never sees, so the audit is not graded on the training patients
+    audit_cohort, _ = write_cohort(folder, max(rows // 2, 100), seed + 1_000_003, interaction, name=AUDIT_COHORT_FILE)
+    fitted = fit_model(ctx, folder, cohort)
+    declared = review_model(ctx, folder, fitted, cohort)
+    edited = edit_model(ctx, folder, declared, cohort)
+    sheet = make_sheet(ctx, folder, edited, cohort)
+    pdf = print_sheet(ctx, folder, sheet, layout)
+    audit_sheet(ctx, folder, sheet, pdf, edited, audit_cohort)
+    say(f"demo complete: print {pdf} (previews in {folder / 'sheet-previews'}); the audit report is {folder / 'check-report.pdf'}")

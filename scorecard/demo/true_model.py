@@ -37,11 +37,11 @@ OUTCOME_TEXT = {
 # name, label, unit, decimals, kind, missing policy, declared direction
 FEATURE_INFO = [
     ("age", "Age", "years", 0, "continuous", "error", "increasing"),
-    ("cognition", "Cognitive screen score (0-10)", "points", 0, "continuous", "error", "decreasing"),
+    ("cognition", "Cognitive screen score (0–10)", "", 0, "continuous", "error", "decreasing"),
     ("sodium", "Sodium", "mmol/L", 0, "continuous", "error", None),
     ("haemoglobin", "Haemoglobin", "g/L", 0, "continuous", "error", "decreasing"),
     ("hours_to_surgery", "Hours from admission to surgery", "hours", 0, "continuous", "error", "increasing"),
-    ("medicines", "Regular medicines", "medicines", 0, "continuous", "error", "increasing"),
+    ("medicines", "Number of regular medicines", "", 0, "continuous", "error", "increasing"),
     ("albumin", "Albumin", "g/L", 0, "continuous", "score", "decreasing"),
     ("temperature", "Temperature", "°C", 1, "continuous", "error", None),
     ("anaesthesia", "Anaesthesia", "", 0, "categorical", "error", None),

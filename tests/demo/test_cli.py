@@ -16,7 +16,7 @@ def run(*args):
 
 def test_demo_writes_the_cohort_and_the_true_model(tmp_path):
     out = tmp_path / "demo"
-    result = run("-o", str(out), "--rows", "700", "--seed", "4")
+    result = run("-o", str(out), "--rows", "700", "--seed", "4", "--cohort-only")
     assert result.exit_code == 0, result.output
     assert sorted(p.name for p in out.iterdir()) == ["cohort.csv", "true.model.json"]
     model = load_model(out / "true.model.json")
@@ -32,22 +32,22 @@ def test_demo_writes_the_cohort_and_the_true_model(tmp_path):
 
 
 def test_same_seed_same_bytes_and_without_pair(tmp_path):
-    assert run("-o", str(tmp_path / "a"), "--rows", "300").exit_code == 0
-    assert run("-o", str(tmp_path / "b"), "--rows", "300").exit_code == 0
+    assert run("-o", str(tmp_path / "a"), "--rows", "300", "--cohort-only").exit_code == 0
+    assert run("-o", str(tmp_path / "b"), "--rows", "300", "--cohort-only").exit_code == 0
     for name in ("cohort.csv", "true.model.json"):
         assert (tmp_path / "a" / name).read_bytes() == (tmp_path / "b" / name).read_bytes()
-    assert run("-o", str(tmp_path / "c"), "--rows", "300", "--without-pair").exit_code == 0
+    assert run("-o", str(tmp_path / "c"), "--rows", "300", "--without-pair", "--cohort-only").exit_code == 0
     assert load_model(tmp_path / "c" / "true.model.json").fingerprint == true_model(False).fingerprint
 
 
 def test_refuses_a_non_empty_folder_unless_forced(tmp_path):
     (tmp_path / "notes.txt").write_text("keep me")
-    result = run("-o", str(tmp_path), "--rows", "50")
+    result = run("-o", str(tmp_path), "--rows", "100", "--cohort-only")
     assert result.exit_code == 2
     assert "not empty" in result.output and "--force" in result.output
     assert len(result.output.strip().splitlines()) == 1
     assert sorted(p.name for p in tmp_path.iterdir()) == ["notes.txt"]  # nothing written
-    result = run("-o", str(tmp_path), "--rows", "50", "--force")
+    result = run("-o", str(tmp_path), "--rows", "100", "--cohort-only", "--force")
     assert result.exit_code == 0, result.output
     assert (tmp_path / "notes.txt").read_text() == "keep me"
     assert (tmp_path / "cohort.csv").exists()
