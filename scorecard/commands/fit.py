@@ -111,6 +111,18 @@ def _informative(values: np.ndarray) -> str | None:
     return None
 
 
+def _looks_like_identifier(values: np.ndarray) -> bool:
+    """Whole numbers or text, all different, in a table of more than 50 patients."""
+    if len(values) <= 50:
+        return False
+    if values.dtype == object:
+        present = [v for v in values if v is not None]
+        return len(present) == len(values) and len(set(present)) == len(present)
+    if np.isnan(values).any() or not np.all(values == np.round(values)):
+        return False
+    return len(np.unique(values)) == len(values)
+
+
 def _file_sha256(path: str) -> str:
     digest = hashlib.sha256()
     with open(path, "rb") as handle:
@@ -210,6 +222,8 @@ def command(data_path, outcome, features, exclude, categorical, weights_column, 
         if why:
             say(f"warning: skipping feature {column!r}: {why}")
             continue
+        if _looks_like_identifier(values):
+            say(f"warning: every patient has a different value of {column!r}; if it is an identifier, leave it out with --exclude {column}")
         data[column], kinds[column] = values, kind
     if not data:
         raise UserError(f"{source}: no usable feature left to fit; check --features and the columns' contents")

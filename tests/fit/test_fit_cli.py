@@ -58,6 +58,12 @@ def test_fit_writes_a_model_that_scores_the_cohort(cohort, tmp_path):
     assert 0.6 < model.provenance["validation"]["out_of_bag_auc"] < 1.0
 
 
+def test_an_identifier_column_is_pointed_out(cohort, tmp_path):
+    result = run("fit", cohort, "--outcome", "delirium", "-o", tmp_path / "m.json", *QUICK)
+    assert result.exit_code == 0, result.output
+    assert "--exclude patient_id" in result.stderr
+
+
 def test_same_command_same_bytes(cohort, tmp_path):
     outs = [tmp_path / "a.json", tmp_path / "b.json"]
     for out in outs:
