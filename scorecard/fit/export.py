@@ -133,7 +133,7 @@ def model_document(
             "columns": list(est.column_names_),
         },
         "validation": {
-            k: est.fit_report_[k]
+            k: _finite_or_none(est.fit_report_[k])
             for k in ("out_of_bag_auc", "out_of_bag_log_loss", "out_of_bag_rows", "held_out_log_loss", "rounds_one_feature", "rounds_pairs")
             if k in est.fit_report_
         },
@@ -151,6 +151,15 @@ def model_document(
         terms=terms,
         provenance=record,
     )
+
+
+def _finite_or_none(value):
+    """JSON has no NaN: a figure that could not be computed (no held-out rows) is written as null."""
+    if isinstance(value, list):
+        return [_finite_or_none(v) for v in value]
+    if isinstance(value, float) and not np.isfinite(value):
+        return None
+    return value
 
 
 def _level_counts(est, j: int) -> list[float]:

@@ -95,3 +95,6 @@ def test_sample_weights_act_like_repeated_rows():
     weighted = AdditiveRiskClassifier(**settings).fit(X, y, sample_weight=weights)
     repeated = AdditiveRiskClassifier(**settings).fit(X.iloc[twice], y[twice])
     assert np.allclose(weighted.decision_function(X), repeated.decision_function(X), atol=1e-8)
+    # without held-out rows there is no held-out figure: the document says null rather than NaN
+    doc = model_from_dict(weighted.to_model().to_dict())
+    assert doc.provenance["validation"]["held_out_log_loss"] == [None]
