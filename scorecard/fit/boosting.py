@@ -29,7 +29,7 @@ class BoostSettings:
     learning_rate: float = 0.1
     leaves: int = 3
     max_rounds: int = 1000
-    patience: int = 20
+    patience: int = 15
     tolerance: float = 1e-3  # a round counts as better only if it lowers the held-out loss by this share
     l2: float = 1.0
     min_leaf: float = 5.0
@@ -69,19 +69,19 @@ def _buffers(n: int) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
     return np.empty(n), np.empty(n), np.empty(n)
 
 
-def gradients(odds, y, w, work):
-    """Gradient p - y and hessian p(1 - p) of the log-loss per row (times the weights), from the odds,
-    written into preallocated buffers (a step runs thousands of times; fresh arrays cost page faults)."""
-    p, g, h = work
-    np.add(odds, 1.0, out=p)
-    np.divide(odds, p, out=p)
-    np.subtract(p, y, out=g)
-    np.subtract(1.0, p, out=h)
-    h *= p
+def probabilities_and_hessians(odds, w, work):
+    """p = odds / (1 + odds) and the log-loss hessian p(1 - p) = p / (1 + odds) per row (times the weights),
+    written into preallocated buffers (a step runs thousands of times; fresh arrays cost page faults).
+    The gradient p - y is never formed: its histogram is hist(p) - hist(y), and hist(y) is fixed."""
+    q, p, h = work
+    np.add(odds, 1.0, out=q)
+    np.reciprocal(q, out=q)
+    np.multiply(odds, q, out=p)
+    np.multiply(p, q, out=h)
     if w is not None:
-        g *= w
+        p *= w
         h *= w
-    return g, h
+    return p, h
 
 
 @np.errstate(divide="ignore", invalid="ignore")
@@ -102,6 +102,7 @@ def boost_one_feature_terms(
     intercept = base_logodds(y_fit, w_fit)
     shapes = [np.zeros(n) for n in n_slots]
     counts = [np.bincount(c, weights=w_fit, minlength=n) for c, n in zip(codes_fit, n_slots)]
+    events = [np.bincount(c, weights=w_fit * y_fit, minlength=n) for c, n in zip(codes_fit, n_slots)]
     active = [j for j, c in enumerate(counts) if np.count_nonzero(c) > 1]
     odds = np.full(len(y_fit), np.exp(intercept))
     work = _buffers(len(y_fit))
@@ -114,17 +115,17 @@ def boost_one_feature_terms(
     for rounds in range(1, s.max_rounds + 1):
         moved = False
         for j in active:
-            g, h = gradients(odds, y_fit, w_fit, work)
-            G = np.bincount(codes_fit[j], weights=g, minlength=n_slots[j])
+            p, h = probabilities_and_hessians(odds, w_fit, work)
+            G = np.bincount(codes_fit[j], weights=p, minlength=n_slots[j]) - events[j]
             H = np.bincount(codes_fit[j], weights=h, minlength=n_slots[j])
             values = step_tree(G, H, counts[j], ordered[j], s.leaves, s.l2, s.min_leaf)
             if values is None:
                 continue
             delta = s.learning_rate * values
             shapes[j] += delta
-            odds *= np.exp(delta)[codes_fit[j]]
+            odds *= np.exp(delta).take(codes_fit[j])
             if has_held:
-                held_f += delta[codes_held[j]]
+                held_f += delta.take(codes_held[j])
             moved = True
         if not moved:
             break
@@ -164,6 +165,7 @@ def boost_pair_terms(
     grids = [np.zeros(shape) for shape in grid_shapes]
     sizes = [a * b for a, b in grid_shapes]
     counts = [np.bincount(c, weights=w_fit, minlength=n + 1)[:n].reshape(shape) for c, n, shape in zip(pair_codes_fit, sizes, grid_shapes)]
+    pair_events = [np.bincount(c, weights=w_fit * y_fit, minlength=n + 1) for c, n in zip(pair_codes_fit, sizes)]
     odds = _odds(start_fit)
     work = _buffers(len(y_fit))
     w_fit = None if np.all(w_fit == 1.0) else w_fit
@@ -175,9 +177,9 @@ def boost_pair_terms(
     for rounds in range(1, s.max_rounds + 1):
         moved = False
         for k, shape in enumerate(grid_shapes):
-            g, h = gradients(odds, y_fit, w_fit, work)
+            p, h = probabilities_and_hessians(odds, w_fit, work)
             n = sizes[k]
-            G2 = np.bincount(pair_codes_fit[k], weights=g, minlength=n + 1)[:n].reshape(shape)
+            G2 = (np.bincount(pair_codes_fit[k], weights=p, minlength=n + 1) - pair_events[k])[:n].reshape(shape)
             H2 = np.bincount(pair_codes_fit[k], weights=h, minlength=n + 1)[:n].reshape(shape)
             values = quadrant_step(G2, H2, counts[k], s.l2, s.min_leaf)
             if values is None:
@@ -185,9 +187,9 @@ def boost_pair_terms(
             delta = s.learning_rate * values
             grids[k] += delta
             flat = np.append(delta.ravel(), 0.0)
-            odds *= np.exp(flat)[pair_codes_fit[k]]
+            odds *= np.exp(flat).take(pair_codes_fit[k])
             if has_held:
-                held_f += flat[pair_codes_held[k]]
+                held_f += flat.take(pair_codes_held[k])
             moved = True
         if not moved:
             break

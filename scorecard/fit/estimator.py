@@ -54,7 +54,7 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
         learning_rate=0.1,
         leaves_per_step=3,
         max_rounds=500,
-        n_iter_no_change=20,
+        n_iter_no_change=15,
         tol=1e-3,
         validation_fraction=0.15,
         bags=8,
@@ -282,16 +282,18 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
 
 
 def _as_levels(col) -> np.ndarray:
-    """Level names as stripped text (a whole number written without '.0'), None where not measured."""
-    series = pd.Series(np.asarray(col, dtype=object))
-    missing = series.isna().to_numpy()
-    text = series.astype(str).str.strip()
-    whole = series.map(lambda v: isinstance(v, (float, np.floating)) and float(v).is_integer()).to_numpy(dtype=bool)
-    if whole.any():
-        text[whole] = series[whole].map(lambda v: str(int(v)))
-    out = text.to_numpy(dtype=object)
-    out[missing | (text == "").to_numpy()] = None
-    return out
+    """Level names as stripped text (a whole number written without '.0'), None where not measured.
+    Each distinct value is converted once (pandas.factorize), so a long column costs one hashing pass."""
+    codes, distinct = pd.factorize(pd.Series(np.asarray(col, dtype=object)), use_na_sentinel=True)
+    names = [_level_name(v) for v in distinct]
+    return np.array(names + [None], dtype=object)[codes]
+
+
+def _level_name(value) -> str | None:
+    if isinstance(value, (float, np.floating)) and float(value).is_integer():
+        return str(int(value))
+    text = str(value).strip()
+    return text or None
 
 
 def _range(x: np.ndarray) -> dict | None:

@@ -32,12 +32,11 @@ class PairScore:
     p_value: float
 
 
-def pair_histograms(row_code, col_code, shape, g, h, w):
-    """2-D histograms of gradient, hessian and weight for patients measured on both features."""
-    ok = (row_code >= 0) & (col_code >= 0)
-    flat = row_code[ok] * shape[1] + col_code[ok]
+def pair_histograms(row_code, col_code, shape, values):
+    """2-D histograms (one per array in `values`) over patients measured on both features."""
     n = shape[0] * shape[1]
-    return tuple(np.bincount(flat, weights=v[ok], minlength=n).reshape(shape) for v in (g, h, w))
+    flat = np.where((row_code >= 0) & (col_code >= 0), row_code * shape[1] + col_code, n)
+    return tuple(np.bincount(flat, weights=v, minlength=n + 1)[:n].reshape(shape) for v in values)
 
 
 def interaction_statistic(G2, H2, a: int, b: int) -> float:
@@ -65,12 +64,13 @@ def _groups(weight: np.ndarray, most: int) -> np.ndarray:
 
 
 def _merge(grid: np.ndarray, groups) -> np.ndarray:
+    """Sum the cells of `grid` within row groups and column groups (a matrix product with 0/1 maps)."""
     rows, cols = groups
-    out = np.zeros((rows.max() + 1, grid.shape[1]))
-    np.add.at(out, rows, grid)
-    merged = np.zeros((out.shape[0], cols.max() + 1))
-    np.add.at(merged.T, cols, out.T)
-    return merged
+    row_map = np.zeros((rows.max() + 1, len(rows)))
+    row_map[rows, np.arange(len(rows))] = 1.0
+    col_map = np.zeros((len(cols), cols.max() + 1))
+    col_map[np.arange(len(cols)), cols] = 1.0
+    return row_map @ grid @ col_map
 
 
 def rank_pairs(
@@ -94,17 +94,17 @@ def rank_pairs(
     other = ~half
     codes_a = [c[half] for c in coarse_codes]
     codes_b = [c[other] for c in coarse_codes]
-    ga, ha, wa = g[half], h[half], w[half]
-    gb, hb, wb = g[other], h[other], w[other]
+    values_a = (g[half], h[half], w[half])
+    values_b = (g[other], h[other], w[other])
     for j in range(p):
         for k in range(j + 1, p):
             shape = (shapes[j], shapes[k])
             if shape[0] < 2 or shape[1] < 2:
                 continue
-            G2, H2, C2 = pair_histograms(coarse_codes[j], coarse_codes[k], shape, g, h, w)
-            gain, _, _ = best_quadrant_cut(G2, H2, C2, l2, min_leaf)
-            Ga, Ha, Ca = pair_histograms(codes_a[j], codes_a[k], shape, ga, ha, wa)
-            Gb, Hb, Cb = pair_histograms(codes_b[j], codes_b[k], shape, gb, hb, wb)
+            Ga, Ha, Ca = pair_histograms(codes_a[j], codes_a[k], shape, values_a)
+            Gb, Hb, Cb = pair_histograms(codes_b[j], codes_b[k], shape, values_b)
+            C2 = Ca + Cb
+            gain, _, _ = best_quadrant_cut(Ga + Gb, Ha + Hb, C2, l2, min_leaf)  # the two halves make all rows
             statistic = 0.0
             groups = (_groups(C2.sum(axis=1), test_bins), _groups(C2.sum(axis=0), test_bins))
             half_a = [_merge(m, groups) for m in (Ga, Ha, Ca)]
