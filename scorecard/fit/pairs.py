@@ -88,8 +88,11 @@ def rank_pairs(
 
     `coarse_codes[j]` holds each patient's coarse bin of feature j (-1: not measured); `g`, `h` are the
     gradient and hessian of the log-loss at the one-feature model; `half` marks the rows on which the cut is
-    chosen for the held-out statistic (the others judge it)."""
+    chosen for the held-out statistic (the others judge it). With unequal weights the statistic is taken at
+    Kish's effective sample size, (sum w)^2 / sum w^2 (Kish 1965, common practice for weighted samples), so
+    multiplying every weight by a constant or by an arbitrary column cannot manufacture significance."""
     scores = []
+    effective = float(np.sum(w) / np.sum(w * w)) if np.sum(w * w) > 0 else 1.0
     p = len(coarse_codes)
     other = ~half
     codes_a = [c[half] for c in coarse_codes]
@@ -113,6 +116,7 @@ def rank_pairs(
                 _, a, b = best_quadrant_cut(*chooser, l2, min_leaf)
                 if a >= 0:
                     statistic += interaction_statistic(judge[0], judge[1], a, b)
+            statistic *= effective
             scores.append(PairScore(j, k, gain, statistic, float(chi2.sf(statistic, 2))))
     scores.sort(key=lambda s: (-s.gain, s.first, s.second))
     return scores

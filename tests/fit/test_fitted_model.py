@@ -98,3 +98,12 @@ def test_sample_weights_act_like_repeated_rows():
     # without held-out rows there is no held-out figure: the document says null rather than NaN
     doc = model_from_dict(weighted.to_model().to_dict())
     assert doc.provenance["validation"]["held_out_log_loss"] == [None]
+
+
+def test_large_weights_do_not_manufacture_pairs():
+    # weights that are all 50 carry no more information than weights of 1 (Kish's effective sample size)
+    cohort = generate_cohort(5000, seed=13, interaction=False)
+    est = AdditiveRiskClassifier(random_state=1, **QUICK).fit(cohort[FEATURES], cohort[OUTCOME], sample_weight=np.full(5000, 50.0))
+    assert est.pairs_ == []
+    # without the correction every statistic would be 50 times larger and several p-values near 0
+    assert min(p for *_, p in est.pair_ranking_) > 1e-3
