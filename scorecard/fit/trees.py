@@ -37,17 +37,22 @@ def _best_cut(cg, ch, cc, start, stop, l2, min_leaf):
 
 
 def _grow(order, G, H, C, leaves, l2, min_leaf):
-    """Best tree of up to `leaves` (2 or 3) contiguous leaves along `order`; returns (gain, cut positions)."""
-    cg = np.zeros(len(order) + 1)
-    ch = np.zeros(len(order) + 1)
-    cc = np.zeros(len(order) + 1)
-    G.take(order).cumsum(out=cg[1:])
-    H.take(order).cumsum(out=ch[1:])
-    C.take(order).cumsum(out=cc[1:])
-    n = len(order)
+    """Best tree of up to `leaves` (2 or 3) contiguous leaves along `order` (None: the bins' own order).
+
+    Returns (gain, cut positions, prefix sums of G and H along the order)."""
+    n = len(G)
+    cg, ch, cc = np.zeros(n + 1), np.zeros(n + 1), np.zeros(n + 1)
+    if order is None:
+        G.cumsum(out=cg[1:])
+        H.cumsum(out=ch[1:])
+        C.cumsum(out=cc[1:])
+    else:
+        G.take(order).cumsum(out=cg[1:])
+        H.take(order).cumsum(out=ch[1:])
+        C.take(order).cumsum(out=cc[1:])
     gain, cut = _best_cut(cg, ch, cc, 0, n, l2, min_leaf)
     if cut < 0:
-        return 0.0, []
+        return 0.0, [], cg, ch
     cuts = [cut]
     if leaves >= 3:
         left = _best_cut(cg, ch, cc, 0, cut, l2, min_leaf)
@@ -56,16 +61,7 @@ def _grow(order, G, H, C, leaves, l2, min_leaf):
         if extra[1] >= 0:
             gain += extra[0]
             cuts = sorted(cuts + [extra[1]])
-    return gain, cuts
-
-
-_IDENTITY: dict[int, np.ndarray] = {}
-
-
-def _identity(n: int) -> np.ndarray:
-    if n not in _IDENTITY:
-        _IDENTITY[n] = np.arange(n)
-    return _IDENTITY[n]
+    return gain, cuts, cg, ch
 
 
 def step_tree(G: np.ndarray, H: np.ndarray, C: np.ndarray, ordered: bool, leaves: int, l2: float, min_leaf: float):
@@ -79,25 +75,28 @@ def step_tree(G: np.ndarray, H: np.ndarray, C: np.ndarray, ordered: bool, leaves
     """
     n = len(G)
     if ordered:
-        orders = [_identity(n)]
+        orders = [None]
         if C[n - 1] > 0:
             orders.append(np.concatenate(([n - 1], np.arange(n - 1))))
     else:
         orders = [np.argsort(G / (H + l2), kind="stable")]
-    best = (0.0, [], None)
+    best = None
     for order in orders:
-        gain, cuts = _grow(order, G, H, C, leaves, l2, min_leaf)
-        if gain > best[0]:
-            best = (gain, cuts, order)
-    gain, cuts, order = best
-    if not cuts:
+        grown = _grow(order, G, H, C, leaves, l2, min_leaf)
+        if grown[1] and (best is None or grown[0] > best[0][0]):
+            best = (grown, order)
+    if best is None:
         return None
-    leaf_of_position = np.searchsorted(np.asarray(cuts), np.arange(n), side="right")
-    leaf = np.empty(n, dtype=np.intp)
-    leaf[order] = leaf_of_position
-    g_leaf = np.bincount(leaf, weights=G, minlength=len(cuts) + 1)
-    h_leaf = np.bincount(leaf, weights=H, minlength=len(cuts) + 1)
-    return (-g_leaf / (h_leaf + l2))[leaf]
+    (gain, cuts, cg, ch), order = best
+    bounds = [0, *cuts, n]
+    along = np.empty(n)
+    for a, b in zip(bounds[:-1], bounds[1:]):
+        along[a:b] = -(cg[b] - cg[a]) / (ch[b] - ch[a] + l2)
+    if order is None:
+        return along
+    values = np.empty(n)
+    values[order] = along
+    return values
 
 
 def quadrant_sums(A: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray, np.ndarray, float]:
