@@ -154,7 +154,7 @@ def _pairs_option(text: str):
 @click.option("--max-pairs", default=3, show_default=True, type=click.IntRange(0, 20), help="Most pairs 'auto' may keep.")
 @click.option("--bags", default=8, show_default=True, type=click.IntRange(1, 100), help="Bags (repeat fits on different held-out splits); shapes are their mean, spread bands their standard deviation.")
 @click.option("--seed", default=0, show_default=True, type=click.IntRange(0), help="Seed of the bags' splits; the same seed and data give the same bytes.")
-@click.option("--learning-rate", default=0.04, show_default=True, type=click.FloatRange(0, 1, min_open=True), help="Scale of each boosting step.")
+@click.option("--learning-rate", default=0.1, show_default=True, type=click.FloatRange(0, 1, min_open=True), help="Scale of each boosting step.")
 @click.option("--min-leaf", default=5, show_default=True, type=click.FloatRange(1), help="Fewest patients in any leaf of any step (raise it for small cohorts).")
 @click.option("--max-bins", default=256, show_default=True, type=click.IntRange(2, 1024), help="Most bins per continuous feature.")
 @click.option("--name", default=None, help="Model name (default: the data file's name).")
