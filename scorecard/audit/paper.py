@@ -124,8 +124,20 @@ def parse_cohort(sheet: dict, frame: pd.DataFrame) -> dict[str, np.ndarray]:
         elif kind == "flag":
             values[name] = flag_column(frame, name)
         else:
-            values[name] = category_column(frame, name)
+            values[name] = category_column(frame, name, _printed_levels(sheet, name))
     return values
+
+
+def _printed_levels(sheet: dict, feature: str) -> list[str]:
+    """Every level printed for a categorical feature (a level may be spelled like a not-measured token)."""
+    levels: list[str] = []
+    for term in sheet["terms"]:
+        if term["kind"] == "pair":
+            rows = [row for axis in term["axes"] if axis["feature"] == feature for row in axis["rows"]]
+        else:
+            rows = term["rows"] if term["feature"] == feature else []
+        levels.extend(level for row in rows for level in row.get("levels", ()))
+    return levels
 
 
 # -- one block per kind ------------------------------------------------------------------------------
