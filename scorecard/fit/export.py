@@ -3,8 +3,9 @@
 The document holds exactly what the estimator predicts with: the same bin edges (midpoints between
 adjacent distinct training values, or quantile cuts), the bag-mean scores, the bag spread per bin, the
 training counts (sums of sample weights) per bin and the not-measured score. A feature with no missing
-value in training gets the policy "average" (not measured adds 0, the population mean) instead of a score
-learned from nobody.
+value in training gets the policy "error": a not-measured score learned from nobody is no score, so the
+document refuses such a patient and the printed sheet says the measurement is needed, rather than
+printing a "not measured" row nobody was ever scored on.
 """
 
 from __future__ import annotations
@@ -68,7 +69,7 @@ def model_document(
             kind=bins.kind,
             unit=str(units.get(column, "")),
             decimals=int(decimals.get(column, est.decimals_[j])),
-            missing="score" if measured_missing else "average",
+            missing="score" if measured_missing else "error",
         )
         term = Term(
             kind=bins.kind,

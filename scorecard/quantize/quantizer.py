@@ -346,8 +346,15 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
         if np.ptp(pts) == 0:
             offset += scale * float(pts[0])  # a constant term moves into the offset
             effect = float(np.ptp(curve.scores))
-            dropped.append({"name": curve.name, "reason":
-                            f"its whole effect ({effect:.2f} log-odds) rounds to 0 points at {scale:.3g} log-odds per point"})
+            if effect == 0:
+                reason = "it has no effect in the model (every score is 0)"
+            elif lay.n_rows <= 1:
+                # the row search gave it a single row: the sheet meets the bound without it
+                reason = (f"not needed to meet the accuracy bound: its whole effect ({effect:.2f} log-odds, about "
+                          f"{effect / scale:.1f} points) is left to the other terms")
+            else:
+                reason = f"its whole effect ({effect:.2f} log-odds) rounds to 0 points at {scale:.3g} log-odds per point"
+            dropped.append({"name": curve.name, "reason": reason})
             pts = np.zeros_like(pts)
         low, high = curve.score_range()
         sheet_value = scale * pts[lay.row_of_piece]

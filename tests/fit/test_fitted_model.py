@@ -63,7 +63,7 @@ def test_document_records_ranges_spread_and_provenance(pair_fit, pair_cohort):
     assert sodium.training_range["p99"] == np.quantile(pair_cohort["sodium"], 0.99)
     assert model.feature("prior_delirium").kind == "flag" and model.feature("residence").kind == "categorical"
     assert model.feature("albumin").missing == "score" and model.term("albumin").missing_score is not None
-    assert model.feature("age").missing == "average"
+    assert model.feature("age").missing == "error"  # never missing in training: refused, not guessed
     age = model.term("age")
     assert sum(age.counts) == len(pair_cohort)
     assert len(age.spread) == len(age.scores) and max(age.spread) > 0
