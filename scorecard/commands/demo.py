@@ -58,9 +58,11 @@ def write_true_model(folder: Path, interaction: bool) -> Path:
 
 CARE_PROCESS_FLAG = "geriatric_review"
 CARE_PROCESS_REASON = (
-    "care-process marker: it looks protective only because of how care was given; "
-    "it must not lower anyone's points"
+    "geriatric_review is a care-process marker: it looks protective only because of how care was given, and "
+    "must not lower anyone's points. Hours to surgery beyond 96 and more than 12 regular medicines rest on "
+    "fewer than 30 patients each (review flags): held at their last well-supported value"
 )
+SPARSE_TAIL_CLIPS = ("hours_to_surgery=:96", "medicines=:12")
 
 
 def fit_model(ctx: click.Context, folder: Path, cohort: Path) -> Path:
@@ -94,11 +96,12 @@ def review_model(ctx: click.Context, folder: Path, fitted: Path, cohort: Path) -
 
 
 def edit_model(ctx: click.Context, folder: Path, declared: Path, cohort: Path) -> Path:
-    """Step 5: remove the care-process effect without retraining, and record why and what it cost."""
+    """Step 5: act on the review's flags without retraining (remove the care-process effect, hold the
+    sparse tails), and record why and what it cost."""
     from scorecard.commands.edit import command as edit
 
     edited = folder / "edited.model.json"
-    ctx.invoke(edit, model_path=str(declared), zeros=(CARE_PROCESS_FLAG,), reason=CARE_PROCESS_REASON,
+    ctx.invoke(edit, model_path=str(declared), zeros=(CARE_PROCESS_FLAG,), clips=SPARSE_TAIL_CLIPS, reason=CARE_PROCESS_REASON,
                editor="scorecard demo", cohort_path=str(cohort), outcome=OUTCOME, output=str(edited))
     return edited
 
@@ -134,7 +137,7 @@ def audit_sheet(ctx: click.Context, folder: Path, sheet: Path, pdf: Path, model:
 @click.command()
 @click.option("-o", "--output", "output", required=True, metavar="DIR",
               help="Folder to write into; created if absent. An existing non-empty folder needs --force.")
-@click.option("--rows", default=20000, show_default=True, type=click.IntRange(100, MAX_ROWS),
+@click.option("--rows", default=40000, show_default=True, type=click.IntRange(100, MAX_ROWS),
               help="Number of invented patients to fit on (the audit cohort is half as many, drawn separately).")
 @click.option("--seed", default=0, show_default=True, type=click.IntRange(min=0),
               help="Random seed; the same rows and seed always give the same cohorts, byte for byte.")
@@ -163,7 +166,7 @@ def command(ctx: click.Context, output: str, rows: int, seed: int, without_pair:
       fitted.model.json              `scorecard fit` on cohort.csv
       declared.model.json            the review flag declared a care-process marker (`scorecard edit`)
       review.pdf, review-previews/   every shape with its band and density, and the flags
-      edited.model.json              the care-process effect removed, with its cost recorded
+      edited.model.json              the care-process effect removed and sparse tails held, with the cost
       sheet.json                     integer point tables under the accuracy bound (`scorecard quantize`)
       sheet.pdf, sheet-previews/     the print-ready ward sheet and nomogram (`scorecard render`)
       check-report.pdf/.json         agreement of paper and software on the audit cohort (`scorecard check`)
