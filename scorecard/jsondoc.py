@@ -12,8 +12,12 @@ import json
 import math
 import os
 import tempfile
+from functools import lru_cache
+from importlib import resources
 from pathlib import Path
 from typing import Any
+
+import jsonschema
 
 from scorecard.errors import UserError
 
@@ -122,3 +126,35 @@ def read_json_file(path: str | os.PathLike, what: str, allow_nonfinite: bool = F
 
 def _refuse_constant(name: str) -> Any:
     raise ValueError(f"{name} is not allowed in a document")
+
+
+# -- schema validation shared by the model and sheet documents -------------------------------------------
+
+
+@lru_cache(maxsize=None)
+def schema_validator(package: str, resource: str) -> jsonschema.protocols.Validator:
+    """The validator of a JSON Schema shipped inside `package` (read once)."""
+    schema = json.loads(resources.files(package).joinpath(resource).read_text("utf-8"))
+    return jsonschema.validators.validator_for(schema)(schema)
+
+
+def field_path(parts) -> str:
+    """`terms[3].edges[0]` from jsonschema's path parts."""
+    out = ""
+    for p in parts:
+        out += f"[{p}]" if isinstance(p, int) else (f".{p}" if out else str(p))
+    return out or "(document)"
+
+
+def schema_error_line(err: jsonschema.ValidationError) -> str:
+    """One line naming the field and what is wrong with it."""
+    # oneOf / anyOf errors hide the useful message in their context; follow the deepest path
+    while err.context:
+        err = max(err.context, key=lambda e: (len(e.absolute_path), e.validator != "const"))
+    where = field_path(err.absolute_path)
+    if err.validator == "const":
+        return f"{where}: must be {json.dumps(err.validator_value)}, found {json.dumps(err.instance)}"
+    if err.validator == "enum":
+        allowed = ", ".join(json.dumps(v) for v in err.validator_value)
+        return f"{where}: {json.dumps(err.instance, ensure_ascii=False)} is not one of {allowed}"
+    return f"{where}: {err.message}"

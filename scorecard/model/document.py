@@ -8,18 +8,15 @@ term uses them). Every failure is one `UserError` line naming the file and the f
 from __future__ import annotations
 
 import copy
-import json
 import math
 from dataclasses import dataclass, field
-from functools import lru_cache
-from importlib import resources
 from pathlib import Path
 from typing import Any
 
 import jsonschema
 
 from scorecard.errors import UserError
-from scorecard.jsondoc import atomic_write_text, fingerprint, normalise, pretty_text, read_json_file
+from scorecard.jsondoc import field_path, schema_error_line, schema_validator, atomic_write_text, fingerprint, normalise, pretty_text, read_json_file
 
 FORMAT_VERSION = 1
 DOCUMENT_TAG = "scorecard-model"
@@ -129,33 +126,8 @@ def _drop_none(d: dict, keep: tuple[str, ...] = ()) -> dict:
 # -- validation ------------------------------------------------------------------------------------
 
 
-@lru_cache(maxsize=1)
 def _validator() -> jsonschema.protocols.Validator:
-    text = resources.files("scorecard.model").joinpath("schemas/model.schema.json").read_text("utf-8")
-    schema = json.loads(text)
-    cls = jsonschema.validators.validator_for(schema)
-    return cls(schema)
-
-
-def _path(parts) -> str:
-    out = ""
-    for p in parts:
-        out += f"[{p}]" if isinstance(p, int) else (f".{p}" if out else str(p))
-    return out or "(document)"
-
-
-def _schema_error_text(err: jsonschema.ValidationError) -> str:
-    where = _path(err.absolute_path)
-    if err.validator == "required":
-        return f"{where}: {err.message}"
-    if err.validator == "additionalProperties":
-        return f"{where}: {err.message}"
-    if err.validator == "const":
-        return f"{where}: must be {json.dumps(err.validator_value)}, found {json.dumps(err.instance)}"
-    if err.validator == "enum":
-        allowed = ", ".join(json.dumps(v) for v in err.validator_value)
-        return f"{where}: {json.dumps(err.instance)} is not one of {allowed}"
-    return f"{where}: {err.message}"
+    return schema_validator("scorecard.model", "schemas/model.schema.json")
 
 
 def _best_error(errors: list[jsonschema.ValidationError]) -> jsonschema.ValidationError:
@@ -173,7 +145,7 @@ def validate_model_dict(doc: Any, source: str = "model") -> None:
         )
     errors = list(_validator().iter_errors(doc))
     if errors:
-        raise UserError(f"{source}: {_schema_error_text(_best_error(errors))}")
+        raise UserError(f"{source}: {schema_error_line(_best_error(errors))}")
     problem = _first_nonfinite(doc, []) or _check_structure(doc)
     if problem:
         raise UserError(f"{source}: {problem}")
@@ -182,7 +154,7 @@ def validate_model_dict(doc: Any, source: str = "model") -> None:
 def _first_nonfinite(value: Any, parts: list) -> str | None:
     """Path of the first NaN or infinite number anywhere in the document (JSON reads 1e999 as inf)."""
     if isinstance(value, float) and not math.isfinite(value):
-        return f"{_path(parts)}: must be a finite number, found {value}"
+        return f"{field_path(parts)}: must be a finite number, found {value}"
     if isinstance(value, dict):
         for k in sorted(value):
             found = _first_nonfinite(value[k], parts + [k])

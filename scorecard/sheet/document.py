@@ -10,17 +10,14 @@ fingerprint). Every failure is one `UserError` line naming the file and the fiel
 from __future__ import annotations
 
 import copy
-import json
 import math
-from functools import lru_cache
-from importlib import resources
 from pathlib import Path
 from typing import Any
 
 import jsonschema
 
 from scorecard.errors import UserError
-from scorecard.jsondoc import atomic_write_text, fingerprint, normalise, pretty_text, read_json_file
+from scorecard.jsondoc import schema_error_line, schema_validator, atomic_write_text, fingerprint, normalise, pretty_text, read_json_file
 from scorecard.sheet.printed import is_on_grid, range_text, risk_text, units
 
 FORMAT_VERSION = 1
@@ -38,37 +35,8 @@ def short_fingerprint(doc: dict) -> str:
     return (doc.get("fingerprint") or sheet_fingerprint(doc))[:SHORT_FINGERPRINT_LENGTH]
 
 
-@lru_cache(maxsize=1)
 def _validator() -> jsonschema.protocols.Validator:
-    text = resources.files("scorecard.sheet").joinpath("schemas/sheet.schema.json").read_text("utf-8")
-    schema = json.loads(text)
-    cls = jsonschema.validators.validator_for(schema)
-    return cls(schema)
-
-
-def _path(parts) -> str:
-    out = ""
-    for p in parts:
-        out += f"[{p}]" if isinstance(p, int) else (f".{p}" if out else str(p))
-    return out or "(document)"
-
-
-def _deepest(err: jsonschema.ValidationError) -> jsonschema.ValidationError:
-    # oneOf / allOf errors hide the useful message in their context; follow the deepest path
-    while err.context:
-        err = max(err.context, key=lambda e: (len(e.absolute_path), e.validator != "const"))
-    return err
-
-
-def _schema_error_text(err: jsonschema.ValidationError) -> str:
-    err = _deepest(err)
-    where = _path(err.absolute_path)
-    if err.validator == "const":
-        return f"{where}: must be {json.dumps(err.validator_value)}, found {json.dumps(err.instance)}"
-    if err.validator == "enum":
-        allowed = ", ".join(json.dumps(v) for v in err.validator_value)
-        return f"{where}: {json.dumps(err.instance, ensure_ascii=False)} is not one of {allowed}"
-    return f"{where}: {err.message}"
+    return schema_validator("scorecard.sheet", "schemas/sheet.schema.json")
 
 
 def validate_sheet_dict(doc: Any, source: str = "sheet") -> None:
@@ -86,7 +54,7 @@ def validate_sheet_dict(doc: Any, source: str = "sheet") -> None:
         )
     errors = list(_validator().iter_errors(doc))
     if errors:
-        raise UserError(f"{source}: {_schema_error_text(jsonschema.exceptions.best_match(errors))}")
+        raise UserError(f"{source}: {schema_error_line(jsonschema.exceptions.best_match(errors))}")
     problem = _check_structure(doc)
     if problem:
         raise UserError(f"{source}: {problem}")
