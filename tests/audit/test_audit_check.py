@@ -20,9 +20,9 @@ from scorecard.audit.paper import score_cohort, sheet_logodds
 from scorecard.cli import main
 from scorecard.demo import cohort_csv_text, generate_cohort, true_model
 from scorecard.jsondoc import pretty_text
-from scorecard.model import model_from_dict, predict_logodds
+from scorecard.model import predict_logodds
 from scorecard.quantize import Bound, quantize_model
-from scorecard.sheet import CAUTIONS, sheet_fingerprint, short_fingerprint
+from scorecard.sheet import sheet_fingerprint, short_fingerprint
 from tests.audit.handmade import model_dict, sheet_dict
 
 

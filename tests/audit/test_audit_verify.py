@@ -140,7 +140,6 @@ def test_every_changed_number_is_caught(compact, tmp_path):
     layout = load_layout(str(tmp_path / "tables-only.toml"))
     clean = verify_pages(compact, pdf_pages(render_pdf(compact, layout, short_fingerprint(compact)), tmp_path))
     assert clean.mismatches == []  # no false alarm in this layout either
-    short = short_fingerprint(compact)
     groups = numeric_cells(compact)
     assert sum(len(c) for c in groups.values()) > 40
     # one doctored print per round, each round changing one cell in every table (so each change is reported

@@ -1,7 +1,6 @@
 """`scorecard fit` through click's test runner: a good fit, progress on stderr, and one-line errors (exit 2)
 that leave nothing written."""
 
-import json
 
 import numpy as np
 import pandas as pd

@@ -1,7 +1,6 @@
 """The fitted model on small invented demo cohorts: shapes, pairs, purification, centring, export, determinism."""
 
 import numpy as np
-import pytest
 
 from fit_settings import QUICK
 from scorecard.demo import FEATURES, OUTCOME, PAIR_TERM, generate_cohort, true_shape

@@ -1,6 +1,5 @@
 """`scorecard predict` through click's test runner: columns, contributions, one-line errors with exit 2."""
 
-import io
 
 import pandas as pd
 import pytest
