@@ -208,9 +208,20 @@ class ConversionCurve(Flowable):
         self.sheet, self.styles = sheet, styles
         self.drawing = None
 
+    def preferred_height(self, avail_width: float) -> float:
+        return min(avail_width * 0.45, max(self.styles.body_pt * 16, avail_width * 0.3)) + self.styles.min_pt * 1.5
+
+    def least_height(self, avail_width: float) -> float:
+        """The shortest the curve may be drawn: a plot at least 9 lines of body type tall (type never shrinks)."""
+        s = self.styles.min_pt
+        legend_h = len(self._legend_rows(self.sheet.get("bands") or [], avail_width, s)) * s * 1.5
+        return s * 3.4 + legend_h + s * 2.4 + self.styles.body_pt * 9
+
     def wrap(self, avail_width, avail_height):
+        # the plot gives up height (never type) to finish the page rather than leave a page holding little else
         self.width = avail_width
-        self.height = min(avail_width * 0.45, max(self.styles.body_pt * 16, avail_width * 0.3)) + self.styles.min_pt * 1.5
+        preferred = self.preferred_height(avail_width)
+        self.height = preferred if avail_height >= preferred else max(self.least_height(avail_width), avail_height)
         return self.width, self.height
 
     def split(self, avail_width, avail_height):
@@ -303,8 +314,34 @@ class ConversionCurve(Flowable):
         return d
 
 
+class _TitledCurve(Flowable):
+    """The curve's title and the curve, kept together; the curve shortens to fit the space left (down to its
+    least height), so the curve does not move to a page of its own when a shorter plot would finish this one."""
+
+    def __init__(self, title: Paragraph, curve: ConversionCurve, gap: float):
+        super().__init__()
+        self.title, self.curve, self.gap = title, curve, gap
+        self.tracked_as = "the conversion curve"
+
+    def wrap(self, avail_width, avail_height):
+        _, self.title_h = self.title.wrap(avail_width, avail_height)
+        _, curve_h = self.curve.wrap(avail_width, avail_height - self.title_h - self.gap - 1)  # 1 pt spare for rounding
+        self.width, self.height = avail_width, self.title_h + self.gap + curve_h
+        return self.width, self.height
+
+    def split(self, avail_width, avail_height):
+        return []
+
+    def draw(self):
+        self.title.drawOn(self.canv, 0, self.height - self.title_h)
+        self.curve.drawOn(self.canv, 0, 0)
+
+
 def conversion_curve_block(sheet: dict, styles: Styles) -> list[Flowable]:
     title = Paragraph("The same conversion as a curve (read the figures from the table)", styles.section)
     curve = ConversionCurve(sheet, styles)
     curve.tracked_as = "the conversion curve"
-    return [KeepTogether([title, Spacer(1, 3), curve]), Spacer(1, styles.body_pt)]
+    block = _TitledCurve(title, curve, 3)
+    # space as spaceBefore/After (not Spacers): a frame drops them at its edges, so no page holds a lone spacer
+    block.spaceBefore, block.spaceAfter = styles.body_pt * 0.6, styles.body_pt
+    return [block]

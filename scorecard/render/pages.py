@@ -7,7 +7,7 @@ page template (number of columns) each section uses and reads back where things 
 from __future__ import annotations
 
 import io
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 
 from reportlab.lib import colors
 from reportlab.pdfgen.canvas import Canvas
@@ -225,7 +225,8 @@ def _story(sheet: dict, layout: Layout, styles: Styles, short_fingerprint: str, 
             elif part == "bands":
                 story += bands_block(sheet, styles, width)
             elif part == "cautions":
-                story.append(cautions_block(sheet, styles, short_fingerprint, width, layout.compact))
+                story.append(cautions_block(sheet, styles, short_fingerprint, width, layout.compact,
+                                            run_together=layout.compact or section.columns > 1))
             elif part == "nomogram":
                 story += nomogram_block(sheet, styles, signed)
     return story
@@ -268,6 +269,18 @@ def render_pdf(sheet: dict, layout: Layout, short_fingerprint: str) -> bytes:
     UserError when the layout's page limits cannot hold the sheet, naming what does not fit.
     """
     styles = styles_for(layout)
+    data, placement = _render_sides(sheet, layout, styles, short_fingerprint)
+    moved = _cautions_moved_on(layout, placement)
+    if moved is not None:
+        # the cautions box landed on a page with nothing else: print it in the next section instead
+        data2, placement2 = _render_sides(sheet, moved, styles, short_fingerprint)
+        if placement2.pages <= placement.pages and _cautions_moved_on(moved, placement2) is None:
+            layout, data, placement = moved, data2, placement2
+    _check_limits(layout, placement)
+    return data
+
+
+def _render_sides(sheet: dict, layout: Layout, styles: Styles, short_fingerprint: str) -> tuple[bytes, _Placement]:
     blank_before: set[int] = set()
     for _ in range(len(layout.sections) + 1):
         data, placement = _build(sheet, layout, styles, short_fingerprint, blank_before)
@@ -280,8 +293,30 @@ def render_pdf(sheet: dict, layout: Layout, short_fingerprint: str) -> bytes:
         if not wrong - blank_before:
             break
         blank_before |= wrong
-    _check_limits(layout, placement)
-    return data
+    return data, placement
+
+
+def _cautions_moved_on(layout: Layout, placement: _Placement) -> Layout | None:
+    """When the cautions box is the only block on its page and a later section follows, the layout with the box
+    moved into that section (before its curve, or first); None when the box shares its page or cannot move.
+    A page holding the cautions alone is easily skipped, and wastes paper."""
+    pages = {page for what, page in placement.placed if what == "the cautions"}
+    if len(pages) != 1:
+        return None
+    page = pages.pop()
+    if any(what != "the cautions" for what, p in placement.placed if p == page):
+        return None
+    index = next((i for i, s in enumerate(layout.sections) if "cautions" in s.parts), None)
+    if index is None or index + 1 >= len(layout.sections) or layout.sections[index].max_pages:
+        return None
+    here, there = layout.sections[index], layout.sections[index + 1]
+    parts = list(there.parts)
+    at = parts.index("conversion_curve") if "conversion_curve" in parts else 0
+    parts.insert(at, "cautions")
+    sections = list(layout.sections)
+    sections[index] = replace(here, parts=tuple(p for p in here.parts if p != "cautions"))
+    sections[index + 1] = replace(there, parts=tuple(parts))
+    return replace(layout, sections=tuple(sections))
 
 
 def _check_limits(layout: Layout, placement: _Placement) -> None:

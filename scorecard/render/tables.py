@@ -220,22 +220,35 @@ def ranges_block(sheet: dict, styles: Styles, training_ranges: list[str], compac
     return _paragraphs(lines, styles.body, "the range rules", "Outside the printed ranges", styles, compact)
 
 
-def cautions_block(sheet: dict, styles: Styles, short_fingerprint: str, width: float, compact: bool = False) -> Flowable:
-    """The cautions in full inside a box, with a place to confirm the fingerprint was checked."""
+def _checked_by_line(width: float, size: float) -> str:
+    """'Approved version checked by: ____ date: ____' with blanks as long as fit on one line (at most 20 and 12)."""
+    words = "Approved version checked by:  date: "
+    room = width - text_width(words, size) - size
+    n = max(6, min(32, int(room // text_width("_", size))))
+    name, date = max(4, min(20, n * 5 // 8)), max(4, min(12, n - n * 5 // 8))
+    return f"Approved version checked by: {'_' * name}  date: {'_' * date}"
+
+
+def cautions_block(sheet: dict, styles: Styles, short_fingerprint: str, width: float, compact: bool = False,
+                   run_together: bool | None = None) -> Flowable:
+    """The cautions in full inside a box, with a place to confirm the fingerprint was checked (not on a card).
+    `run_together` (default: `compact`) prints the items as one paragraph, which in a narrow column takes
+    about half the height of one item a line."""
     items = [markup(c) for c in sheet["cautions"]] + [
         f"This sheet's fingerprint, printed on every page: <b>{markup(short_fingerprint)}</b>."]
     lines = [Paragraph("Before you use this sheet", styles.section)]
-    if compact:
+    run_together = compact if run_together is None else run_together
+    if run_together:
         lines.append(Paragraph(" ".join(f"\u2022 {c}" for c in items), styles.body))
     else:
         lines += [Paragraph(f"\u2022 {c}", styles.body) for c in items]
     if not compact:  # a card is checked against the ward sheet it was cut from
-        lines.append(Paragraph("Approved version checked by: ____________________  date: ____________", styles.body))
+        lines.append(Paragraph(_checked_by_line(width - 8, styles.body_pt), styles.body))
     table = Table([[line] for line in lines], colWidths=[width], hAlign="LEFT")
     table.setStyle(TableStyle([
         ("BOX", (0, 0), (-1, -1), 1.0, colors.black),
         ("LEFTPADDING", (0, 0), (-1, -1), 4), ("RIGHTPADDING", (0, 0), (-1, -1), 4),
         ("TOPPADDING", (0, 0), (-1, -1), 1.5), ("BOTTOMPADDING", (0, 0), (-1, -1), 1.5),
-        ("TOPPADDING", (0, -1), (-1, -1), styles.body_pt * (0.5 if compact else 0.9)),
+        ("TOPPADDING", (0, -1), (-1, -1), styles.body_pt * (0.5 if run_together else 0.9)),
     ]))
-    return Tracked([Spacer(1, styles.body_pt * (0.2 if compact else 0.5)), table], what="the cautions")
+    return Tracked([Spacer(1, styles.body_pt * (0.2 if run_together else 0.5)), table], what="the cautions")

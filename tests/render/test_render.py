@@ -396,3 +396,16 @@ def test_the_quantized_demo_sheet_fits_the_front_page_at_nine_point_and_reads_ba
     out.write_bytes(pdf)
     result = CliRunner().invoke(main, ["verify", str(out), "--sheet", str(DEMO_SHEET)])
     assert result.exit_code == 0, result.output
+
+
+@pytest.mark.parametrize("layout_name", ["ward-a4", "ward-letter", "large-print-a4"])
+@pytest.mark.parametrize("which", ["twelve", "demo"])
+def test_the_cautions_box_shares_its_page_and_no_page_holds_it_alone(sheet, layout_name, which):
+    from scorecard.sheet import load_sheet
+
+    doc = sheet if which == "twelve" else load_sheet(DEMO_SHEET)
+    pages = _pages(_render(doc, layout_name))
+    with_box = [p[4] for p in pages if "Before you use this sheet" in p[4]]
+    assert len(with_box) == 1
+    # the box sits with the total box or the conversion, never on a page of its own (a nurse skips such a page)
+    assert "TOTAL POINTS" in with_box[0] or "Total points \u2192 risk" in with_box[0] or "Risk bands" in with_box[0]
