@@ -204,6 +204,21 @@ def instructions_block(sheet: dict, styles: Styles, compact: bool = False) -> Fl
     return _paragraphs(steps, styles.body, "the scoring steps", "How to score", styles, compact)
 
 
+def dropped_label(sheet: dict, dropped: dict) -> str:
+    """What a reader knows a left-off term by: its own `label` when the entry carries one, else the label the
+    sheet prints for that feature elsewhere (a pair grid's axis), else its name with '_' read as spaces."""
+    if dropped.get("label"):
+        return dropped["label"]
+    name = dropped["name"]
+    for term in sheet["terms"]:
+        if term.get("feature") == name or term.get("name") == name:
+            return term["label"]
+        for feature, label in zip(term.get("features") or [], term.get("labels") or []):
+            if feature == name:
+                return label
+    return name.replace("_", " ")
+
+
 def ranges_block(sheet: dict, styles: Styles, training_ranges: list[str], compact: bool = False) -> Flowable:
     """What to do outside the printed ranges and for values not measured; the terms left off the sheet."""
     lines = [
@@ -215,7 +230,7 @@ def ranges_block(sheet: dict, styles: Styles, training_ranges: list[str], compac
                      "certain: " + "; ".join(markup(t) for t in training_ranges) + ".")
     lines.append("Not measured: use the \u2018not measured\u2019 row. A table without that row needs the measurement.")
     if sheet.get("dropped_terms"):
-        dropped = "; ".join(markup(f"{d['name']} ({d['reason']})") for d in sheet["dropped_terms"])
+        dropped = "; ".join(markup(f"{dropped_label(sheet, d)} ({d['reason']})") for d in sheet["dropped_terms"])
         lines.append(f"Left off this sheet: {dropped}.")
     return _paragraphs(lines, styles.body, "the range rules", "Outside the printed ranges", styles, compact)
 

@@ -409,3 +409,17 @@ def test_the_cautions_box_shares_its_page_and_no_page_holds_it_alone(sheet, layo
     assert len(with_box) == 1
     # the box sits with the total box or the conversion, never on a page of its own (a nurse skips such a page)
     assert "TOTAL POINTS" in with_box[0] or "Total points \u2192 risk" in with_box[0] or "Risk bands" in with_box[0]
+
+
+def test_a_term_left_off_prints_its_label_or_its_name_in_words():
+    from scorecard.render.tables import dropped_label
+
+    sheet = twelve_term_sheet()
+    pair = next(t for t in sheet["terms"] if t["kind"] == "pair")
+    feature = pair["features"][1]
+    printed = {pair["labels"][1]} | {t["label"] for t in sheet["terms"] if t.get("feature") == feature}
+    assert dropped_label(sheet, {"name": feature, "reason": "x"}) in printed
+    assert dropped_label(sheet, {"name": "geriatric_review", "reason": "x"}) == "geriatric review"
+    assert dropped_label(sheet, {"name": "geriatric_review", "label": "Geriatric review", "reason": "x"}) == "Geriatric review"
+    flat = " ".join(_pages(_render(sheet, "ward-a4"))[1][4].split())
+    assert "Left off this sheet: hearing (" in flat
