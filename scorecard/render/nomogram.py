@@ -46,18 +46,34 @@ def _wrap_words(text: str, size: float, width: float, bold: bool) -> list[str]:
 
 
 def _place(labels: list[_Label], left: float, right: float, gap: float) -> list[_Label]:
-    """Give each label the first level (above 1, below 1, above 2, ...) where it clears its neighbours.
-    Labels are kept inside [left, right] (shifted inwards, with a leader line back to their tick)."""
-    ends: dict[int, float] = {}
+    """Give each label the first level (above 1, below 1, above 2, ...) where it clears every other label and
+    every leader line: a label further out than the first level is joined to its tick by a vertical leader,
+    which must not run through a nearer label, and no nearer label may be laid over an earlier leader.
+    Labels are kept inside [left, right]; shifted inwards they still cover their own tick, so a leader is
+    always straight up or down from the tick."""
+    spans: dict[int, list[tuple[float, float]]] = {}
+    leaders: list[tuple[int, float]] = []  # (level, x) of labels beyond the first level
     for label in sorted(labels, key=lambda l: l.tick_x):
         half = label.width / 2
         label.x = min(max(label.tick_x, left + half), right - half)
-        level_order = [1, -1, 2, -2, 3, -3, 4, -4, 5, -5, 6, -6, 7, -7, 8, -8]
-        for level in level_order + list(range(9, 200)):
-            if ends.get(level, -1e9) + gap <= label.x - half:
-                label.level = level
-                ends[level] = label.x + half
-                break
+        lo, hi = label.x - half - gap, label.x + half + gap
+        order = [1, -1, 2, -2, 3, -3, 4, -4] + [k * s for k in range(5, 200) for s in (1, -1)]
+        for level in order:
+            sign, depth = (1 if level > 0 else -1), abs(level)
+            if any(a < hi and lo < b for a, b in spans.get(level, [])):
+                continue
+            # its own leader passes the nearer levels on its side: none of their labels may sit on it
+            if any(a - gap / 2 < label.tick_x < b + gap / 2
+                   for d in range(1, depth) for a, b in spans.get(sign * d, [])):
+                continue
+            # it may not cover the leader of a label further out on its side
+            if any(lv * sign > depth and lo < x < hi for lv, x in leaders):
+                continue
+            label.level = level
+            spans.setdefault(level, []).append((label.x - half, label.x + half))
+            if depth > 1:
+                leaders.append((level, label.tick_x))
+            break
     return labels
 
 
@@ -127,8 +143,8 @@ class _TermAxis:
             else:
                 baseline = axis_y - 4 - (-label.level) * self.line_h + s * 0.3
                 edge = baseline + s * 0.85
-            if abs(label.level) > 1 or abs(label.x - label.tick_x) > 0.5:
-                canv.line(label.tick_x, axis_y, label.x, edge)
+            if abs(label.level) > 1:  # straight from the tick, which the label covers
+                canv.line(label.tick_x, axis_y, label.tick_x, edge)
             # a white ground so the faint guide lines never strike through a value
             canv.setFillColor(colors.white)
             canv.rect(label.x - label.width / 2 - 1, baseline - s * 0.25, label.width + 2, s * 1.05, stroke=0, fill=1)
