@@ -52,6 +52,12 @@ def source_of(frame: pd.DataFrame) -> str:
     return frame.attrs.get("source", "data")
 
 
+def data_row(frame: pd.DataFrame, position: int) -> int:
+    """The file's 1-based data row of `position` in `frame`; a slice of one patient keeps the file's numbering
+    through attrs["first_row"] (its position in the file), so an error names the row the user can find."""
+    return int(frame.attrs.get("first_row", 0)) + position + 1
+
+
 def _distinct(values: pd.Series) -> tuple[np.ndarray, pd.Series]:
     """Codes of each cell among the distinct cells (-1 for NaN/None) and the distinct cells: text rules are
     then applied once per distinct value, which keeps a million-row cohort to a second or so."""
@@ -87,7 +93,7 @@ def numeric_column(frame: pd.DataFrame, name: str) -> np.ndarray:
         bad = ~np.isfinite(values) & ~np.isnan(values)
         if bad.any():
             row = int(np.flatnonzero(bad)[0])
-            raise UserError(f"{source_of(frame)}: row {row + 1}, column {name!r}: infinite value; give a measurement or leave it empty")
+            raise UserError(f"{source_of(frame)}: row {data_row(frame, row)}, column {name!r}: infinite value; give a measurement or leave it empty")
         return values
     codes, uniques = _distinct(col)
     missing_u = uniques.astype(str).str.strip().str.lower().isin(MISSING_TOKENS).to_numpy()
@@ -99,7 +105,7 @@ def numeric_column(frame: pd.DataFrame, name: str) -> np.ndarray:
     if bad.any():
         row = int(np.flatnonzero(bad)[0])
         raise UserError(
-            f"{source_of(frame)}: row {row + 1}, column {name!r}: {col.iloc[row]!r} is not a number; "
+            f"{source_of(frame)}: row {data_row(frame, row)}, column {name!r}: {col.iloc[row]!r} is not a number; "
             "use digits with a decimal point, or leave the cell empty for not measured"
         )
     return parsed
@@ -121,7 +127,7 @@ def flag_column(frame: pd.DataFrame, name: str) -> np.ndarray:
     if bad.any():
         row = int(np.flatnonzero(bad)[0])
         raise UserError(
-            f"{source_of(frame)}: row {row + 1}, column {name!r}: {col.iloc[row]!r} is not a yes/no value; "
+            f"{source_of(frame)}: row {data_row(frame, row)}, column {name!r}: {col.iloc[row]!r} is not a yes/no value; "
             "use 1/0, yes/no or true/false, or leave it empty for not measured"
         )
     return values

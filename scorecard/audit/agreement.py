@@ -208,7 +208,7 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
         _bound("auc_loss", f"AUC loss (model - sheet, {basis}) at most the bound", agreement["auc_loss"],
                bound["max_auc_loss"], agreement["auc_loss"] <= bound["max_auc_loss"] + _SLACK,
                f"{agreement['auc_loss']:.4f} (95% CI {ci[0]:.4f} to {ci[1]:.4f}) vs {bound['max_auc_loss']:.4f}"),
-        _bound("risk_error_share", f"share of patients with |risk difference| > {bound['max_risk_error'] * 100:g} points",
+        _bound("risk_error_share", f"share of patients with |risk difference| > {bound['max_risk_error'] * 100:g} percentage points",
                share, bound["risk_error_share"], share <= bound["risk_error_share"] + _SLACK,
                f"{share:.2%} vs {bound['risk_error_share']:.2%}"),
         _bound("certificate_logodds", "no patient inside the training ranges is further from the model than the certificate (log-odds)",

@@ -241,7 +241,8 @@ def report_pdf_bytes(report: dict, cautions: list[str]) -> bytes:
     cohort = report["cohort"]
     story.append(_p(f"Cohort: {cohort['source']} ({cohort['n']:,} patients"
                     + (f", outcome column {cohort['outcome_column']!r})" if cohort["outcome_column"] else ", no outcome column)")
-                    + f"; {cohort['outside_training']:,} patients have a measurement outside a training range.", s["body"]))
+                    + f"; {cohort['outside_training']:,} {'patient has' if cohort['outside_training'] == 1 else 'patients have'}"
+                    " a measurement outside a training range.", s["body"]))
     outcome = sheet["outcome"]
     story.append(_p(f"Outcome: {outcome['event']}, {outcome['horizon']}; population: {outcome['population']}.", s["body"]))
     story.append(Spacer(1, 3 * mm))

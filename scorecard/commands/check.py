@@ -41,7 +41,7 @@ def guess_outcome_column(sheet: dict, columns: list[str]) -> str | None:
               help="Cohort column with the observed outcome (1/0, yes/no). Default: a column named by a word of the sheet's outcome (e.g. 'delirium').")
 @click.option("--bootstrap", "replicates", default=200, show_default=True, type=click.IntRange(20, 10_000),
               help="Bootstrap resamples for the interval of the AUC loss.")
-@click.option("--seed", default=0, show_default=True, type=int, help="Seed of the bootstrap (same seed, same report).")
+@click.option("--seed", default=0, show_default=True, type=click.IntRange(min=0), help="Seed of the bootstrap (same seed, same report).")
 @click.option(OVERRIDE_OPTION, "allow_other", is_flag=True,
               help="Compare with a model whose fingerprint differs from the sheet's: warns loudly and marks the report FAIL.")
 def command(sheet_path, model_path, cohort_path, output, json_path, outcome, replicates, seed, allow_other) -> None:
@@ -88,7 +88,7 @@ def command(sheet_path, model_path, cohort_path, output, json_path, outcome, rep
     loss = "not computable" if a["auc_loss"] is None else f"{a['auc_loss']:.4f}"
     if a["auc_loss"] is not None and None not in a["auc_loss_ci"]:
         loss += f" (95% CI {a['auc_loss_ci'][0]:.4f} to {a['auc_loss_ci'][1]:.4f})"
-    say(f"AUC loss {loss}, max |risk difference| {a['max_abs_risk_error'] * 100:.2f} points; report written to {out}")
+    say(f"AUC loss {loss}, max |risk difference| {a['max_abs_risk_error'] * 100:.2f} percentage points; report written to {out}")
     failed = [b for b in report["bounds"] if not b["pass"]]
     if failed:
         raise CheckFailed("; ".join(f"{b['name']}: {b['shown']}" for b in failed))

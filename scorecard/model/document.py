@@ -138,6 +138,10 @@ def validate_model_dict(doc: Any, source: str = "model") -> None:
     """Raise UserError (one line) for the first problem found in a model document."""
     if not isinstance(doc, dict):
         raise UserError(f"{source}: expected a JSON object (a model document), found {type(doc).__name__}")
+    if doc.get("document") == "scorecard-sheet":
+        # The two documents sit side by side in one folder; name the mix-up instead of listing schema fields.
+        raise UserError(f"{source}: this is a sheet document, not a model; give the model it was built from "
+                        f"(its fingerprint is under 'model' in the sheet)")
     if "format_version" in doc and doc["format_version"] != FORMAT_VERSION:
         raise UserError(
             f"{source}: format_version {doc['format_version']!r} is not supported (this scorecard reads {FORMAT_VERSION}); "

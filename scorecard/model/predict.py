@@ -93,6 +93,7 @@ class _Evaluator:
         require_columns(frame, model.used_features)
         self.model = model
         self.source = source_of(frame)
+        self.first_row = int(frame.attrs.get("first_row", 0))  # file numbering of a one-patient slice (explain)
         self.values = {name: feature_values(frame, model.feature(name)) for name in model.used_features}
         self.report = PredictionReport(rows=len(frame))
         for name, vals in self.values.items():
@@ -111,7 +112,7 @@ class _Evaluator:
         if feature.missing == "error":
             row = int(np.flatnonzero(missing)[0])
             raise UserError(
-                f"{self.source}: row {row + 1}, column {feature.name!r}: not measured, and the model requires it; "
+                f"{self.source}: row {self.first_row + row + 1}, column {feature.name!r}: not measured, and the model requires it; "
                 "supply the measurement or exclude the patient"
             )
         if feature.missing == "average" or term.missing_score is None:
@@ -154,13 +155,13 @@ class _Evaluator:
             if policy == "error":
                 row = int(np.flatnonzero(unseen)[0])
                 raise UserError(
-                    f"{self.source}: row {row + 1}, column {feature.name!r}: level {values[row]!r} is not one the model knows "
+                    f"{self.source}: row {self.first_row + row + 1}, column {feature.name!r}: level {values[row]!r} is not one the model knows "
                     f"({', '.join(term.levels)}); correct the spelling or set the term's unseen policy"
                 )
             if policy == "missing" and feature.missing == "error":
                 row = int(np.flatnonzero(unseen)[0])
                 raise UserError(
-                    f"{self.source}: row {row + 1}, column {feature.name!r}: level {values[row]!r} is not one the model knows, "
+                    f"{self.source}: row {self.first_row + row + 1}, column {feature.name!r}: level {values[row]!r} is not one the model knows, "
                     "and unknown levels count as not measured, which this model refuses; correct the level"
                 )
             idx = np.where(unseen, -1 if policy == "missing" else -3, idx)
@@ -211,7 +212,9 @@ def explain(model: AdditiveModel, frame: pd.DataFrame, row: int) -> dict:
     """One patient's terms sorted by the size of their contribution, with the baseline and the risk."""
     if not 0 <= row < len(frame):
         raise UserError(f"{source_of(frame)}: row {row + 1} does not exist; the table has {len(frame)} rows")
-    parts, _ = contributions(model, frame.iloc[[row]])
+    patient = frame.iloc[[row]]
+    patient.attrs = {**frame.attrs, "first_row": int(frame.attrs.get("first_row", 0)) + row}
+    parts, _ = contributions(model, patient)
     values = parts.iloc[0]
     order = sorted(model.terms, key=lambda t: -abs(values[t.name]))
     terms = []

@@ -1,0 +1,43 @@
+"""`check` wording and option bounds: the risk bound is stated in percentage points (never bare "points",
+which on a sheet means sheet points), and a negative --seed is a one-line usage error, not a traceback."""
+
+import json
+
+import pandas as pd
+from click.testing import CliRunner
+
+from scorecard.cli import main
+from scorecard.demo import generate_cohort
+from scorecard.jsondoc import pretty_text
+from tests.audit.handmade import model_dict, sheet_dict
+
+
+def _files(tmp_path):
+    (tmp_path / "sheet.json").write_text(pretty_text(sheet_dict()))
+    (tmp_path / "model.json").write_text(pretty_text(model_dict()))
+    c = generate_cohort(400, seed=5)
+    residence = c["residence"].map({"own_home": "home", "with_family": "home", "care_home": "care_home"})
+    pd.DataFrame({"age": c.age, "temperature": c.temperature, "cognition": c.cognition, "residence": residence,
+                  "prior_delirium": c.prior_delirium, "delirium": c.delirium}).to_csv(tmp_path / "cohort.csv", index=False)
+    return ["check", tmp_path / "sheet.json", "--model", tmp_path / "model.json", "--data", tmp_path / "cohort.csv"]
+
+
+def run(*args):
+    return CliRunner().invoke(main, [str(a) for a in args])
+
+
+def test_risk_differences_are_in_percentage_points(tmp_path):
+    args = _files(tmp_path)
+    result = run(*args, "-o", tmp_path / "r.pdf", "--json", tmp_path / "r.json", "--bootstrap", 20)
+    assert result.exit_code in (0, 3), result.output
+    assert "percentage points" in result.stderr
+    report = json.loads((tmp_path / "r.json").read_text())
+    share = next(b for b in report["bounds"] if b["name"] == "risk_error_share")
+    assert "percentage points" in share["what"] and " points" not in share["what"].replace("percentage points", "")
+
+
+def test_negative_seed_is_a_usage_error_that_writes_nothing(tmp_path):
+    args = _files(tmp_path)
+    result = run(*args, "-o", tmp_path / "r.pdf", "--seed", -1)
+    assert result.exit_code == 2 and "Traceback" not in result.output and "--seed" in result.output
+    assert not (tmp_path / "r.pdf").exists()
