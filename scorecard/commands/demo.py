@@ -17,6 +17,7 @@ from scorecard.demo.true_model import FEATURE_INFO, OUTCOME_TEXT
 from scorecard.errors import UserError
 from scorecard.jsondoc import atomic_write_text
 from scorecard.model import save_model
+from scorecard.render import load_layout
 
 COHORT_FILE = "cohort.csv"
 AUDIT_COHORT_FILE = "audit-cohort.csv"
@@ -172,8 +173,16 @@ def command(ctx: click.Context, output: str, rows: int, seed: int, without_pair:
       check-report.pdf/.json         agreement of paper and software on the audit cohort (`scorecard check`)
     and finally reads sheet.pdf back and compares it with sheet.json cell by cell (`scorecard verify`).
     Exit 3 if a check fails its bound.
+
+    \b
+    Examples:
+      scorecard demo -o demo_output
+      scorecard demo -o small_demo --rows 5000 --seed 7 --layout ward-letter
+      scorecard demo -o data_only --cohort-only
     """
     interaction = not without_pair
+    if not cohort_only:
+        load_layout(layout)  # a wrong --layout is refused now, not after a minute of fitting with half the files written
     folder = prepare_output_folder(output, force)
     cohort, _ = write_cohort(folder, rows, seed, interaction)
     write_true_model(folder, interaction)

@@ -70,3 +70,12 @@ def test_help_reads_as_documentation():
     result = run("--help")
     assert result.exit_code == 0
     assert "invented" in result.output and "cohort.csv" in result.output and "--seed" in result.output
+
+
+def test_an_unknown_layout_is_refused_before_anything_is_written(tmp_path):
+    # the layout is only needed at the render step, a minute in; a typo must not leave a half-built folder
+    out = tmp_path / "demo"
+    result = run("-o", str(out), "--rows", "300", "--layout", "ward-a3")
+    assert result.exit_code == 2 and len(result.output.strip().splitlines()) == 1
+    assert "--layout ward-a3" in result.output and "ward-a4" in result.output
+    assert not out.exists()
