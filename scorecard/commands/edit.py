@@ -154,4 +154,8 @@ def command(model_path, declarations, merges, clips, monotones, zeros, reason, e
         click.echo("all edits together:")
         for line in cost_lines(total):
             click.echo(f"    {line}")
-    say(f"wrote {out} (fingerprint {fingerprint[:12]}, {len(history) + len(records)} edits in its history)")
+    say(f"wrote {out} (fingerprint {fingerprint[:12]}, {_count(len(history) + len(records), 'edit')} in its history)")
+
+
+def _count(n: int, noun: str) -> str:
+    return f"{n} {noun}" if n == 1 else f"{n} {noun}s"

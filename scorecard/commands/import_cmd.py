@@ -29,7 +29,7 @@ def _finish(model, out, table: str) -> None:
     missing = [k for k, v in model.outcome.items() if v == "not stated"]
     if missing:
         say(f"note: {', '.join(missing)} not stated; give --{' --'.join(missing)} so the sheet says what the model predicts")
-    say(f"wrote {out}: {len(model.terms)} terms, fingerprint {fingerprint[:12]}")
+    say(f"wrote {out}: {len(model.terms)} {'term' if len(model.terms) == 1 else 'terms'}, fingerprint {fingerprint[:12]}")
 
 
 @click.group(name="import")

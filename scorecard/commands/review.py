@@ -41,7 +41,7 @@ def command(model_path: str, cohort_path: str | None, output: str, preview_dir: 
     out = output_path(output, model_path, cohort_path or "")
     model = load_model(model_path)
     cohort = read_csv(cohort_path) if cohort_path else None
-    say(f"reviewing {len(model.terms)} terms of {model.name} {model.version}...")
+    say(f"reviewing {len(model.terms)} terms of {model.name} version {model.version}...")
     figures, ranking, flags = build_review(model, cohort, cohort_name=Path(cohort_path).name if cohort_path else None)
     data = pdf_bytes(figures)
     if preview_dir:

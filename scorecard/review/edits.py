@@ -120,8 +120,10 @@ def clip_term(model: AdditiveModel, term_name: str, lo: float | None, hi: float 
     else:
         _clip_linear(term, lo, hi)
     shift = _recentre(edited, term)
-    bounds = f"{'' if lo is None else f'{lo:g}'}:{'' if hi is None else f'{hi:g}'}"
-    what = f"froze term {term_name!r} beyond {bounds}: values below LO / above HI take the score at LO / HI"
+    # in words, with the numbers: the reader of the history should not have to decode "LO:HI" syntax
+    held = [f"values below {lo:g} score as {lo:g}"] if lo is not None else []
+    held += [f"values above {hi:g} score as {hi:g}"] if hi is not None else []
+    what = f"froze term {term_name!r}: " + " and ".join(held)
     if shift:
         what += f"; re-centred on the training counts (intercept moved by {shift:+.3g})"
     moved = _largest_change(before, term)

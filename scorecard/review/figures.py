@@ -46,7 +46,7 @@ def frame_page(fig: Figure, model: AdditiveModel, fingerprint: str, title: str, 
     """Title, outcome, cautions and fingerprint: the parts every page shares."""
     fig.text(LEFT, 0.965, title, fontsize=15, weight="bold", va="top")
     outcome = model.outcome
-    heading = f"Model review: {model.name} {model.version}. Outcome: {outcome['event']} (horizon: {outcome['horizon']}). Population: {outcome['population']}."
+    heading = f"Model review: {model.name} version {model.version}. Outcome: {outcome['event']} (horizon: {outcome['horizon']}). Population: {outcome['population']}."
     fig.text(LEFT, 0.937, "\n".join(textwrap.wrap(heading, 118)), fontsize=7.5, va="top")
     caution = "\n".join(textwrap.wrap(CAUTIONS, 120))
     fig.text(LEFT, 0.062, caution, fontsize=7, va="top", style="italic")

@@ -83,6 +83,11 @@ def test_clip_freezes_the_shape_beyond_the_bounds():
     for v in (150, 156, 160):
         assert new[v] == pytest.approx(at[150], abs=1e-12)
     assert at[118] != pytest.approx(at[128]) and at[160] != pytest.approx(at[150])  # the clip did change something
+    # the history says it in words with the numbers, not as "LO / HI" placeholders
+    assert "values below 128 score as 128 and values above 150 score as 150" in record["what"]
+    assert "LO" not in record["what"] and "HI" not in record["what"]
+    _, one_sided = clip_term(model, "sodium", None, 150.0)
+    assert "values above 150 score as 150" in one_sided["what"] and "below" not in one_sided["what"]
     shift = edited.intercept - model.intercept
     # the term is still centred on its training counts (DESIGN: terms are centred)
     t = edited.term("sodium")

@@ -55,6 +55,7 @@ def test_every_page_carries_the_cautions_and_the_fingerprint_and_its_term(render
         assert "Decision support only" in flat and "Associations, not causes" in flat
         assert "licensed clinicians" in flat and "approved version" in flat
         assert model.fingerprint in flat.replace(" ", "")
+        assert f"{model.name} version {model.version}." in flat  # not a bare "name 1." the reader must decode
     assert "Review summary" in texts[0] and "Care-process marker looks protective" in texts[0]
     for term, text in zip(model.terms, texts[1:]):
         assert f"Term {term.name}" in text
