@@ -63,6 +63,29 @@ def best_offset(q: Quadratic, scale: float, p: np.ndarray) -> float:
     return (q.swy - scale * float(q.xw @ p)) / q.sw
 
 
+def weighted_error(q: Quadratic, scale: float, p: np.ndarray, offset: float) -> float:
+    """sum_i w_i (offset + scale * (X p)_i - y_i)^2, from the Gram form."""
+    p = np.asarray(p, dtype=float)
+    return float(scale * scale * p @ q.gram @ p - 2 * scale * p @ q.xwy + 2 * offset * scale * q.xw @ p
+                 + offset * offset * q.sw - 2 * offset * q.swy + q.yy)
+
+
+def fit_scale_offset(q: Quadratic, p: np.ndarray) -> tuple[float, float] | None:
+    """For fixed integer points, the scale s and offset a minimising sum_i w_i (a + s T_i - y_i)^2, where
+    T_i is patient i's total points: the weighted least-squares line of the exact log-odds on the total
+    (2 x 2 normal equations from the Gram form). None when every patient has the same total or the fitted
+    scale is not positive (points must still mean more risk)."""
+    p = np.asarray(p, dtype=float)
+    st, stt, sty = float(q.xw @ p), float(p @ q.gram @ p), float(q.xwy @ p)
+    det = q.sw * stt - st * st
+    if det <= 1e-12 * max(1.0, q.sw * stt):
+        return None
+    scale = (q.sw * sty - st * q.swy) / det
+    if not scale > 0:
+        return None
+    return scale, (q.swy - scale * st) / q.sw
+
+
 def round_points(q: Quadratic, values: np.ndarray, term_of_row: np.ndarray, scale: float, max_total: int,
                  allow_negative: bool = False, max_moves: int = 5000) -> tuple[np.ndarray, float] | None:
     """Integer points and offset for one scale, or None when independent rounding already breaks the
@@ -102,6 +125,60 @@ def round_points(q: Quadratic, values: np.ndarray, term_of_row: np.ndarray, scal
         gp += step * q.gram[:, j]
     if not allow_negative:  # each term's lowest row is 0; the offset absorbs the shift
         for t in range(n_terms):
+            sel = term_of_row == t
+            p[sel] -= p[sel].min()
+    return p.astype(np.int64), best_offset(q, scale, p)
+
+
+def polish_points(q: Quadratic, p: np.ndarray, term_of_row: np.ndarray, scale: float, max_total: int,
+                  allow_negative: bool = False, max_moves: int = 500) -> tuple[np.ndarray, float]:
+    """Improve integer points beyond single-row moves: the best move of one row by +/-1 or of two rows by
+    +/-1 each (the same or opposite ways), judged by the exact weighted error with the offset re-solved,
+    repeated until no move lowers it. The offset is eliminated by centring the Gram form (X'WX minus its
+    projection on the weighted mean), so a move's effect is a quadratic in the two rows alone; a pair move
+    escapes the local minima of single moves, where one row can only improve if a correlated row
+    compensates. Moves that would widen the total-points range beyond `max_total` are refused. Returns the
+    points (each term's lowest row 0 unless negative points are allowed) and the offset."""
+    p = np.asarray(p, dtype=float).copy()
+    gc = q.gram - np.outer(q.xw, q.xw) / q.sw
+    bc = q.xwy - q.xw * q.swy / q.sw
+    s2 = scale * scale
+    dg = np.diag(gc)
+    first_rows = np.concatenate([[0], np.flatnonzero(np.diff(term_of_row)) + 1])
+    tol = 1e-12 * max(1.0, q.yy)
+    gp = gc @ p
+    same = term_of_row[:, None] == term_of_row[None, :]
+    for _ in range(max_moves):
+        tmax = np.maximum.reduceat(p, first_rows)
+        tmin = np.minimum.reduceat(p, first_rows)
+        room = max_total - float((tmax - tmin).sum())
+        g = 2 * s2 * gp - 2 * scale * bc
+        widen = {1.0: (p >= tmax[term_of_row]).astype(float), -1.0: (p <= tmin[term_of_row]).astype(float)}
+        best, move = -tol, None
+        for dj in (1.0, -1.0):
+            single = dj * g + s2 * dg
+            single = np.where(widen[dj] <= room, single, np.inf)
+            j = int(np.argmin(single))
+            if single[j] < best:
+                best, move = single[j], ((j, dj),)
+            for dk in (1.0, -1.0):
+                pair = (dj * g)[:, None] + (dk * g)[None, :] + s2 * (dg[:, None] + dg[None, :] + 2 * dj * dk * gc)
+                # widening counted per term; two rows of one term moved apart can widen it by 2
+                extra = widen[dj][:, None] + widen[dk][None, :]
+                extra = np.where(same & (dj == dk), np.maximum(widen[dj][:, None], widen[dk][None, :]), extra)
+                pair = np.where(extra <= room, pair, np.inf)
+                np.fill_diagonal(pair, np.inf)
+                flat = int(np.argmin(pair))
+                if pair.flat[flat] < best:
+                    j, k = divmod(flat, len(p))
+                    best, move = pair.flat[flat], ((j, dj), (k, dk))
+        if move is None:
+            break
+        for j, d in move:
+            p[j] += d
+            gp += d * gc[:, j]
+    if not allow_negative:
+        for t in range(int(term_of_row.max()) + 1):
             sel = term_of_row == t
             p[sel] -= p[sel].min()
     return p.astype(np.int64), best_offset(q, scale, p)

@@ -28,7 +28,7 @@ from scorecard.quantize.curves import Curve, Layout, LevelCurve, build_curves
 from scorecard.quantize.figures import full_figures, quick_figures, expected_auc
 from scorecard.quantize.nice import MAX_CANDIDATES
 from scorecard.quantize.population import Population, evaluation_population
-from scorecard.quantize.points import Quadratic, round_points
+from scorecard.quantize.points import Quadratic, fit_scale_offset, polish_points, round_points, weighted_error
 from scorecard.quantize.refit import refit_row_values
 from scorecard.sheet import CAUTIONS, ROUNDING_RULE, risk_text
 
@@ -113,26 +113,49 @@ def _design(problem: Problem, layouts: list[Layout]):
     return ids, v0, term_of_row, starts
 
 
-def _points_for_total(q: Quadratic, values, term_of_row, span: float, target: int, allow_negative: bool):
-    """Best (scale, (points, offset)) whose total-points range is at most `target`: a few scales at and
-    below span / target, each rounded and improved, keeping the smallest weighted error."""
+def _points_for_total(q: Quadratic, values, term_of_row, span: float, target: int, allow_negative: bool,
+                      polish: bool = False):
+    """Best (scale, (points, offset)) whose total-points range is at most `target`.
+
+    Scales on a grid at and below span / target are each rounded and improved by single-row moves. With
+    `polish` (the chosen sheet, after the row search), the best points are improved further by pair moves
+    (`polish_points`), and the scale and offset refitted jointly by weighted least squares (`fit_scale_offset`: the offset is a
+    free continuous parameter and the scale need not be the one rounded at), and the points re-rounded at
+    the fitted scale, until the weighted error stops falling. The smallest weighted error is kept."""
     best = None
-    for shrink in (1.0, 0.93, 0.85, 0.7, 0.5):
+
+    def consider(scale, got):
+        nonlocal best
+        err = weighted_error(q, scale, *got)
+        if best is None or err < best[0] - 1e-12 * max(1.0, q.yy):
+            best = (err, scale, got)
+            return True
+        return False
+
+    for shrink in _SHRINKS:
         scale = span / (target * shrink)
         got = round_points(q, values, term_of_row, scale, target, allow_negative)
-        if got is None:
-            continue
-        err = _error(q, scale, *got)
-        if best is None or err < best[0] - 1e-12:
-            best = (err, scale, got)
-    return None if best is None else best[1:]
+        if got is not None:
+            consider(scale, got)
+    if best is None or not polish:
+        return None if best is None else best[1:]
+    _, scale, (pts, _offset) = best
+    consider(scale, polish_points(q, pts, term_of_row, scale, target, allow_negative))
+    for _ in range(4):
+        _, scale, (pts, _offset) = best
+        fitted = fit_scale_offset(q, pts)
+        if fitted is None or not consider(fitted[0], (pts, fitted[1])):
+            break
+        again = round_points(q, values, term_of_row, fitted[0], target, allow_negative)
+        if again is not None:
+            again = polish_points(q, again[0], term_of_row, fitted[0], target, allow_negative)
+        if again is None or not consider(fitted[0], again):
+            break
+    return best[1:]
 
 
-def _error(q: Quadratic, scale: float, pts: np.ndarray, offset: float) -> float:
-    """sum_i w_i (offset + scale * (X p)_i - y_i)^2 from the Gram form."""
-    p = pts.astype(float)
-    return float(scale * scale * p @ q.gram @ p - 2 * scale * p @ q.xwy + 2 * offset * scale * q.xw @ p
-                 + offset * offset * q.sw - 2 * offset * q.swy + q.yy)
+# scales tried, as shares of span / target
+_SHRINKS = (1.0, 0.93, 0.85, 0.7, 0.5)
 
 
 def _span(values, term_of_row) -> float:
@@ -167,9 +190,10 @@ def _allocate(problem: Problem, budget: int) -> Design | None:
     return Design(budget, choice, layouts, ids, starts, term_of_row, q, values, span if span > 0 else 1.0)
 
 
-def _attempt(problem: Problem, design: Design, target: int) -> Candidate | None:
+def _attempt(problem: Problem, design: Design, target: int, polish: bool = False) -> Candidate | None:
     """Points for one allocation with total-points range at most `target`, and whether they pass."""
-    found = _points_for_total(design.q, design.values, design.term_of_row, design.span, target, problem.allow_negative)
+    found = _points_for_total(design.q, design.values, design.term_of_row, design.span, target, problem.allow_negative,
+                              polish)
     if found is None:
         return None
     bound = problem.bound
@@ -244,7 +268,18 @@ def search(problem: Problem, progress: Callable[[str], None] | None = None) -> C
             lo = mid + 1
     design, top = best
     problem.design = design
-    return _smallest_total(problem, design, top)
+    chosen = _smallest_total(problem, design, top)
+    # the rows and total are chosen by the quick rounding; the chosen sheet then gets the full rounding
+    # (pair moves, scale and offset refitted), kept when it still meets the bound
+    polished = _attempt(problem, design, chosen.total_range if chosen.total_range > 0 else 1, polish=True)
+    if polished is not None and polished.passed and _weighted(problem, polished) <= _weighted(problem, chosen):
+        return polished
+    return chosen
+
+
+def _weighted(problem: Problem, cand: Candidate) -> float:
+    """The risk-weighted squared log-odds error the rounding minimises."""
+    return float(problem.weight @ (cand.sheet_logodds - problem.population.logodds) ** 2)
 
 
 def _infeasible_message(problem: Problem, top: Candidate | None) -> str:
@@ -297,7 +332,7 @@ def _tradeoff(problem: Problem) -> list[dict]:
     y = problem.population.logodds
     out = []
     for target in sorted({10, 15, 20, 30, 40, 60, 100, problem.bound.max_total_points}):
-        found = _points_for_total(d.q, d.values, d.term_of_row, d.span, target, problem.allow_negative)
+        found = _points_for_total(d.q, d.values, d.term_of_row, d.span, target, problem.allow_negative, polish=True)
         if found is None:
             continue
         scale, (pts, offset) = found
