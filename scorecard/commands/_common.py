@@ -26,3 +26,13 @@ def output_path(path: str, *inputs: str) -> Path:
 def say(message: str) -> None:
     """Progress and notes go to stderr so stdout stays clean for results."""
     click.echo(message, err=True)
+
+
+def preview_folder(path: str | None) -> Path | None:
+    """Check --preview before any work, so a file given as the folder stops the command before the PDF is written."""
+    if not path:
+        return None
+    folder = Path(path)
+    if folder.exists() and not folder.is_dir():
+        raise UserError(f"--preview {folder}: is a file; give a folder for the page previews (it is created if absent)")
+    return folder

@@ -30,13 +30,13 @@ def guess_outcome_column(sheet: dict, columns: list[str]) -> str | None:
 
 
 @click.command()
-@click.argument("sheet_path", metavar="SHEET.json", type=click.Path(dir_okay=False))
-@click.option("--model", "model_path", required=True, type=click.Path(dir_okay=False), metavar="MODEL.json",
+@click.argument("sheet_path", metavar="SHEET.json", type=click.Path())
+@click.option("--model", "model_path", required=True, type=click.Path(), metavar="MODEL.json",
               help="The exact model the sheet was built from (its fingerprint must match the sheet's).")
-@click.option("--data", "cohort_path", required=True, type=click.Path(dir_okay=False), metavar="COHORT.csv",
+@click.option("--data", "cohort_path", required=True, type=click.Path(), metavar="COHORT.csv",
               help="Patients to compare on: one row each, the columns the sheet needs (and the outcome, if known).")
-@click.option("-o", "--output", required=True, type=click.Path(dir_okay=False), metavar="REPORT.pdf", help="The report PDF to write.")
-@click.option("--json", "json_path", type=click.Path(dir_okay=False), metavar="REPORT.json", help="Also write every figure as JSON.")
+@click.option("-o", "--output", required=True, type=click.Path(), metavar="REPORT.pdf", help="The report PDF to write.")
+@click.option("--json", "json_path", type=click.Path(), metavar="REPORT.json", help="Also write every figure as JSON.")
 @click.option("--outcome", metavar="COLUMN",
               help="Cohort column with the observed outcome (1/0, yes/no). Default: a column named by a word of the sheet's outcome (e.g. 'delirium').")
 @click.option("--bootstrap", "replicates", default=200, show_default=True, type=click.IntRange(20, 10_000),

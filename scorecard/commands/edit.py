@@ -67,7 +67,7 @@ def _outcome_column(model, given: str | None) -> str | None:
 
 
 @click.command()
-@click.argument("model_path", metavar="MODEL.json", type=click.Path(dir_okay=False))
+@click.argument("model_path", metavar="MODEL.json", type=click.Path())
 @click.option("--declare", "declarations", multiple=True, metavar="FEATURE=VALUE",
               help="Declare what a feature is: increasing / decreasing (risk should only rise / fall with it), "
                    "unordered (clear the direction), care_process (a treatment or care-process marker whose "
@@ -84,12 +84,12 @@ def _outcome_column(model, given: str | None) -> str | None:
               help="Set a term's scores to 0; the other terms keep their fitted scores. Repeatable.")
 @click.option("--reason", default="", help="Why (free text), stored with every edit of this run.")
 @click.option("--by", "editor", default=None, help="Who made the edit (default: the login name).")
-@click.option("--data", "cohort_path", metavar="COHORT.csv", type=click.Path(dir_okay=False),
+@click.option("--data", "cohort_path", metavar="COHORT.csv", type=click.Path(),
               help="Patients to weigh the edits by and to measure their cost on (AUC change, calibration-in-the-large).")
 @click.option("--outcome", "outcome", metavar="COLUMN",
               help="Outcome column (0/1) in --data. Default: the column the fitter recorded, if any. Without an "
                    "outcome the cost is measured against the unedited model's own risks.")
-@click.option("-o", "--output", "output", required=True, type=click.Path(dir_okay=False), help="Edited model to write.")
+@click.option("-o", "--output", "output", required=True, type=click.Path(), help="Edited model to write.")
 def command(model_path, declarations, merges, clips, monotones, zeros, reason, editor, cohort_path, outcome, output) -> None:
     """Edit MODEL.json without retraining and write the edited model.
 

@@ -94,9 +94,9 @@ def table_text(model: AdditiveModel, result: dict, where: str) -> str:
 
 
 @click.command()
-@click.argument("model_path", metavar="MODEL.json", type=click.Path(dir_okay=False))
+@click.argument("model_path", metavar="MODEL.json", type=click.Path())
 @click.option("--row", type=int, metavar="N", help="Patient to explain: data row N of --data (1 = first row under the header).")
-@click.option("--data", "cohort_path", metavar="COHORT.csv", type=click.Path(dir_okay=False), help="Cohort holding the patient.")
+@click.option("--data", "cohort_path", metavar="COHORT.csv", type=click.Path(), help="Cohort holding the patient.")
 @click.option("--values", "pairs", multiple=True, metavar="FEATURE=VALUE",
               help="Describe the patient directly instead (repeatable); features not given count as not measured.")
 @click.option("--json", "as_json", is_flag=True, help="Print the explanation as JSON instead of a table.")

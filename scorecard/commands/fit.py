@@ -144,7 +144,7 @@ def _pairs_option(text: str):
 
 
 @click.command()
-@click.argument("data_path", metavar="DATA.csv", type=click.Path(dir_okay=False))
+@click.argument("data_path", metavar="DATA.csv", type=click.Path())
 @click.option("--outcome", required=True, metavar="COLUMN", help="The 0/1 (or yes/no) outcome column: 1 = the event happened.")
 @click.option("--features", "features", multiple=True, metavar="NAMES", help="Columns to use (comma-separated or repeated). Default: every column but the outcome, --weights and --exclude.")
 @click.option("--exclude", multiple=True, metavar="NAMES", help="Columns never to use, such as a patient id (comma-separated or repeated).")
@@ -165,7 +165,7 @@ def _pairs_option(text: str):
 @click.option("--unit", "units", multiple=True, metavar="FEATURE=UNIT", help="Unit of a feature, e.g. sodium=mmol/L (repeatable).")
 @click.option("--decimals", "decimals", multiple=True, metavar="FEATURE=N", help="Decimals to print for a feature (repeatable; default: as recorded).")
 @click.option("--jobs", default=None, type=click.IntRange(1), help="Processes for the bags (default: all usable cores); the result does not depend on it.")
-@click.option("-o", "--output", required=True, type=click.Path(dir_okay=False), help="Model document to write (*.model.json).")
+@click.option("-o", "--output", required=True, type=click.Path(), help="Model document to write (*.model.json).")
 def command(data_path, outcome, features, exclude, categorical, weights_column, pairs_text, max_pairs, bags, seed,
             learning_rate, min_leaf, max_bins, name, event, horizon, population, labels, units, decimals, jobs, output):
     """Fit an additive risk model to DATA.csv and write it as a model document.

@@ -14,8 +14,8 @@ _DEFAULT = Bound()
 
 
 @click.command()
-@click.argument("model_path", metavar="MODEL.json", type=click.Path(dir_okay=False))
-@click.option("--data", "data_path", metavar="COHORT.csv", type=click.Path(dir_okay=False),
+@click.argument("model_path", metavar="MODEL.json", type=click.Path())
+@click.option("--data", "data_path", metavar="COHORT.csv", type=click.Path(),
               help="Patients to choose and measure the sheet on. Default: a synthetic population of 20000 drawn "
                    "from the model's own training bin counts (features independent).")
 @click.option("--max-auc-loss", type=float, default=_DEFAULT.max_auc_loss, show_default=True,
@@ -39,7 +39,7 @@ _DEFAULT = Bound()
 @click.option("--title", help="Page title (default: 'Risk of <event>').")
 @click.option("--bootstrap", type=click.IntRange(0, 10000), default=200, show_default=True,
               help="Bootstrap resamples for the ΔAUC interval (0 = none).")
-@click.option("-o", "--output", "output", required=True, type=click.Path(dir_okay=False), help="Sheet document to write (*.sheet.json).")
+@click.option("-o", "--output", "output", required=True, type=click.Path(), help="Sheet document to write (*.sheet.json).")
 def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_share, max_rows, max_total_points,
             max_row_error, bands, allow_negative, merge_equal_levels, title, bootstrap, output) -> None:
     """Quantise MODEL.json into integer point tables that meet an accuracy bound.

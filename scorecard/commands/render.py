@@ -4,7 +4,7 @@ from __future__ import annotations
 
 import click
 
-from scorecard.commands._common import output_path, say
+from scorecard.commands._common import output_path, say, preview_folder
 from scorecard.errors import UserError
 from scorecard.jsondoc import atomic_write_bytes
 from scorecard.render import DEFAULT_LAYOUT, load_layout, render_pdf, shipped_layouts, write_previews
@@ -18,10 +18,10 @@ def _layout_help() -> str:
 
 
 @click.command()
-@click.argument("sheet_path", metavar="SHEET.json", type=click.Path(dir_okay=False))
+@click.argument("sheet_path", metavar="SHEET.json", type=click.Path())
 @click.option("--layout", "layout_name", metavar="NAME|FILE", default=DEFAULT_LAYOUT, show_default=False, help=_layout_help())
-@click.option("-o", "--output", "output", required=True, type=click.Path(dir_okay=False), help="PDF file to write.")
-@click.option("--preview", "preview_dir", metavar="DIR", type=click.Path(file_okay=False),
+@click.option("-o", "--output", "output", required=True, type=click.Path(), help="PDF file to write.")
+@click.option("--preview", "preview_dir", metavar="DIR", type=click.Path(),
               help="Also write a PNG picture of every page into DIR (NAME-01.png, NAME-02.png, ... after the PDF's name), to check by eye.")
 def command(sheet_path: str, layout_name: str, output: str, preview_dir: str | None) -> None:
     """Print SHEET.json as PDF pages: point tables, total box, conversion chart, nomogram.
@@ -36,6 +36,7 @@ def command(sheet_path: str, layout_name: str, output: str, preview_dir: str | N
     The same sheet and layout always give the same PDF bytes.
     """
     out = output_path(output, sheet_path)
+    preview_folder(preview_dir)
     if not out.name.lower().endswith(".pdf"):
         raise UserError(f"{out}: the output must be a .pdf file; give -o NAME.pdf")
     sheet = load_sheet(sheet_path)

@@ -6,7 +6,7 @@ from pathlib import Path
 
 import click
 
-from scorecard.commands._common import output_path, say
+from scorecard.commands._common import output_path, say, preview_folder
 from scorecard.errors import UserError
 from scorecard.jsondoc import atomic_write_bytes
 from scorecard.model import load_model
@@ -15,12 +15,12 @@ from scorecard.tabular import read_csv
 
 
 @click.command()
-@click.argument("model_path", metavar="MODEL.json", type=click.Path(dir_okay=False))
-@click.option("--data", "cohort_path", metavar="COHORT.csv", type=click.Path(dir_okay=False),
+@click.argument("model_path", metavar="MODEL.json", type=click.Path())
+@click.option("--data", "cohort_path", metavar="COHORT.csv", type=click.Path(),
               help="Patients to weigh the review by (importance, densities, sparse data, values outside the "
                    "training range). Without it the model's own training counts are used.")
-@click.option("-o", "--output", "output", required=True, type=click.Path(dir_okay=False), help="PDF to write.")
-@click.option("--preview", "preview_dir", metavar="DIR", type=click.Path(file_okay=False),
+@click.option("-o", "--output", "output", required=True, type=click.Path(), help="PDF to write.")
+@click.option("--preview", "preview_dir", metavar="DIR", type=click.Path(),
               help="Also write one PNG per page into this folder (created if missing).")
 def command(model_path: str, cohort_path: str | None, output: str, preview_dir: str | None) -> None:
     """Write a review PDF of MODEL.json: a summary page, then one page per term.
@@ -39,6 +39,7 @@ def command(model_path: str, cohort_path: str | None, output: str, preview_dir: 
     `scorecard edit` options. The same inputs give the same PDF bytes. Flags are also listed on stderr.
     """
     out = output_path(output, model_path, cohort_path or "")
+    preview_folder(preview_dir)
     model = load_model(model_path)
     cohort = read_csv(cohort_path) if cohort_path else None
     say(f"reviewing {len(model.terms)} terms of {model.name} version {model.version}...")

@@ -16,10 +16,10 @@ from scorecard.tabular import read_csv
 
 
 @click.command()
-@click.argument("sheet_path", metavar="SHEET.json", type=click.Path(dir_okay=False))
-@click.argument("cohort_path", metavar="COHORT.csv", type=click.Path(dir_okay=False))
-@click.option("-o", "--output", required=True, type=click.Path(dir_okay=False), help="CSV to write (one row per patient, cohort order).")
-@click.option("--model", "model_path", type=click.Path(dir_okay=False), metavar="MODEL.json",
+@click.argument("sheet_path", metavar="SHEET.json", type=click.Path())
+@click.argument("cohort_path", metavar="COHORT.csv", type=click.Path())
+@click.option("-o", "--output", required=True, type=click.Path(), help="CSV to write (one row per patient, cohort order).")
+@click.option("--model", "model_path", type=click.Path(), metavar="MODEL.json",
               help="Also write the exact model's risk and the difference sheet - model. Must be the sheet's own model.")
 @click.option("--keep", multiple=True, metavar="COLUMN", help="Copy this cohort column into the output (e.g. a patient id); repeatable.")
 @click.option(OVERRIDE_OPTION, "allow_other", is_flag=True, help="Accept a model whose fingerprint differs from the sheet's (warns loudly).")

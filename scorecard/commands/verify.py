@@ -11,8 +11,8 @@ from scorecard.sheet import load_sheet, short_fingerprint
 
 
 @click.command()
-@click.argument("pdf_path", metavar="SHEET.pdf", type=click.Path(dir_okay=False))
-@click.option("--sheet", "sheet_path", required=True, type=click.Path(dir_okay=False), metavar="SHEET.json",
+@click.argument("pdf_path", metavar="SHEET.pdf", type=click.Path())
+@click.option("--sheet", "sheet_path", required=True, type=click.Path(), metavar="SHEET.json",
               help="The approved sheet document the PDF must print.")
 def command(pdf_path: str, sheet_path: str) -> None:
     """Check that the printed PDF says exactly what the sheet document says.
