@@ -13,7 +13,7 @@ from __future__ import annotations
 from dataclasses import dataclass
 
 from reportlab.lib import colors
-from reportlab.platypus import Flowable, Paragraph, Spacer
+from reportlab.platypus import FrameBreak, Flowable, Paragraph, Spacer
 
 from scorecard.render.fonts import BOLD, REGULAR, text_width
 from scorecard.render.styles import Styles
@@ -28,7 +28,13 @@ class _Label:
     tick_x: float
     x: float  # centre as drawn
     width: float
-    level: int  # 1, 2, ... above the axis (positive) or below (negative)
+    level: int  # 1, 2, ... above the axis (positive) or below (negative): the line nearest the axis
+    lines: tuple[str, ...] = ()  # as drawn, top line first: the text, or its parts stacked when they share a tick
+    stacked: tuple[str, ...] = ()  # the parts, one a line, tried when the text on one line finds no place
+    size: float = 0.0
+
+    def __post_init__(self):
+        self.lines = self.lines or (self.text,)
 
 
 def _wrap_words(text: str, size: float, width: float, bold: bool) -> list[str]:
@@ -45,36 +51,63 @@ def _wrap_words(text: str, size: float, width: float, bold: bool) -> list[str]:
     return lines or [""]
 
 
+def _fits(label: _Label, level: int, spans: dict, leaders: list, gap: float, mind_leaders: bool = True) -> bool:
+    """Whether `label` (its lines from `level` outwards) clears every label and leader placed so far."""
+    sign, depth, n = (1 if level > 0 else -1), abs(level), len(label.lines)
+    half = label.width / 2
+    lo, hi = label.x - half - gap, label.x + half + gap
+    for d in range(depth, depth + n):
+        if any(a < hi and lo < b for a, b in spans.get(sign * d, [])):
+            return False
+    if not mind_leaders:
+        return True
+    # its own leader passes the nearer levels on its side: no label there may sit on it
+    if any(a - gap / 2 < label.tick_x < b + gap / 2 for d in range(1, depth) for a, b in spans.get(sign * d, [])):
+        return False
+    # nor may it cover the leader of a label further out on its side
+    return not any(lv * sign > depth and lo < x < hi for lv, x in leaders)
+
+
 def _place(labels: list[_Label], left: float, right: float, gap: float) -> list[_Label]:
     """Give each label the first level (above 1, below 1, above 2, ...) where it clears every other label and
     every leader line: a label further out than the first level is joined to its tick by a vertical leader,
-    which must not run through a nearer label, and no nearer label may be laid over an earlier leader.
-    Labels are kept inside [left, right]; shifted inwards they still cover their own tick, so a leader is
-    always straight up or down from the tick."""
+    which must not run through a nearer label, and no nearer label may be laid over an earlier leader. Labels
+    of several values sharing a tick are stacked, a value a line, when that is what lets every label find a
+    place near the axis. Labels are kept inside [left, right]; shifted inwards they still cover their own
+    tick, so a leader is always straight up or down from the tick."""
+    best = None
+    for stack in (False, True):
+        levels, crossed = _place_once(labels, left, right, gap, stack)
+        score = (crossed, max((abs(lv) for lv in levels), default=0))
+        if best is None or score < best[0]:
+            best = (score, stack)
+        if score[0] == 0 and score[1] <= 4:
+            break
+    _place_once(labels, left, right, gap, best[1])
+    return labels
+
+
+def _place_once(labels: list[_Label], left: float, right: float, gap: float, stack: bool) -> tuple[list[int], int]:
+    """One greedy pass; the outermost level of each label and how many leaders had to cross a label."""
+    crossed = 0
     spans: dict[int, list[tuple[float, float]]] = {}
     leaders: list[tuple[int, float]] = []  # (level, x) of labels beyond the first level
+    order = [1, -1, 2, -2, 3, -3, 4, -4] + [k * s for k in range(5, 100) for s in (1, -1)]
     for label in sorted(labels, key=lambda l: l.tick_x):
-        half = label.width / 2
-        label.x = min(max(label.tick_x, left + half), right - half)
-        lo, hi = label.x - half - gap, label.x + half + gap
-        order = [1, -1, 2, -2, 3, -3, 4, -4] + [k * s for k in range(5, 200) for s in (1, -1)]
-        for level in order:
-            sign, depth = (1 if level > 0 else -1), abs(level)
-            if any(a < hi and lo < b for a, b in spans.get(level, [])):
-                continue
-            # its own leader passes the nearer levels on its side: none of their labels may sit on it
-            if any(a - gap / 2 < label.tick_x < b + gap / 2
-                   for d in range(1, depth) for a, b in spans.get(sign * d, [])):
-                continue
-            # it may not cover the leader of a label further out on its side
-            if any(lv * sign > depth and lo < x < hi for lv, x in leaders):
-                continue
-            label.level = level
-            spans.setdefault(level, []).append((label.x - half, label.x + half))
-            if depth > 1:
-                leaders.append((level, label.tick_x))
-            break
-    return labels
+        label.lines = label.stacked if stack and len(label.stacked) > 1 else (label.text,)
+        label.width = max(text_width(line, label.size) for line in label.lines)
+        label.x = min(max(label.tick_x, left + label.width / 2), right - label.width / 2)
+        chosen = next((lv for lv in order if _fits(label, lv, spans, leaders, gap)), None)
+        if chosen is None:  # no place clears every leader: clear the labels at least
+            chosen = next(lv for lv in order if _fits(label, lv, spans, leaders, gap, mind_leaders=False))
+            crossed += 1
+        label.level = chosen
+        sign, depth = (1 if chosen > 0 else -1), abs(chosen)
+        for d in range(depth, depth + len(label.lines)):
+            spans.setdefault(sign * d, []).append((label.x - label.width / 2, label.x + label.width / 2))
+        if depth > 1:
+            leaders.append((chosen, label.tick_x))
+    return [l.level + (len(l.lines) - 1) * (1 if l.level > 0 else -1) for l in labels], crossed
 
 
 class _TermAxis:
@@ -103,10 +136,12 @@ class _TermAxis:
             body_h = len(self.note_lines) * self.line_h
             self.axis_y_from_top = 0
         else:
-            labels = [_Label(" / ".join(texts), x_of(p), 0, text_width(" / ".join(texts), s), 0) for p, texts in self.groups.items()]
+            labels = [_Label(" / ".join(texts), x_of(p), 0, 0, 0,
+                             stacked=tuple(f"{t} /" for t in texts[:-1]) + (texts[-1],), size=s)
+                      for p, texts in self.groups.items()]
             self.labels = _place(labels, left, right, gap=s * 0.8)
-            self.above = max([l.level for l in self.labels if l.level > 0] or [0])
-            self.below = max([-l.level for l in self.labels if l.level < 0] or [0])
+            self.above = max([l.level + len(l.lines) - 1 for l in self.labels if l.level > 0] or [0])
+            self.below = max([-l.level + len(l.lines) - 1 for l in self.labels if l.level < 0] or [0])
             self.axis_y_from_top = self.above * self.line_h + s * 0.4
             body_h = self.axis_y_from_top + self.below * self.line_h + s * 0.5
         self.height = max(body_h, len(self.heading_lines) * self.line_h) + s * 0.7
@@ -137,28 +172,33 @@ class _TermAxis:
         canv.setFont(REGULAR, s)
         canv.setLineWidth(0.4)
         for label in self.labels:
-            if label.level > 0:
-                baseline = axis_y + 4 + (label.level - 1) * self.line_h + s * 0.2
-                edge = baseline - 1
-            else:
-                baseline = axis_y - 4 - (-label.level) * self.line_h + s * 0.3
-                edge = baseline + s * 0.85
-            if abs(label.level) > 1:  # straight from the tick, which the label covers
-                canv.line(label.tick_x, axis_y, label.tick_x, edge)
-            # a white ground so the faint guide lines never strike through a value
-            canv.setFillColor(colors.white)
-            canv.rect(label.x - label.width / 2 - 1, baseline - s * 0.25, label.width + 2, s * 1.05, stroke=0, fill=1)
-            canv.setFillColor(colors.black)
-            canv.drawCentredString(label.x, baseline, label.text)
+            n = len(label.lines)
+            for i, line in enumerate(label.lines):
+                # above the axis the last line sits nearest it; below, the first
+                depth = abs(label.level) + (n - 1 - i if label.level > 0 else i)
+                if label.level > 0:
+                    baseline = axis_y + 4 + (depth - 1) * self.line_h + s * 0.2
+                else:
+                    baseline = axis_y - 4 - depth * self.line_h + s * 0.3
+                if depth == abs(label.level) and abs(label.level) > 1:  # straight from the tick, which the label covers
+                    edge = baseline - 1 if label.level > 0 else baseline + s * 0.85
+                    canv.line(label.tick_x, axis_y, label.tick_x, edge)
+                # a white ground so the faint guide lines never strike through a value
+                w = text_width(line, s)
+                canv.setFillColor(colors.white)
+                canv.rect(label.x - w / 2 - 1, baseline - s * 0.25, w + 2, s * 1.05, stroke=0, fill=1)
+                canv.setFillColor(colors.black)
+                canv.drawCentredString(label.x, baseline, line)
 
 
 class NomogramBlock(Flowable):
     """Ruler + term axes (+ the total/risk axes on the last part); splits between term axes."""
 
     def __init__(self, sheet: dict, styles: Styles, signed: bool, terms: list[dict] | None = None,
-                 with_total: bool = True, continued: bool = False):
+                 with_total: bool = True, continued: bool = False, page_height: float | None = None):
         super().__init__()
         self.sheet, self.styles, self.signed = sheet, styles, signed
+        self.page_height = page_height  # a full frame's height, to share the last two pages evenly
         self.terms = sheet["terms"] if terms is None else terms
         self.with_total, self.continued = with_total, continued
         rows = [r["points"] for t in sheet["terms"] if t["kind"] != "pair" for r in t["rows"]]
@@ -228,8 +268,34 @@ class NomogramBlock(Flowable):
             k -= 1  # keep at least one term axis beside the total axis rather than a total axis alone
         if k == 0:
             return []
-        return [NomogramBlock(self.sheet, self.styles, self.signed, self.terms[:k], with_total=False, continued=self.continued),
-                NomogramBlock(self.sheet, self.styles, self.signed, self.terms[k:], with_total=self.with_total, continued=True)]
+        even = self._even_split(k, avail_height)
+        first = NomogramBlock(self.sheet, self.styles, self.signed, self.terms[:even], with_total=False,
+                              continued=self.continued, page_height=self.page_height)
+        rest = NomogramBlock(self.sheet, self.styles, self.signed, self.terms[even:], with_total=self.with_total,
+                             continued=True, page_height=self.page_height)
+        # a part shortened to share the pages evenly leaves room the rest must not run into
+        return [first, FrameBreak(), rest] if even < k else [first, rest]
+
+    def _even_split(self, k: int, avail_height: float) -> int:
+        """When what follows the first k axes fits one full page, move axes over until the two parts are about
+        the same height, so the last page does not hold one axis and the total alone."""
+        if not self.page_height:
+            return k
+        heights = [a.height for a in self._term_axes]
+
+        def rest(j):  # the part after the first j axes, on a page of its own (ruler redrawn)
+            return self._ruler_height() + sum(heights[j:]) + self._total_height()
+
+        if rest(k) > self.page_height:
+            return k
+        best = k
+        for j in range(k, 0, -1):
+            first = self._ruler_height() + sum(heights[:j])
+            if rest(j) > self.page_height or first > avail_height:
+                break
+            if abs(first - rest(j)) < abs(self._ruler_height() + sum(heights[:best]) - rest(best)):
+                best = j
+        return best
 
     # drawing ----------------------------------------------------------------------------------------
     def _tick_step(self, x_of, lo: int, hi: int, label_w: float) -> int:
@@ -312,11 +378,11 @@ class NomogramBlock(Flowable):
                 c.drawCentredString(x, y - s * 2.4, risks[t])
 
 
-def nomogram_block(sheet: dict, styles: Styles, signed: bool) -> list[Flowable]:
+def nomogram_block(sheet: dict, styles: Styles, signed: bool, page_height: float | None = None) -> list[Flowable]:
     title = Paragraph("Nomogram", styles.section)
     how = Paragraph(
         "For each item find the patient's value on its axis and read its points straight up on the Points ruler; "
         "add them up, find the sum on the Total points axis and read the risk below it. Values printed together "
         "(\u201c/\u201d) share one tick. The points tables are the reference; use the nomogram to see how "
         "each item weighs.", styles.body)
-    return [title, Spacer(1, 3), how, Spacer(1, styles.body_pt * 0.8), NomogramBlock(sheet, styles, signed)]
+    return [title, Spacer(1, 3), how, Spacer(1, styles.body_pt * 0.8), NomogramBlock(sheet, styles, signed, page_height=page_height)]

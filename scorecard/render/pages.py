@@ -228,7 +228,7 @@ def _story(sheet: dict, layout: Layout, styles: Styles, short_fingerprint: str, 
                 story.append(cautions_block(sheet, styles, short_fingerprint, width, layout.compact,
                                             run_together=layout.compact or section.columns > 1))
             elif part == "nomogram":
-                story += nomogram_block(sheet, styles, signed)
+                story += nomogram_block(sheet, styles, signed, furniture.body_top - furniture.body_bottom)
     return story
 
 

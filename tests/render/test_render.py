@@ -423,3 +423,40 @@ def test_a_term_left_off_prints_its_label_or_its_name_in_words():
     assert dropped_label(sheet, {"name": "geriatric_review", "label": "Geriatric review", "reason": "x"}) == "Geriatric review"
     flat = " ".join(_pages(_render(sheet, "ward-a4"))[1][4].split())
     assert "Left off this sheet: hearing (" in flat
+
+
+def _label_boxes_and_leaders(axis):
+    """(side level, x0, x1) for every drawn line of every label, and (side, depth, x) for every leader."""
+    boxes, leaders = [], []
+    for label in axis.labels:
+        sign = 1 if label.level > 0 else -1
+        for i in range(len(label.lines)):
+            boxes.append((sign * (abs(label.level) + i), label.x - label.width / 2, label.x + label.width / 2, label.text))
+        if abs(label.level) > 1:
+            leaders.append((sign, abs(label.level), label.tick_x, label.text))
+    return boxes, leaders
+
+
+@pytest.mark.parametrize("layout_name", ["ward-a4", "large-print-a4"])
+@pytest.mark.parametrize("which", ["twelve", "thirty", "demo"])
+def test_nomogram_labels_never_cover_each_other_or_a_leader(layout_name, which):
+    from scorecard.render.nomogram import NomogramBlock
+    from scorecard.render.styles import styles_for
+    from scorecard.sheet import load_sheet
+
+    doc = {"twelve": twelve_term_sheet, "thirty": many_term_sheet, "demo": lambda: load_sheet(DEMO_SHEET)}[which]()
+    layout = load_layout(layout_name)
+    block = NomogramBlock(doc, styles_for(layout), sheet_has_negative_points(doc))
+    block.wrap(layout.page_size[0] - layout.margins["left"] - layout.margins["right"], 1e5)
+    for axis in block._term_axes:
+        if axis.is_pair:
+            continue
+        boxes, leaders = _label_boxes_and_leaders(axis)
+        assert all(b[0] != 0 for b in boxes), axis.heading  # every label found a level
+        for i, a in enumerate(boxes):
+            for b in boxes[i + 1:]:
+                assert a[0] != b[0] or a[2] <= b[1] or b[2] <= a[1], (axis.heading, a[3], b[3])
+        for sign, depth, x, text in leaders:  # a leader runs from the axis out to its label's level
+            for level, x0, x1, other in boxes:
+                if other != text and level * sign > 0 and abs(level) < depth:
+                    assert not x0 < x < x1, (axis.heading, text, other)
