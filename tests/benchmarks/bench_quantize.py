@@ -33,7 +33,7 @@ from scorecard.model import model_from_dict  # noqa: E402
 from scorecard.quantize import Bound  # noqa: E402
 from scorecard.quantize.figures import quick_figures  # noqa: E402
 from scorecard.quantize.framingham import framingham_span, framingham_table  # noqa: E402
-from scorecard.quantize.quantizer import build_sheet, prepare, search  # noqa: E402
+from scorecard.quantize.quantizer import _attempt, build_sheet, prepare, search  # noqa: E402
 
 
 # -- models ------------------------------------------------------------------------------------------
@@ -173,6 +173,15 @@ def compare(label: str, model, data, bound: Bound) -> dict:
         print(f"at equal rows: baseline {c} categories, {rows} rows: ΔAUC {figs['auc_loss']:.4f}, mean |Δrisk| "
               f"{figs['mean_abs_risk_error'] * 100:.2f} pp, share over {figs['share_over_risk_error']:.1%}")
         print(f"LOSS RATIO ours/baseline at equal rows: mean |Δrisk| {ratio_mean:.2f}, ΔAUC {ratio_auc:.2f}  (target <= 0.5)")
+        # the simplest sheet also uses the fewest points that pass, while the baseline had the whole points
+        # limit: the same rows given the same limit compare the methods, not the bound
+        full = _attempt(problem, problem.design, bound.max_total_points, polish=True)
+        if full is not None:
+            fm = full.figures
+            print(f"ours with the same rows on up to {bound.max_total_points} points (totals 0-{full.total_range}): ΔAUC "
+                  f"{fm['auc_loss']:.4f}, mean |Δrisk| {fm['mean_abs_risk_error'] * 100:.2f} pp; LOSS RATIO at equal rows and "
+                  f"points limit: mean |Δrisk| {fm['mean_abs_risk_error'] / figs['mean_abs_risk_error']:.2f}, ΔAUC "
+                  f"{fm['auc_loss'] / figs['auc_loss'] if figs['auc_loss'] > 0 else float('nan'):.2f}")
     return {"ours_rows": ours_rows}
 
 
