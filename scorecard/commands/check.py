@@ -61,6 +61,11 @@ def command(sheet_path, model_path, cohort_path, output, json_path, outcome, rep
 
     Exit 0 when every check passes, 3 when one fails (the report is written either way), 2 on bad input,
     including a model that is not the one the sheet was built from.
+
+    \b
+    Example:
+      scorecard check demo_output/sheet.json --model demo_output/edited.model.json --data demo_output/audit-cohort.csv \\
+          -o check-report.pdf --json check-report.json
     """
     out = output_path(output, sheet_path, model_path, cohort_path)
     json_out = output_path(json_path, sheet_path, model_path, cohort_path) if json_path else None

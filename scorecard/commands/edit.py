@@ -101,6 +101,12 @@ def command(model_path, declarations, merges, clips, monotones, zeros, reason, e
     cost (AUC before and after; calibration-in-the-large, observed minus mean predicted risk). The cost is
     also printed. One run with several edits gives the same file as running them one at a time. The
     output's fingerprint changes with every edit; nothing is written if any edit is refused.
+
+    \b
+    Example:
+      scorecard edit demo_output/fitted.model.json --declare geriatric_review=care_process \\
+          --zero geriatric_review --clip medicines=:12 --reason "care-process marker; few patients above 12" \\
+          --data demo_output/cohort.csv -o edited.model.json
     """
     out = output_path(output, model_path, cohort_path or "")
     if not (declarations or merges or clips or monotones or zeros):

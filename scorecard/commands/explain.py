@@ -105,6 +105,11 @@ def command(model_path: str, row: int | None, cohort_path: str | None, pairs: tu
 
     Contributions are on the log-odds scale (0 = the population average for that term); `odds x` is the
     factor the term multiplies the odds by. The risk is the model's exact risk, the same as `scorecard predict`.
+
+    \b
+    Examples:
+      scorecard explain demo_output/edited.model.json --row 12 --data demo_output/audit-cohort.csv
+      scorecard explain demo_output/edited.model.json --row 12 --data demo_output/audit-cohort.csv --json
     """
     model = load_model(model_path)
     if pairs and (row is not None or cohort_path):

@@ -65,6 +65,12 @@ def coefficients(table, output, name, model_version, event, horizon, population,
       prior_delirium,1.1          no min/max: a flag (0/1, no/yes)
 
     Every value must be measured when the model is used: a regression has no score for a missing value.
+
+    \b
+    Example (the table has the header row term,coefficient,min,max):
+      scorecard import coefficients regression.csv --name "Delirium regression" --event "Delirium" \\
+          --horizon "within 5 days after surgery" --population "adults aged 60 or over after hip-fracture surgery" \\
+          --centre-on cohort.csv -o regression.model.json
     """
     from scorecard.model.importers.coefficients import import_coefficient_table
 
@@ -89,11 +95,18 @@ def shapes(table, output, name, model_version, event, horizon, population) -> No
       sodium,130,135,,0.20              the next bin starts where the last one ended
       sodium,135,,,0.0
       sodium,,,not measured,0.10        the score when the value is missing
-      residence,,,own_home,0.0          a level of a categorical feature
-      prior_delirium,,,yes,1.1          levels no/yes (or 0/1) make a flag
+      residence,,,own_home,0.0          one row per level of a categorical feature
+      residence,,,care_home,0.40
+      prior_delirium,,,no,0.0           levels no and yes (or 0 and 1) make a flag
+      prior_delirium,,,yes,1.1
 
     Gaps and overlaps between bins are refused, naming the row. Without a not-measured row, a missing value
     of that feature is refused when the model is used.
+
+    \b
+    Example (the table has the header row feature,lower,upper,level,score):
+      scorecard import shapes shapes.csv --name "Delirium shapes" --event "Delirium" \\
+          --horizon "within 5 days after surgery" -o shapes.model.json
     """
     from scorecard.model.importers.shape_table import import_shape_table
 

@@ -23,6 +23,10 @@ def command(model_path: str, cohort_path: str, output: str, with_parts: bool, ke
     Writes `logodds` and `risk` columns (risk as a fraction, 0-1), in cohort order. This is the software
     score the printed sheet is later checked against. Values outside the training range are scored in the
     end bin and counted on stderr; not-measured values follow each feature's policy.
+
+    \b
+    Example:
+      scorecard predict demo_output/edited.model.json demo_output/audit-cohort.csv -o risks.csv --keep patient_id --contributions
     """
     out = output_path(output, model_path, cohort_path)
     model = load_model(model_path)

@@ -53,6 +53,11 @@ def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_shar
 
     Exit 3 when no sheet within --max-rows and --max-total-points meets the bound (the message gives the
     best achievable figures and what to relax); exit 2 for bad options or files. See docs/quantization.md.
+
+    \b
+    Examples:
+      scorecard quantize demo_output/edited.model.json --data demo_output/cohort.csv --bands "low<10,moderate<25,high" -o sheet.json
+      scorecard quantize demo_output/edited.model.json --data demo_output/cohort.csv --max-auc-loss 0.005 --max-rows 10 -o strict.sheet.json
     """
     out = output_path(output, model_path, *( [data_path] if data_path else []))
     bound = Bound(max_auc_loss=max_auc_loss, max_risk_error=max_risk_error, risk_error_share=risk_error_share,

@@ -34,6 +34,11 @@ def command(sheet_path: str, layout_name: str, output: str, preview_dir: str | N
     never shrunk below the layout's minimum and nothing is clipped: tables run on to further pages, and a
     layout with a page limit (the pocket card) stops with exit code 2 naming what does not fit.
     The same sheet and layout always give the same PDF bytes.
+
+    \b
+    Examples:
+      scorecard render demo_output/sheet.json -o sheet.pdf --preview sheet-previews
+      scorecard render demo_output/sheet.json --layout pocket-card -o card.pdf
     """
     out = output_path(output, sheet_path)
     preview_folder(preview_dir)

@@ -37,6 +37,10 @@ def command(model_path: str, cohort_path: str | None, output: str, preview_dir: 
 
     Declare directions and care-process markers with `scorecard edit --declare`; fix shapes with the other
     `scorecard edit` options. The same inputs give the same PDF bytes. Flags are also listed on stderr.
+
+    \b
+    Example:
+      scorecard review demo_output/fitted.model.json --data demo_output/cohort.csv -o review.pdf --preview review-previews
     """
     out = output_path(output, model_path, cohort_path or "")
     preview_folder(preview_dir)

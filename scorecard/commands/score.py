@@ -39,6 +39,10 @@ def command(sheet_path: str, cohort_path: str, output: str, model_path: str | No
     `sheet_risk` (fraction) and `sheet_risk_text` (as printed), `band` when the sheet has bands, and with
     --model also `model_risk` and `risk_difference`. Values outside a training range are scored in the end
     row; when most values of an item are outside, a loud warning suggests wrong units.
+
+    \b
+    Example:
+      scorecard score demo_output/sheet.json demo_output/audit-cohort.csv --model demo_output/edited.model.json --keep patient_id -o scored.csv
     """
     out = output_path(output, sheet_path, cohort_path, model_path or "")
     sheet = load_sheet(sheet_path)

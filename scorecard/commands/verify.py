@@ -31,6 +31,10 @@ def command(pdf_path: str, sheet_path: str) -> None:
 
     Exit 0 when everything matches, 3 on any mismatch (a PDF of another sheet version, or any changed
     number), 2 when the file is not a readable sheet PDF.
+
+    \b
+    Example:
+      scorecard verify demo_output/sheet.pdf --sheet demo_output/sheet.json
     """
     sheet = load_sheet(sheet_path)
     result = verify_pdf(sheet, pdf_path)
