@@ -9,17 +9,19 @@ import click
 from scorecard.errors import UserError
 
 
-def output_path(path: str, *inputs: str) -> Path:
-    """Refuse an output that would overwrite one of the inputs (DESIGN: never silently overwrite an input)."""
+def output_path(path: str, *inputs: str, option: str = "-o") -> Path:
+    """Refuse an output that would overwrite one of the inputs (DESIGN: never silently overwrite an input).
+
+    `option` is the option the user typed for this output (e.g. --json), so the message names it."""
     out = Path(path)
     for given in inputs:
         if given and Path(given).exists() and out.exists() and out.resolve() == Path(given).resolve():
-            raise UserError(f"{out}: is also an input of this command; choose another path with -o")
+            raise UserError(f"{out}: is also an input of this command; choose another path with {option}")
     if out.is_dir():
-        raise UserError(f"{out}: is a folder; give a file name with -o")
+        raise UserError(f"{out}: is a folder; give a file name with {option}")
     parent = out.parent if str(out.parent) else Path(".")
     if not parent.is_dir():
-        raise UserError(f"{out}: folder {parent} does not exist; create it or choose another -o path")
+        raise UserError(f"{out}: folder {parent} does not exist; create it or choose another {option} path")
     return out
 
 

@@ -41,3 +41,13 @@ def test_negative_seed_is_a_usage_error_that_writes_nothing(tmp_path):
     result = run(*args, "-o", tmp_path / "r.pdf", "--seed", -1)
     assert result.exit_code == 2 and "Traceback" not in result.output and "--seed" in result.output
     assert not (tmp_path / "r.pdf").exists()
+
+
+def test_a_bad_json_path_names_the_json_option_and_nothing_is_written(tmp_path):
+    args = _files(tmp_path)
+    result = run(*args, "-o", tmp_path / "r.pdf", "--json", tmp_path / "missing" / "r.json")
+    assert result.exit_code == 2 and len(result.output.strip().splitlines()) == 1
+    assert "choose another --json path" in result.output
+    result = run(*args, "-o", tmp_path / "r.pdf", "--json", tmp_path / "model.json")
+    assert result.exit_code == 2 and "choose another path with --json" in result.output
+    assert not (tmp_path / "r.pdf").exists()
