@@ -262,4 +262,4 @@ def command(data_path, outcome, features, exclude, categorical, weights_column, 
         say(f"out-of-bag AUC {validation['out_of_bag_auc']:.3f} on {validation['out_of_bag_rows']} patients")
     fingerprint = save_model(model, out, protect=(data_path,))
     pairs_kept = [t.name for t in model.terms if t.kind == "pair"]
-    say(f"wrote {out}: {len(model.terms) - len(pairs_kept)} shapes, pairs: {', '.join(pairs_kept) or 'none'}; fingerprint {fingerprint[:16]}")
+    say(f"wrote {out}: {len(model.terms) - len(pairs_kept)} shapes, pairs: {', '.join(pairs_kept) or 'none'}; fingerprint {fingerprint[:12]}")

@@ -70,12 +70,15 @@ def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_shar
                          merge_equal_levels=merge_equal_levels, bootstrap=bootstrap, title=title, progress=say)
     save_sheet(doc, out, protect=(model_path, data_path) if data_path else (model_path,))
     a = doc["achieved"]
-    say(f"sheet: {doc['report']['printed_rows']} rows, totals {doc['total']['min']}-{doc['total']['max']}, "
-        f"{doc['scale']['logodds_per_point']:.3g} log-odds per point")
-    say(f"achieved: ΔAUC {a['auc_loss']:.4f}, {a['share_over_risk_error']:.1%} over {bound.max_risk_error * 100:g} pp, "
-        f"p99 |Δrisk| {a['p99_abs_risk_error'] * 100:.1f} pp, mean {a['mean_abs_risk_error'] * 100:.1f} pp")
-    say(f"certificate: no patient further than {doc['certificate']['max_logodds_error']:.2f} log-odds "
-        f"({doc['certificate']['max_risk_error'] * 100:.1f} pp) from the model")
+    # spelled out: "points" on a sheet are sheet points, so risk differences are always "percentage points"
+    say(f"sheet: {doc['report']['printed_rows']} printed rows, total points {doc['total']['min']} to {doc['total']['max']}, "
+        f"one point = {doc['scale']['logodds_per_point']:.3g} log-odds")
+    say(f"achieved: AUC loss {a['auc_loss']:.4f} (bound {bound.max_auc_loss:g}); "
+        f"{a['share_over_risk_error']:.1%} of patients misstated by more than {bound.max_risk_error * 100:g} percentage points "
+        f"(bound {bound.risk_error_share:.0%}); |sheet risk - model risk|: 99th percentile {a['p99_abs_risk_error'] * 100:.1f}, "
+        f"mean {a['mean_abs_risk_error'] * 100:.1f} percentage points")
+    say(f"certificate: inside the training ranges no patient is further than {doc['certificate']['max_logodds_error']:.2f} "
+        f"log-odds ({doc['certificate']['max_risk_error'] * 100:.1f} percentage points of risk) from the model")
     extra = doc["report"]["readability"]["extra_error_share"]
     say(f"readable cut-points cost {extra:+.0%} error before rounding (vs cuts anywhere between model bins)")
     for d in doc["dropped_terms"]:
