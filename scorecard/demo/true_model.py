@@ -40,7 +40,7 @@ FEATURE_INFO = [
     ("cognition", "Cognitive screen score (0–10)", "", 0, "continuous", "error", "decreasing"),
     ("sodium", "Sodium", "mmol/L", 0, "continuous", "error", None),
     ("haemoglobin", "Haemoglobin", "g/L", 0, "continuous", "error", "decreasing"),
-    ("hours_to_surgery", "Hours from admission to surgery", "hours", 0, "continuous", "error", "increasing"),
+    ("hours_to_surgery", "Time from admission to surgery", "hours", 0, "continuous", "error", "increasing"),
     ("medicines", "Number of regular medicines", "", 0, "continuous", "error", "increasing"),
     ("albumin", "Albumin", "g/L", 0, "continuous", "score", "decreasing"),
     ("temperature", "Temperature", "°C", 1, "continuous", "error", None),

@@ -170,3 +170,12 @@ def test_example_file_is_plain_json_listing_every_feature():
     doc = json.loads(EXAMPLE.read_text("utf-8"))
     assert doc["document"] == "scorecard-model" and doc["link"] == "logit"
     assert {f["name"] for f in doc["features"]} == set(FEATURES)
+
+
+def test_no_demo_label_repeats_its_unit():
+    # the sheet prints "label (unit)": "Hours from admission to surgery (hours)" said the unit twice
+    from scorecard.demo.true_model import FEATURE_INFO
+
+    for name, label, unit, *_ in FEATURE_INFO:
+        if unit:
+            assert unit.lower() not in label.lower(), (name, label, unit)
