@@ -72,7 +72,7 @@ def table_text(model: AdditiveModel, result: dict, where: str) -> str:
     w_term = max([len("term")] + [len(r[0]) for r in rows])
     w_val = min(40, max([len("value")] + [len(r[1]) for r in rows]))
     lines = [
-        f"{model.name} {model.version}: {model.outcome['event']} ({model.outcome['horizon']})",
+        f"{model.name} version {model.version}: {model.outcome['event']} ({model.outcome['horizon']})",
         f"patient: {where}",
         "",
         f"{'term':<{w_term}}  {'value':<{w_val}}  {'log-odds':>9}  {'odds x':>7}  note",
@@ -98,7 +98,8 @@ def table_text(model: AdditiveModel, result: dict, where: str) -> str:
 @click.option("--row", type=int, metavar="N", help="Patient to explain: data row N of --data (1 = first row under the header).")
 @click.option("--data", "cohort_path", metavar="COHORT.csv", type=click.Path(), help="Cohort holding the patient.")
 @click.option("--values", "pairs", multiple=True, metavar="FEATURE=VALUE",
-              help="Describe the patient directly instead (repeatable); features not given count as not measured.")
+              help="Describe the patient directly instead (repeatable); features not given count as not measured, "
+                   "which is refused for a feature the model cannot score when missing.")
 @click.option("--json", "as_json", is_flag=True, help="Print the explanation as JSON instead of a table.")
 def command(model_path: str, row: int | None, cohort_path: str | None, pairs: tuple[str, ...], as_json: bool) -> None:
     """Explain one patient's risk: every term's contribution, largest first, with the baseline and the risk.

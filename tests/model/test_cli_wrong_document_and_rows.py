@@ -49,3 +49,11 @@ def test_a_sheet_given_as_the_model_is_named_as_such(model_doc, tmp_path):
         assert len(result.output.strip().splitlines()) == 1
         assert "this is a sheet document, not a model" in result.output and str(sheet_path) in result.output
     assert not out.exists() and not (tmp_path / "r.pdf").exists()
+
+
+def test_explain_heading_says_version(model_doc, tmp_path):
+    model_path, cohort_path = _files(model_doc, tmp_path)
+    result = run("explain", model_path, "--row", 1, "--data", cohort_path)
+    assert result.exit_code == 0, result.output
+    first = result.stdout.splitlines()[0]
+    assert first.startswith(f"{model_doc['name']} version {model_doc['version']}: "), first
