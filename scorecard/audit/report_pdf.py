@@ -19,6 +19,7 @@ from reportlab.lib.styles import ParagraphStyle
 from reportlab.lib.units import mm
 from reportlab.pdfbase import pdfmetrics
 from reportlab.pdfbase.ttfonts import TTFont
+from reportlab.pdfgen.canvas import Canvas
 from reportlab.platypus import KeepTogether, Paragraph, SimpleDocTemplate, Spacer, Table, TableStyle
 from xml.sax.saxutils import escape
 
@@ -284,15 +285,39 @@ def report_pdf_bytes(report: dict, cautions: list[str]) -> bytes:
         canvas.drawText(text)
         canvas.setFont(bold, 7)
         canvas.drawString(15 * mm, 6 * mm, f"Sheet fingerprint {sheet['short_fingerprint']}")
-        canvas.drawRightString(width - 15 * mm, 6 * mm, f"page {doc.page}")
         canvas.restoreState()
 
     buffer = io.BytesIO()
     doc = SimpleDocTemplate(buffer, pagesize=A4, leftMargin=15 * mm, rightMargin=15 * mm, topMargin=14 * mm, bottomMargin=26 * mm,
                             title=f"Agreement report {sheet['short_fingerprint']}", author="scorecard check",
                             subject=sheet["title"], creator="scorecard", producer="scorecard", invariant=1)
-    doc.build(story, onFirstPage=on_page, onLaterPages=on_page)
+    doc.build(story, onFirstPage=on_page, onLaterPages=on_page, canvasmaker=_page_of_total_canvas(bold))
     return buffer.getvalue()
+
+
+def _page_of_total_canvas(font: str):
+    """A canvas that holds every page until the end and then stamps 'page x of y', so an auditor sees a missing
+    page (common practice: the two-pass page-count recipe for reportlab canvases)."""
+
+    class PageOfTotalCanvas(Canvas):
+        def __init__(self, *args, **kwargs):
+            super().__init__(*args, **kwargs)
+            self._pages = []
+
+        def showPage(self):
+            self._pages.append(dict(self.__dict__))
+            self._startPage()
+
+        def save(self):
+            total = len(self._pages)
+            for state in self._pages:
+                self.__dict__.update(state)
+                self.setFont(font, 7)
+                self.drawRightString(A4[0] - 15 * mm, 6 * mm, f"page {self._pageNumber} of {total}")
+                super().showPage()
+            super().save()
+
+    return PageOfTotalCanvas
 
 
 def _wrap(text: str, font: str, size: float, width: float) -> list[str]:

@@ -51,3 +51,17 @@ def test_a_bad_json_path_names_the_json_option_and_nothing_is_written(tmp_path):
     result = run(*args, "-o", tmp_path / "r.pdf", "--json", tmp_path / "model.json")
     assert result.exit_code == 2 and "choose another path with --json" in result.output
     assert not (tmp_path / "r.pdf").exists()
+
+
+def test_every_report_page_says_page_x_of_y_and_is_the_same_bytes_twice(tmp_path):
+    import pdfplumber
+
+    args = _files(tmp_path)
+    for name in ("a.pdf", "b.pdf"):
+        result = run(*args, "-o", tmp_path / name, "--bootstrap", 20)
+        assert result.exit_code in (0, 3), result.output
+    assert (tmp_path / "a.pdf").read_bytes() == (tmp_path / "b.pdf").read_bytes()
+    with pdfplumber.open(tmp_path / "a.pdf") as pdf:
+        total = len(pdf.pages)
+        for number, page in enumerate(pdf.pages, start=1):
+            assert f"page {number} of {total}" in (page.extract_text() or "")
