@@ -387,8 +387,9 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
             effect = float(np.ptp(curve.scores))
             if effect == 0:
                 reason = "it has no effect in the model (every score is 0)"
-            elif lay.n_rows <= 1:
-                # the row search gave it a single row: the sheet meets the bound without it
+            elif len(np.unique(lay.row_of_piece[:curve.n_main])) <= 1:
+                # the row search gave it a single row (a not-measured row aside; a pair one cell): the sheet
+                # meets the bound without it
                 reason = (f"not needed to meet the accuracy bound: its whole effect ({effect:.2f} log-odds, about "
                           f"{effect / scale:.1f} points) is left to the other terms")
             else:

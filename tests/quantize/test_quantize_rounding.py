@@ -88,3 +88,13 @@ def test_the_largest_sheet_gets_the_full_rounding_before_the_bound_is_called_out
     doc = quantize_model(true_model(), bound=bound, bootstrap=0)
     assert doc["achieved"]["auc_loss"] <= bound.max_auc_loss
     assert doc["achieved"]["share_over_risk_error"] <= bound.risk_error_share
+
+
+def test_a_term_given_one_row_besides_not_measured_is_said_to_be_not_needed(small_model):
+    # albumin keeps its own not-measured row; when the row search gives its measured values a single row the
+    # term is left off because the bound is met without it, not because its effect rounds to 0
+    doc = quantize_model(small_model, bootstrap=0,
+                         bound=Bound(max_auc_loss=0.5, max_risk_error=0.5, risk_error_share=1.0, max_rows=3))
+    reasons = {d["name"]: d["reason"] for d in doc["dropped_terms"]}
+    assert doc["report"]["rows_per_term"]["albumin"] == 2  # one range and the not-measured row
+    assert reasons["albumin"].startswith("not needed to meet the accuracy bound")
