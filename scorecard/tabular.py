@@ -32,6 +32,12 @@ def read_csv(path: str | Path, what: str = "cohort") -> pd.DataFrame:
     except (pd.errors.ParserError, UnicodeDecodeError) as exc:
         raise UserError(f"{p}: not a readable CSV ({str(exc).splitlines()[0]}); save it as comma-separated UTF-8") from None
     header = [str(c) for c in frame.columns]
+    if len(header) == 1:
+        # spreadsheet exports in many locales separate with ';' (or a tab): say so instead of "column missing"
+        for mark, name in ((";", "semicolons"), ("\t", "tabs")):
+            if mark in header[0]:
+                raise UserError(f"{p}: the header is separated by {name}, not commas; save it as comma-separated "
+                                f"CSV (UTF-8), or replace the {name} with commas")
     dupes = sorted({c.split(".")[0] for c in header if _is_pandas_dupe(c, header)})
     if dupes:
         raise UserError(f"{p}: column {dupes[0]!r} appears more than once in the header; rename or remove the copy")

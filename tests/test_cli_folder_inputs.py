@@ -1,10 +1,13 @@
 """A folder given where a file is expected (and a file where --preview wants a folder) is one `error:` line
-naming it, exit 2, on every verb; nothing is written. (click's own path check printed three lines of usage.)"""
+naming it, exit 2, on every verb; nothing is written. (click's own path check printed three lines of usage.)
+A semicolon- or tab-separated export is named as such rather than as "column missing"."""
 
 import pytest
 from click.testing import CliRunner
 
 from scorecard.cli import main
+from scorecard.errors import UserError
+from scorecard.tabular import read_csv
 
 
 def run(*args):
@@ -49,3 +52,17 @@ def test_a_file_for_the_preview_folder_stops_before_the_pdf_is_written(where, ve
     assert result.exit_code == 2 and len(result.output.strip().splitlines()) == 1
     assert "--preview" in result.output and "is a file" in result.output
     assert not (where / "x.pdf").exists()
+
+
+@pytest.mark.parametrize("separator,word", [(";", "semicolons"), ("\t", "tabs")])
+def test_a_semicolon_or_tab_separated_export_is_named_as_such(where, separator, word):
+    # a locale's spreadsheet export is the usual cause of "every column is missing"
+    table = where / "export.csv"
+    table.write_text(separator.join(["age", "sodium", "delirium"]) + "\n" + separator.join(["80", "140", "0"]) + "\n")
+    for args in (["fit", table, "--outcome", "delirium", "-o", where / "x.json"],
+                 ["import", "coefficients", table, "-o", where / "x.json"]):
+        result = run(*args)
+        assert result.exit_code == 2 and len(result.output.strip().splitlines()) == 1, result.output
+        assert f"separated by {word}, not commas" in result.output and str(table) in result.output
+    with pytest.raises(UserError, match=f"separated by {word}"):
+        read_csv(table)
