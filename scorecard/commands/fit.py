@@ -31,14 +31,20 @@ def _settings(values: tuple[str, ...], option: str, known: list[str], cast) -> d
         name, sep, value = item.partition("=")
         name = name.strip()
         if not sep or not name:
-            raise UserError(f"{option} {item!r}: write it as FEATURE=VALUE, e.g. {option} sodium=mmol/L")
+            raise UserError(f"{option} {item!r}: write it as FEATURE=VALUE, e.g. {option} {_EXAMPLES[option]}")
         if name not in known:
             raise UserError(f"{option} {item!r}: {name!r} is not a feature being fitted; features: {', '.join(known)}")
         try:
             out[name] = cast(value.strip())
         except ValueError:
-            raise UserError(f"{option} {item!r}: {value.strip()!r} is not a valid value") from None
+            raise UserError(f"{option} {item!r}: {value.strip()!r} is not a valid value; "
+                            f"e.g. {option} {_EXAMPLES[option]}") from None
     return out
+
+
+# what a FEATURE=VALUE option looks like, for its error message
+_EXAMPLES = {"--unit": "sodium=mmol/L", "--decimals": "temperature=1 (a whole number from 0 to 6)",
+             "--label": '"sodium=Sodium (blood)"'}
 
 
 def _decimals(text: str) -> int:

@@ -129,6 +129,15 @@ def test_unknown_feature_names(cohort, tmp_path):
     _bad(tmp_path, [cohort, "--outcome", "delirium", "--pairs", "many"], "--pairs 'many'")
 
 
+def test_a_malformed_setting_shows_an_example_of_its_own_option(cohort, tmp_path):
+    line = _bad(tmp_path, [cohort, "--outcome", "delirium", "--decimals", "sodium=x"], "'x' is not a valid value")
+    assert "--decimals temperature=1" in line and "mmol/L" not in line
+    line = _bad(tmp_path, [cohort, "--outcome", "delirium", "--decimals", "sodium"], "write it as FEATURE=VALUE")
+    assert "--decimals temperature=1" in line
+    line = _bad(tmp_path, [cohort, "--outcome", "delirium", "--label", "sodium"], "write it as FEATURE=VALUE")
+    assert '--label "sodium=Sodium (blood)"' in line
+
+
 def test_output_may_not_overwrite_the_data(cohort, tmp_path):
     before = cohort.read_bytes()
     result = run("fit", cohort, "--outcome", "delirium", "-o", cohort, *QUICK)
