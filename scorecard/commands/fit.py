@@ -194,6 +194,7 @@ def command(data_path, outcome, features, exclude, categorical, weights_column, 
           --event "delirium" --horizon "5 days after surgery" --unit sodium=mmol/L -o delirium.model.json
     """
     out = output_path(output, data_path)
+    pairs = _pairs_option(pairs_text)  # before reading: a typo in an option should not wait for the data
     frame = read_csv(data_path, "patient data")
     source = str(data_path)
     columns = list(frame.columns)
@@ -237,7 +238,6 @@ def command(data_path, outcome, features, exclude, categorical, weights_column, 
     unit_of = _settings(units, "--unit", kept, str)
     decimals_of = _settings(decimals, "--decimals", kept, _decimals)
     label_of = _settings(labels, "--label", kept, str)
-    pairs = _pairs_option(pairs_text)
     say(f"read {len(frame)} patients, {int(y.sum())} events, {len(kept)} features from {source}")
 
     from scorecard.fit import AdditiveRiskClassifier

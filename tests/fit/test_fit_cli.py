@@ -136,6 +136,8 @@ def test_a_malformed_setting_shows_an_example_of_its_own_option(cohort, tmp_path
     assert "--decimals temperature=1" in line
     line = _bad(tmp_path, [cohort, "--outcome", "delirium", "--label", "sodium"], "write it as FEATURE=VALUE")
     assert '--label "sodium=Sodium (blood)"' in line
+    result = run("fit", cohort, "--outcome", "delirium", "--pairs", "-1", "-o", tmp_path / "never.json", *QUICK)
+    assert result.exit_code == 2 and result.stderr.strip().splitlines() == [result.stderr.strip()]  # no warnings first
 
 
 def test_output_may_not_overwrite_the_data(cohort, tmp_path):
