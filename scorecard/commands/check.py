@@ -6,20 +6,19 @@ import click
 
 from scorecard.audit.agreement import check_agreement
 from scorecard.audit.matching import OVERRIDE_OPTION, model_matches_sheet
+from scorecard.audit.paper import sheet_features
 from scorecard.audit.report_pdf import report_pdf_bytes
 from scorecard.commands._common import output_path, say
 from scorecard.errors import CheckFailed, UserError
 from scorecard.jsondoc import atomic_write_bytes, atomic_write_text, pretty_text
 from scorecard.model import load_model
 from scorecard.sheet import CAUTIONS, load_sheet
-from scorecard.tabular import read_csv
+from scorecard.tabular import read_csv, require_columns
 
 
 def guess_outcome_column(sheet: dict, columns: list[str]) -> str | None:
     """A cohort column the sheet's outcome names (e.g. 'delirium' in 'Delirium within 5 days'), never a feature."""
     import re
-
-    from scorecard.audit.paper import sheet_features
 
     words = set(re.findall(r"[a-z0-9_]+", sheet["outcome"]["event"].lower()))
     features = set(sheet_features(sheet))
@@ -75,6 +74,7 @@ def command(sheet_path, model_path, cohort_path, output, json_path, outcome, rep
     model = load_model(model_path)
     matches = model_matches_sheet(model, sheet, model_path, allow_other, say)
     cohort = read_csv(cohort_path)
+    require_columns(cohort, sheet_features(sheet), "the sheet")  # before the outcome note: a bad cohort is one line
     if outcome is None:
         outcome = guess_outcome_column(sheet, list(cohort.columns))
         if outcome:

@@ -65,3 +65,13 @@ def test_every_report_page_says_page_x_of_y_and_is_the_same_bytes_twice(tmp_path
         total = len(pdf.pages)
         for number, page in enumerate(pdf.pages, start=1):
             assert f"page {number} of {total}" in (page.extract_text() or "")
+
+
+def test_a_cohort_missing_a_sheet_column_is_the_only_line(tmp_path):
+    args = _files(tmp_path)
+    table = pd.read_csv(tmp_path / "cohort.csv").drop(columns=["temperature"])
+    table.to_csv(tmp_path / "short.csv", index=False)
+    args[args.index("--data") + 1] = tmp_path / "short.csv"
+    result = run(*args, "-o", tmp_path / "r.pdf")
+    assert result.exit_code == 2 and len(result.output.strip().splitlines()) == 1, result.output
+    assert "'temperature'" in result.output and not (tmp_path / "r.pdf").exists()
