@@ -11,7 +11,7 @@ from scorecard.errors import UserError
 from scorecard.jsondoc import atomic_write_bytes
 from scorecard.model import load_model
 from scorecard.review.report import build_review, pdf_bytes, write_previews
-from scorecard.tabular import read_csv
+from scorecard.tabular import read_csv, require_columns
 
 
 @click.command()
@@ -46,6 +46,8 @@ def command(model_path: str, cohort_path: str | None, output: str, preview_dir: 
     preview_folder(preview_dir)
     model = load_model(model_path)
     cohort = read_csv(cohort_path) if cohort_path else None
+    if cohort is not None:
+        require_columns(cohort, model.used_features, "the model")  # refused before the progress line
     say(f"reviewing {len(model.terms)} terms of {model.name} version {model.version}...")
     figures, ranking, flags = build_review(model, cohort, cohort_name=Path(cohort_path).name if cohort_path else None)
     data = pdf_bytes(figures)

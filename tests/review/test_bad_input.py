@@ -68,3 +68,14 @@ def test_bad_explain_exits_2(care_model_path, cohort_csv, run_cli, args, expecte
 def test_review_of_a_missing_model_exits_2(review_dir, run_cli):
     result = run_cli("review", review_dir / "nope.json", "-o", review_dir / "nope.pdf")
     assert result.exit_code == 2 and "no such file" in result.stderr
+
+
+def test_review_with_a_cohort_missing_a_column_is_one_line(care_model_path, cohort_csv, review_dir, run_cli):
+    import pandas as pd
+
+    short = review_dir / "short.csv"
+    pd.read_csv(cohort_csv).drop(columns=["sodium"]).to_csv(short, index=False)
+    result = run_cli("review", care_model_path, "--data", short, "-o", review_dir / "never.pdf")
+    assert result.exit_code == 2
+    assert result.stderr.strip().splitlines() == [result.stderr.strip()] and "'sodium'" in result.stderr
+    assert not (review_dir / "never.pdf").exists()
