@@ -376,6 +376,20 @@ def parse_bands(text: str | None) -> list[dict]:
     return bands
 
 
+def _zero_edit(model, term_name: str) -> dict | None:
+    """The latest edit that set this term to zero (`scorecard edit --zero`), if any."""
+    for edit in reversed(model.provenance.get("edits") or []):
+        if edit.get("action") == "zero" and edit.get("term") == term_name:
+            return edit
+    return None
+
+
+def _term_label(curve) -> str:
+    """What a reader knows a term by: its feature's label, or both labels for a pair."""
+    features = getattr(curve, "features", None) or [curve.feature]
+    return " and ".join(f.label for f in features)
+
+
 def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equal_levels: bool = False,
                 bootstrap: int = 200, title: str | None = None, settings: dict | None = None) -> dict:
     model = problem.model
@@ -385,16 +399,23 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
         if np.ptp(pts) == 0:
             offset += scale * float(pts[0])  # a constant term moves into the offset
             effect = float(np.ptp(curve.scores))
-            if effect == 0:
+            zeroed = _zero_edit(model, curve.name)
+            if effect == 0 and zeroed is not None:
+                reason = f"set to zero at review by {zeroed.get('by', 'an editor')}: {zeroed.get('reason') or 'no reason given'}"
+                printed = "set to zero at review; see the model's edit history"
+            elif effect == 0:
                 reason = "it has no effect in the model (every score is 0)"
+                printed = "no effect in the model"
             elif len(np.unique(lay.row_of_piece[:curve.n_main])) <= 1:
                 # the row search gave it a single row (a not-measured row aside; a pair one cell): the sheet
                 # meets the bound without it
                 reason = (f"not needed to meet the accuracy bound: its whole effect ({effect:.2f} log-odds, about "
                           f"{effect / scale:.1f} points) is left to the other terms")
+                printed = "small effect; the sheet meets its accuracy bound without it"
             else:
                 reason = f"its whole effect ({effect:.2f} log-odds) rounds to 0 points at {scale:.3g} log-odds per point"
-            dropped.append({"name": curve.name, "reason": reason})
+                printed = "its effect is smaller than one point"
+            dropped.append({"name": curve.name, "label": _term_label(curve), "reason": reason, "printed": printed})
             pts = np.zeros_like(pts)
         low, high = curve.score_range()
         sheet_value = scale * pts[lay.row_of_piece]

@@ -230,7 +230,8 @@ def ranges_block(sheet: dict, styles: Styles, training_ranges: list[str], compac
                      "certain: " + "; ".join(markup(t) for t in training_ranges) + ".")
     lines.append("Not measured: use the \u2018not measured\u2019 row. A table without that row needs the measurement.")
     if sheet.get("dropped_terms"):
-        dropped = "; ".join(markup(f"{dropped_label(sheet, d)} ({d['reason']})") for d in sheet["dropped_terms"])
+        dropped = "; ".join(markup(f"{dropped_label(sheet, d)} ({d.get('printed') or d['reason']})")
+                            for d in sheet["dropped_terms"])
         lines.append(f"Left off this sheet: {dropped}.")
     return _paragraphs(lines, styles.body, "the range rules", "Outside the printed ranges", styles, compact)
 
