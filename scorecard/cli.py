@@ -41,6 +41,11 @@ class PipelineGroup(click.Group):
         except UserError as exc:
             click.echo(f"error: {exc}", err=True)
             ctx.exit(UserError.exit_code)
+        except click.UsageError as exc:
+            # click's own usage errors (missing -o, a value out of range) as one line too, naming the verb
+            where = exc.ctx.command_path if exc.ctx else "scorecard"
+            click.echo(f"error: {where}: {exc.format_message()} (see {where} --help)", err=True)
+            ctx.exit(UserError.exit_code)
         except CheckFailed as exc:
             click.echo(f"check failed: {exc}", err=True)
             ctx.exit(CheckFailed.exit_code)
@@ -63,4 +68,5 @@ def main() -> None:
 
     Decision support only: a sheet does not replace clinical judgement, is valid only for the population and
     outcome it states, shows associations, not causes, and defers to local protocols and licensed clinicians.
+    Check the fingerprint printed on a sheet against the approved version before use.
     """

@@ -252,7 +252,7 @@ def search(problem: Problem, progress: Callable[[str], None] | None = None) -> C
     say = progress or (lambda _m: None)
     lo = sum(min(o.size for o in opts) for opts in problem.options)
     hi = sum(max(o.size for o in opts) for opts in problem.options)
-    say(f"searching row budgets {lo}-{hi} over {len(problem.curves)} terms")
+    say(f"looking for the fewest printed rows that meet the bound (between {lo} and {hi}, over {len(problem.curves)} terms)")
     found = _evaluate(problem, hi)
     if found is not None and found[1] is not None and not found[1].passed:
         # before calling the bound out of reach, give the largest sheet the full rounding: the quick one
@@ -300,12 +300,12 @@ def _infeasible_message(problem: Problem, top: Candidate | None) -> str:
         parts.append(f"ΔAUC {f['auc_loss']:.4f} (meets {b.max_auc_loss:g})")
     share = f["share_over_risk_error"]
     if share > b.risk_error_share:
-        parts.append(f"{share:.1%} of patients misstated by more than {b.max_risk_error * 100:g} pp (bound {b.risk_error_share:.0%})")
+        parts.append(f"{share:.1%} of patients misstated by more than {b.max_risk_error * 100:g} percentage points (bound {b.risk_error_share:.0%})")
         relax.append("--max-risk-error or --risk-error-share")
     else:
-        parts.append(f"{share:.1%} misstated by more than {b.max_risk_error * 100:g} pp (meets {b.risk_error_share:.0%})")
+        parts.append(f"{share:.1%} misstated by more than {b.max_risk_error * 100:g} percentage points (meets {b.risk_error_share:.0%})")
     return (f"no sheet with at most {b.max_rows} rows per term and {b.max_total_points} total points meets the bound; "
-            f"best achievable: {', '.join(parts)}, 95th percentile |Δrisk| {f['p95_abs_risk_error'] * 100:.1f} pp; "
+            f"best achievable: {', '.join(parts)}, 95th percentile |Δrisk| {f['p95_abs_risk_error'] * 100:.1f} percentage points; "
             f"relax {' or '.join(relax)}, or raise --max-total-points / --max-rows")
 
 
@@ -491,8 +491,9 @@ def quantize_model(model: AdditiveModel, data: pd.DataFrame | None = None, bound
     the best achievable figures when no sheet within the limits meets the bound."""
     bound = bound or Bound()
     say = progress or (lambda _m: None)
-    say("evaluation population: " + ("the cohort given" if data is not None else "synthetic, from the model's bin counts"))
     problem = prepare(model, data, bound, allow_negative, population)
+    say("patients the sheet is judged on: " + ("the cohort given" if data is not None
+                                                 else "a synthetic population drawn from the model's own bin counts"))
     cand = search(problem, progress)
     if bootstrap:
         say(f"measuring the chosen sheet ({bootstrap} bootstrap resamples for the ΔAUC interval)")

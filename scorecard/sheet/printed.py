@@ -50,7 +50,7 @@ def range_text(lower: float | None, upper: float | None, decimals: int) -> str:
     lo = None if lower is None else units(lower, decimals)
     hi = None if upper is None else units(upper, decimals) - 1  # largest printed value inside the row
     if lo is None and hi is None:
-        return "any value"
+        return "any measured value"
     if lo is None:
         return f"{LE} {number_text(hi, decimals)}"
     if hi is None:

@@ -18,7 +18,9 @@ from __future__ import annotations
 
 import argparse
 import os
+import sys
 import time
+from pathlib import Path
 
 import numpy as np
 import pandas as pd
@@ -31,6 +33,8 @@ from sklearn.metrics import roc_auc_score
 from sklearn.model_selection import StratifiedKFold, cross_val_score
 from sklearn.pipeline import make_pipeline
 from sklearn.preprocessing import OneHotEncoder, StandardScaler
+
+sys.path.insert(0, str(Path(__file__).resolve().parents[2]))  # run from a checkout without installing
 
 from scorecard.demo import FEATURES, OUTCOME, PAIR_TERM, generate_cohort, true_shape
 from scorecard.fit import AdditiveRiskClassifier

@@ -22,7 +22,7 @@ from scorecard.sheet import range_text, risk_text, round_half_up, round_half_up_
         (3, 4, 0, "3"),
         (-2, 1, 0, "-2–0"),
         (0.1, 0.25, 2, "0.10–0.24"),
-        (None, None, 0, "any value"),
+        (None, None, 0, "any measured value"),
     ],
 )
 def test_range_text(lower, upper, decimals, text):
