@@ -51,7 +51,7 @@ class PipelineGroup(click.Group):
             ctx.exit(CheckFailed.exit_code)
 
 
-@click.group(cls=PipelineGroup, context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100})
+@click.group("scorecard", cls=PipelineGroup, context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100})
 @click.version_option(__version__, prog_name="scorecard")
 def main() -> None:
     """Turn an additive risk model into printable bedside point sheets, and prove the paper agrees.
