@@ -28,7 +28,6 @@ intercept; predictions do not change).
 
 from __future__ import annotations
 
-import math
 from pathlib import Path
 
 import pandas as pd
@@ -43,21 +42,12 @@ from scorecard.model.importers.common import (
     is_feature_name,
     is_intercept,
     outcome_block,
+    parse_number,
 )
 from scorecard.tabular import read_csv
 
 REQUIRED_COLUMNS = ("term", "coefficient")
 KINDS = ("continuous", "flag", "categorical")
-
-
-def _number(text: str, where: str, what: str) -> float:
-    try:
-        value = float(text)
-    except ValueError:
-        raise UserError(f"{where}: {what} {text!r} is not a number; write it with digits and a decimal point") from None
-    if not math.isfinite(value):
-        raise UserError(f"{where}: {what} {text!r} must be a finite number")
-    return value
 
 
 class _Row:
@@ -109,7 +99,7 @@ def import_coefficient_table(
         coef_text = row.get("coefficient")
         if not coef_text:
             raise UserError(f"{row.where}: coefficient of {term!r} is empty; give a number (0 for a reference level)")
-        coef = _number(coef_text, row.where, "coefficient")
+        coef = parse_number(coef_text, row.where, "coefficient")
         kind = row.get("kind").lower()
         if kind and kind not in KINDS:
             raise UserError(f"{row.where}: kind {kind!r} is not one of {', '.join(KINDS)}; leave it empty to infer it")
@@ -144,7 +134,7 @@ def import_coefficient_table(
             raise UserError(f"{row.where}: feature {term!r} already has feature=level rows; a feature is one kind")
         order.append(term)
         is_continuous = kind == "continuous" or (not kind and (low or high))
-        not_measured = _number(row.get("not_measured"), row.where, "not_measured") if row.get("not_measured") else None
+        not_measured = parse_number(row.get("not_measured"), row.where, "not_measured") if row.get("not_measured") else None
         if kind == "categorical":
             raise UserError(f"{row.where}: a categorical term is written feature=level, one row per level")
         if not is_continuous:
@@ -156,7 +146,7 @@ def import_coefficient_table(
             raise UserError(
                 f"{row.where}: continuous term {term!r} needs both min and max (the range the model is trusted over)"
             )
-        lo, hi = _number(low, row.where, "min"), _number(high, row.where, "max")
+        lo, hi = parse_number(low, row.where, "min"), parse_number(high, row.where, "max")
         if not lo < hi:
             raise UserError(f"{row.where}: min {low} must be below max {high} for term {term!r}")
         decimals_text = row.get("decimals")

@@ -1,8 +1,9 @@
-"""Pieces every importer shares: names, the outcome block, file provenance, and centring terms on a cohort."""
+"""Pieces every importer shares: names, the outcome block, file provenance, reading numbers, and centring terms on a cohort."""
 
 from __future__ import annotations
 
 import hashlib
+import math
 import re
 from pathlib import Path
 
@@ -47,6 +48,17 @@ def file_provenance(path: str | Path) -> dict[str, str]:
     """File name (not the full path, so the same file gives the same document anywhere) and its SHA-256."""
     p = Path(path)
     return {"file": p.name, "file_sha256": hashlib.sha256(p.read_bytes()).hexdigest()}
+
+
+def parse_number(text: str, where: str, what: str, *, finite_hint: str = "") -> float:
+    """A table cell read as a finite number; `finite_hint` ends the message for inf/nan (e.g. how to say open-ended)."""
+    try:
+        value = float(text)
+    except ValueError:
+        raise UserError(f"{where}: {what} {text!r} is not a number; write it with digits and a decimal point") from None
+    if not math.isfinite(value):
+        raise UserError(f"{where}: {what} {text!r} must be a finite number{finite_hint}")
+    return value
 
 
 def importer_stamp() -> str:

@@ -38,22 +38,14 @@ from scorecard.model.importers.common import (
     is_feature_name,
     is_intercept,
     outcome_block,
+    parse_number,
 )
 from scorecard.tabular import read_csv
 
 REQUIRED_COLUMNS = ("feature", "lower", "upper", "score")
 NOT_MEASURED = frozenset({"not measured", "(not measured)", "missing", "not_measured"})
+_OPEN_ENDED = " (leave it empty for open-ended)"  # how to write a bin end without a number
 FLAG_SPELLINGS = {"no": 0, "yes": 1, "0": 0, "1": 1, "false": 0, "true": 1, "absent": 0, "present": 1}
-
-
-def _number(text: str, where: str, what: str) -> float:
-    try:
-        value = float(text)
-    except ValueError:
-        raise UserError(f"{where}: {what} {text!r} is not a number; write it with digits and a decimal point") from None
-    if not math.isfinite(value):
-        raise UserError(f"{where}: {what} {text!r} must be a finite number (leave it empty for open-ended)")
-    return value
 
 
 class _Feature:
@@ -93,7 +85,7 @@ def import_shape_table(
             raise UserError(f"{where}: column feature is empty; name the feature or delete the row")
         if not cell["score"]:
             raise UserError(f"{where}: score is empty; give the log-odds score of this row")
-        score = _number(cell["score"], where, "score")
+        score = parse_number(cell["score"], where, "score", finite_hint=_OPEN_ENDED)
         if is_intercept(fname):
             if intercept is not None:
                 raise UserError(f"{where}: a second intercept row; give the intercept once")
@@ -127,8 +119,8 @@ def import_shape_table(
             continue
         if not low and not high:
             raise UserError(f"{where}: give lower and/or upper for a bin, a level for a category, or level 'not measured'")
-        lo = _number(low, where, "lower") if low else None
-        hi = _number(high, where, "upper") if high else None
+        lo = parse_number(low, where, "lower", finite_hint=_OPEN_ENDED) if low else None
+        hi = parse_number(high, where, "upper", finite_hint=_OPEN_ENDED) if high else None
         if lo is not None and hi is not None and not lo < hi:
             raise UserError(f"{where}: lower {low} must be below upper {high}")
         feat.bins.append((lo, hi, score, where, low, high))
