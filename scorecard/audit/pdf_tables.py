@@ -77,16 +77,23 @@ class PrintedPage:
         return text_passages(self.words)
 
 
-def text_passages(words: list[Word]) -> list[str]:
-    """Running text as it flows: a line is cut where the gap between two words is wider than a column gutter,
-    and a piece continues on the next line when that line has a piece starting at the same left edge.
-    Two columns of text therefore read as two passages instead of interleaved lines."""
+def _lines(words: list[Word]) -> list[list[Word]]:
+    """Words grouped into lines, top to bottom: a word joins a line when its middle is within half a word
+    height of the line's first word (words within a line keep their left-to-right sort only as a tie-break)."""
     lines: list[list[Word]] = []
     for w in sorted(words, key=lambda w: (w.middle, w.x0)):
         if lines and abs(w.middle - lines[-1][0].middle) <= 0.5 * max(w.bottom - w.top, 1.0):
             lines[-1].append(w)
         else:
             lines.append([w])
+    return lines
+
+
+def text_passages(words: list[Word]) -> list[str]:
+    """Running text as it flows: a line is cut where the gap between two words is wider than a column gutter,
+    and a piece continues on the next line when that line has a piece starting at the same left edge.
+    Two columns of text therefore read as two passages instead of interleaved lines."""
+    lines = _lines(words)
     pieces: list[list[Word]] = []
     for line in lines:
         line.sort(key=lambda w: w.x0)
@@ -112,13 +119,7 @@ def text_passages(words: list[Word]) -> list[str]:
 
 def reading_order(words: list[Word]) -> list[Word]:
     """Top to bottom by line (words whose middles are within half a line share a line), then left to right."""
-    lines: list[list[Word]] = []
-    for w in sorted(words, key=lambda w: (w.middle, w.x0)):
-        if lines and abs(w.middle - lines[-1][0].middle) <= 0.5 * max(w.bottom - w.top, 1.0):
-            lines[-1].append(w)
-        else:
-            lines.append([w])
-    return [w for line in lines for w in sorted(line, key=lambda w: w.x0)]
+    return [w for line in _lines(words) for w in sorted(line, key=lambda w: w.x0)]
 
 
 def _tables(page_number: int, words: list[Word], edges: list[dict]) -> list[PrintedTable]:
