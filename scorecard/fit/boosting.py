@@ -84,6 +84,33 @@ def probabilities_and_hessians(odds, w, work):
     return p, h
 
 
+class _BestRound:
+    """Early stopping on the held-out rows: keeps a copy of the terms at the round with the lowest held-out
+    log-loss, and says when `patience` rounds have passed without lowering it by the `tolerance` share."""
+
+    def __init__(self, held_f: np.ndarray, y_held: np.ndarray, w_held: np.ndarray, terms: list[np.ndarray],
+                 settings: BoostSettings):
+        self.active = len(y_held) > 0 and np.sum(w_held) > 0
+        self.y, self.w, self.settings = y_held, w_held, settings
+        self.best = (weighted_log_loss(held_f, y_held, w_held) if self.active else np.inf, [a.copy() for a in terms], 0)
+        self.since_best = 0
+
+    def stop_after(self, rounds: int, held_f: np.ndarray, terms: list[np.ndarray]) -> bool:
+        if not self.active:
+            return False
+        loss = weighted_log_loss(held_f, self.y, self.w)
+        if loss < self.best[0] * (1.0 - self.settings.tolerance):
+            self.best = (loss, [a.copy() for a in terms], rounds)
+            self.since_best = 0
+            return False
+        self.since_best += 1
+        return self.since_best >= self.settings.patience
+
+    def result(self, rounds: int, terms: list[np.ndarray]) -> tuple[float, list[np.ndarray], int]:
+        """(held-out loss, terms, rounds) of the best round; without held-out rows, the last round's (loss NaN)."""
+        return self.best if self.active else (np.nan, terms, rounds)
+
+
 @np.errstate(divide="ignore", invalid="ignore")
 def boost_one_feature_terms(
     codes_fit: list[np.ndarray],
@@ -108,9 +135,8 @@ def boost_one_feature_terms(
     work = _buffers(len(y_fit))
     w_fit = None if np.all(w_fit == 1.0) else w_fit
     held_f = np.full(len(y_held), intercept)
-    has_held = len(y_held) > 0 and np.sum(w_held) > 0
-    best = (weighted_log_loss(held_f, y_held, w_held) if has_held else np.inf, [a.copy() for a in shapes], 0)
-    since_best = 0
+    stopper = _BestRound(held_f, y_held, w_held, shapes, s)
+    has_held = stopper.active
     rounds = 0
     for rounds in range(1, s.max_rounds + 1):
         moved = False
@@ -127,20 +153,10 @@ def boost_one_feature_terms(
             if has_held:
                 held_f += delta.take(codes_held[j])
             moved = True
-        if not moved:
+        if not moved or stopper.stop_after(rounds, held_f, shapes):
             break
-        if has_held:
-            loss = weighted_log_loss(held_f, y_held, w_held)
-            if loss < best[0] * (1.0 - s.tolerance):
-                best = (loss, [a.copy() for a in shapes], rounds)
-                since_best = 0
-            else:
-                since_best += 1
-                if since_best >= s.patience:
-                    break
-    if not has_held:
-        best = (np.nan, shapes, rounds)
-    return {"intercept": intercept, "shapes": best[1], "rounds": best[2], "held_loss": best[0]}
+    held_loss, best_shapes, best_rounds = stopper.result(rounds, shapes)
+    return {"intercept": intercept, "shapes": best_shapes, "rounds": best_rounds, "held_loss": held_loss}
 
 
 @np.errstate(divide="ignore", invalid="ignore")
@@ -170,9 +186,8 @@ def boost_pair_terms(
     work = _buffers(len(y_fit))
     w_fit = None if np.all(w_fit == 1.0) else w_fit
     held_f = start_held.copy()
-    has_held = len(y_held) > 0 and np.sum(w_held) > 0
-    best = (weighted_log_loss(held_f, y_held, w_held) if has_held else np.inf, [g.copy() for g in grids], 0)
-    since_best = 0
+    stopper = _BestRound(held_f, y_held, w_held, grids, s)
+    has_held = stopper.active
     rounds = 0
     for rounds in range(1, s.max_rounds + 1):
         moved = False
@@ -191,17 +206,7 @@ def boost_pair_terms(
             if has_held:
                 held_f += flat.take(pair_codes_held[k])
             moved = True
-        if not moved:
+        if not moved or stopper.stop_after(rounds, held_f, grids):
             break
-        if has_held:
-            loss = weighted_log_loss(held_f, y_held, w_held)
-            if loss < best[0] * (1.0 - s.tolerance):
-                best = (loss, [g.copy() for g in grids], rounds)
-                since_best = 0
-            else:
-                since_best += 1
-                if since_best >= s.patience:
-                    break
-    if not has_held:
-        best = (np.nan, grids, rounds)
-    return {"grids": best[1], "rounds": best[2], "held_loss": best[0]}
+    held_loss, best_grids, best_rounds = stopper.result(rounds, grids)
+    return {"grids": best_grids, "rounds": best_rounds, "held_loss": held_loss}
