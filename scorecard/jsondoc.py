@@ -1,4 +1,4 @@
-"""Canonical JSON, fingerprints and atomic writes shared by the model and sheet documents.
+"""Canonical JSON, fingerprints (of documents and of input files) and atomic writes shared by the model and sheet documents.
 
 The canonical form is what is hashed: sorted keys, no insignificant whitespace, UTF-8, floats in
 Python's shortest round-trip form (so load -> save -> load never changes a number), -0.0 written as 0.0,
@@ -52,6 +52,15 @@ def fingerprint(document: dict, exclude: tuple[str, ...] = ()) -> str:
     """SHA-256 (hex) of the canonical form, leaving out top-level keys in `exclude`."""
     body = {k: v for k, v in document.items() if k not in exclude}
     return hashlib.sha256(canonical_bytes(body)).hexdigest()
+
+
+def file_sha256(path: str | Path) -> str:
+    """SHA-256 (hex) of a file's bytes, read in blocks so a large cohort is not held twice in memory."""
+    digest = hashlib.sha256()
+    with open(path, "rb") as handle:
+        for block in iter(lambda: handle.read(1 << 20), b""):
+            digest.update(block)
+    return digest.hexdigest()
 
 
 def pretty_text(document: dict) -> str:

@@ -3,7 +3,6 @@
 from __future__ import annotations
 
 import getpass
-import hashlib
 import os
 from datetime import datetime, timezone
 from pathlib import Path
@@ -12,6 +11,7 @@ import click
 
 from scorecard.commands._common import output_path, say
 from scorecard.errors import UserError
+from scorecard.jsondoc import file_sha256
 from scorecard.model import load_model, save_model
 from scorecard.review.cost import cost_lines, edit_cost, observed_outcome
 from scorecard.review.edits import (
@@ -121,8 +121,7 @@ def command(model_path, declarations, merges, clips, monotones, zeros, reason, e
     observed = observed_outcome(cohort, column) if column is not None else None
     data_note = None
     if cohort_path:
-        digest = hashlib.sha256(Path(cohort_path).read_bytes()).hexdigest()
-        data_note = {"file": Path(cohort_path).name, "sha256": digest, "rows": len(cohort)}
+        data_note = {"file": Path(cohort_path).name, "sha256": file_sha256(cohort_path), "rows": len(cohort)}
 
     steps = [lambda m, d=d: declare(m, *parse_declaration(d)) for d in declarations]
     steps += [lambda m, t=t: merge_levels(m, *parse_merge(t), cohort=cohort) for t in merges]

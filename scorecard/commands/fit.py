@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import hashlib
 from pathlib import Path
 
 import click
@@ -11,6 +10,7 @@ import pandas as pd
 
 from scorecard.commands._common import output_path, say
 from scorecard.errors import UserError
+from scorecard.jsondoc import file_sha256
 from scorecard.model import save_model
 from scorecard.tabular import FLAG_FALSE, FLAG_TRUE, flag_column, is_missing_text, numeric_column, read_csv
 
@@ -127,14 +127,6 @@ def _looks_like_identifier(values: np.ndarray) -> bool:
     if np.isnan(values).any() or not np.all(values == np.round(values)):
         return False
     return len(np.unique(values)) == len(values)
-
-
-def _file_sha256(path: str) -> str:
-    digest = hashlib.sha256()
-    with open(path, "rb") as handle:
-        for block in iter(lambda: handle.read(1 << 20), b""):
-            digest.update(block)
-    return digest.hexdigest()
 
 
 def _pairs_option(text: str):
@@ -260,7 +252,7 @@ def command(data_path, outcome, features, exclude, categorical, weights_column, 
         labels=label_of,
         units=unit_of,
         decimals=decimals_of,
-        provenance={"source": {"file": Path(data_path).name, "sha256": _file_sha256(data_path), "outcome": outcome,
+        provenance={"source": {"file": Path(data_path).name, "sha256": file_sha256(data_path), "outcome": outcome,
                                "weights": weights_column}},
     )
     validation = model.provenance.get("validation", {})

@@ -2,7 +2,6 @@
 
 from __future__ import annotations
 
-import hashlib
 import math
 import re
 from pathlib import Path
@@ -12,6 +11,7 @@ import pandas as pd
 
 from scorecard import __version__
 from scorecard.errors import UserError
+from scorecard.jsondoc import file_sha256
 from scorecard.model.document import AdditiveModel, Term
 from scorecard.model.predict import _Evaluator, feature_values
 
@@ -46,8 +46,7 @@ def outcome_block(event: str | None, horizon: str | None, population: str | None
 
 def file_provenance(path: str | Path) -> dict[str, str]:
     """File name (not the full path, so the same file gives the same document anywhere) and its SHA-256."""
-    p = Path(path)
-    return {"file": p.name, "file_sha256": hashlib.sha256(p.read_bytes()).hexdigest()}
+    return {"file": Path(path).name, "file_sha256": file_sha256(path)}
 
 
 def parse_number(text: str, where: str, what: str, *, finite_hint: str = "") -> float:
