@@ -87,7 +87,7 @@ def _term_label(model: AdditiveModel, name: str) -> str:
     return " × ".join(model.feature(f).label or f for f in model.term(name).feature_names)
 
 
-def _largest(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, scored: ScoredCohort, parts: pd.DataFrame,
+def _largest(sheet: dict, model: AdditiveModel, scored: ScoredCohort, parts: pd.DataFrame,
              model_risk: np.ndarray, diff: np.ndarray, count: int) -> list[dict]:
     """The patients with the largest |sheet risk - model risk|, with each term's row and how far that row is
     from the model (points x log-odds per point - model contribution, centred on its cohort mean, so the
@@ -246,7 +246,7 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
                         "patients_inside": int(inside.sum()), "over_risk_chart": int(over_chart.sum())},
         "stored_achieved": sheet.get("achieved"),
         "histogram": {"unit": "percentage points (sheet risk - model risk)", "edges": edges.tolist(), "counts": counts.tolist()},
-        "largest": _largest(sheet, model, frame, scored, parts, model_risk, diff, TOP_PATIENTS),
+        "largest": _largest(sheet, model, scored, parts, model_risk, diff, TOP_PATIENTS),
         "warnings": list(scored.warnings),
         "notes": list(scored.notes) + [f"model: {line}" for line in model_report.lines()],
     })

@@ -150,7 +150,7 @@ class _Checker:
         header, grid, tail = printed[:first_grid], printed[first_grid:grid_end], printed[grid_end:]
         page = printed[0][0]
         cuts = grid[0][1].cuts if grid else []
-        columns = self._column_headings(header, cuts, len(axis1["rows"]))
+        columns = self._column_headings(header, cuts)
         for j, r in enumerate(axis1["rows"]):
             self.text(page, block, f"column {j + 1}", columns[j] if j < len(columns) else "(missing)", r["text"])
         for i, r in enumerate(axis0["rows"]):
@@ -179,7 +179,7 @@ class _Checker:
             self.mismatches.append(Mismatch(page, block, "extra row", row.text(), "(no such row on the sheet)"))
 
     @staticmethod
-    def _column_headings(header: list[tuple[int, Row]], cuts: list[float], n: int) -> list[str]:
+    def _column_headings(header: list[tuple[int, Row]], cuts: list[float]) -> list[str]:
         """Text of each grid column's heading: the lowest line of header words above that column."""
         words = [w for _, row in header for w in row.words]
         if not words or not cuts:

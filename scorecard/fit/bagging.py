@@ -121,7 +121,7 @@ def _run(function, common: tuple, seeds, n_jobs, progress, what):
     return results
 
 
-def logodds_of(intercept, mains, codes, pairs=(), grids=(), pair_codes=()):
+def logodds_of(intercept, mains, codes, grids=(), pair_codes=()):
     f = np.full(len(codes[0]) if codes else 0, float(intercept))
     for shape, c in zip(mains, codes):
         f += shape[c]
@@ -226,7 +226,7 @@ def fit_additive_terms(
         _, held = _bag_rows(y, settings, bag_fraction, s)
         held_codes = [c[held] for c in codes]
         held_pairs = [c[held] for c in pair_codes]
-        oob_sum[held] += logodds_of(b_intercept, b_mains, held_codes, layouts, b_grids, held_pairs)
+        oob_sum[held] += logodds_of(b_intercept, b_mains, held_codes, b_grids, held_pairs)
         oob_n[held] += 1
     report = {
         "rounds_one_feature": [int(b["rounds"]) for b in stage1],

@@ -231,7 +231,7 @@ class NomogramBlock(Flowable):
         span = max(1, hi - lo)
         return self.axis_left + (total - lo) / span * (self.axis_right - self.axis_left)
 
-    def _axes(self, width: float) -> list[_TermAxis]:
+    def _axes(self) -> list[_TermAxis]:
         axes = []
         for term in self.terms:
             axis = _TermAxis(term, self.signed, self.styles)
@@ -248,7 +248,7 @@ class NomogramBlock(Flowable):
 
     def wrap(self, avail_width, avail_height):
         self._geometry(avail_width)
-        self._term_axes = self._axes(avail_width)
+        self._term_axes = self._axes()
         self.width = avail_width
         self.height = self._ruler_height() + sum(a.height for a in self._term_axes) + self._total_height()
         return self.width, self.height

@@ -69,7 +69,7 @@ def _finite(value: float, where: str) -> str | None:
     return None if math.isfinite(value) else f"{where}: must be a finite number"
 
 
-def _check_continuous_rows(rows: list[dict], decimals: int, where: str, with_points: bool) -> str | None:
+def _check_continuous_rows(rows: list[dict], decimals: int, where: str) -> str | None:
     ranged = [(i, r) for i, r in enumerate(rows) if not r.get("missing")]
     missing = [i for i, r in enumerate(rows) if r.get("missing")]
     if not ranged:
@@ -126,7 +126,7 @@ def _check_special_rows(rows: list[dict], where: str) -> str | None:
 
 def _check_axis(axis: dict, where: str) -> str | None:
     if axis["kind"] == "continuous":
-        return _check_continuous_rows(axis["rows"], axis["decimals"], f"{where}.rows", with_points=False)
+        return _check_continuous_rows(axis["rows"], axis["decimals"], f"{where}.rows")
     if axis["kind"] == "flag":
         return _check_flag_rows(axis["rows"], f"{where}.rows")
     return _check_level_rows(axis["rows"], f"{where}.rows")
@@ -155,7 +155,7 @@ def _check_term(t: dict, where: str) -> str | None:
     if kind == "continuous":
         if t["training_range"]["min"] > t["training_range"]["max"]:
             return f"{where}.training_range: min is above max"
-        return _check_continuous_rows(rows, t["decimals"], f"{where}.rows", with_points=True)
+        return _check_continuous_rows(rows, t["decimals"], f"{where}.rows")
     if kind == "flag":
         return _check_flag_rows(rows, f"{where}.rows")
     bad = _check_level_rows(rows, f"{where}.rows")
