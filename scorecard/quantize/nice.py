@@ -46,13 +46,3 @@ def cut_boundary(cut_units: np.ndarray | int, decimals: int) -> np.ndarray:
     c or more, so they belong to the upper row. Division (not multiplication) keeps the float the nearest
     one to the decimal value, the same float a CSV reader produces for it."""
     return (np.asarray(cut_units, dtype=float) - 0.5) / 10**decimals
-
-
-def niceness(cut_units: int) -> int:
-    """0 for multiples of 10, 1 for multiples of 5, 2 for even values, 3 otherwise (lower is easier to read)."""
-    c = abs(int(cut_units))
-    if c % 10 == 0:
-        return 0
-    if c % 5 == 0:
-        return 1
-    return 2 if c % 2 == 0 else 3
