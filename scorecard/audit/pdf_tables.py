@@ -132,8 +132,8 @@ def _tables(page_number: int, words: list[Word], edges: list[dict]) -> list[Prin
         groups.setdefault(key or (round(e["x0"]), round(e["x1"])), []).append(e["top"])
     tables = []
     for (gx0, gx1), ys in groups.items():
-        x0 = min(e["x0"] for e in horizontal if abs(e["x0"] - gx0) <= _SAME_X + 0.5 and abs(e["x1"] - gx1) <= _SAME_X + 0.5)
-        x1 = max(e["x1"] for e in horizontal if abs(e["x0"] - gx0) <= _SAME_X + 0.5 and abs(e["x1"] - gx1) <= _SAME_X + 0.5)
+        members = [e for e in horizontal if abs(e["x0"] - gx0) <= _SAME_X + 0.5 and abs(e["x1"] - gx1) <= _SAME_X + 0.5]
+        x0, x1 = min(e["x0"] for e in members), max(e["x1"] for e in members)
         ys = sorted(ys)
         levels = [ys[0]]
         for y in ys[1:]:
