@@ -7,7 +7,6 @@ from pathlib import Path
 import click
 
 from scorecard.commands._common import output_path, say, preview_folder
-from scorecard.errors import UserError
 from scorecard.jsondoc import atomic_write_bytes
 from scorecard.model import load_model
 from scorecard.review.report import build_review, pdf_bytes, write_previews
@@ -43,7 +42,7 @@ def command(model_path: str, cohort_path: str | None, output: str, preview_dir: 
       scorecard review demo_output/fitted.model.json --data demo_output/cohort.csv -o review.pdf --preview review-previews
     """
     out = output_path(output, model_path, cohort_path or "")
-    preview_folder(preview_dir)
+    previews = preview_folder(preview_dir)
     model = load_model(model_path)
     cohort = read_csv(cohort_path) if cohort_path else None
     if cohort is not None:
@@ -51,13 +50,10 @@ def command(model_path: str, cohort_path: str | None, output: str, preview_dir: 
     say(f"reviewing {len(model.terms)} terms of {model.name} version {model.version}...")
     figures, ranking, flags = build_review(model, cohort, cohort_name=Path(cohort_path).name if cohort_path else None)
     data = pdf_bytes(figures)
-    if preview_dir:
-        folder = Path(preview_dir)
-        if folder.exists() and not folder.is_dir():
-            raise UserError(f"{folder}: --preview must be a folder, found a file")
-        folder.mkdir(parents=True, exist_ok=True)
-        written = write_previews(figures, folder, Path(output).stem)
-        say(f"wrote {len(written)} preview PNGs to {folder}")
+    if previews:
+        previews.mkdir(parents=True, exist_ok=True)
+        written = write_previews(figures, previews, Path(output).stem)
+        say(f"wrote {len(written)} preview PNGs to {previews}")
     atomic_write_bytes(out, data, protect=(model_path,))
     for flag in flags:
         say(f"flag {flag.kind} [{flag.term}]: {flag.message}")
