@@ -2,6 +2,8 @@
 
 from __future__ import annotations
 
+import re
+
 import click
 
 from scorecard.audit.agreement import check_agreement
@@ -18,8 +20,6 @@ from scorecard.tabular import read_csv, require_columns
 
 def guess_outcome_column(sheet: dict, columns: list[str]) -> str | None:
     """A cohort column the sheet's outcome names (e.g. 'delirium' in 'Delirium within 5 days'), never a feature."""
-    import re
-
     words = set(re.findall(r"[a-z0-9_]+", sheet["outcome"]["event"].lower()))
     features = set(sheet_features(sheet))
     for c in columns:
