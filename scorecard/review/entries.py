@@ -23,12 +23,7 @@ def entry_labels(model: AdditiveModel, term: Term) -> list[str]:
     edges = term.edges or []
     if term.shape == "linear":
         return [number(e, feature) for e in edges]  # knots: the value itself
-    if not edges:
-        return ["all values"]
-    labels = [f"< {number(edges[0], feature)}"]
-    labels += [f"{number(a, feature)} to < {number(b, feature)}" for a, b in zip(edges[:-1], edges[1:])]
-    labels.append(f">= {number(edges[-1], feature)}")
-    return labels
+    return _bin_labels(edges, feature, "all values", "< {}", "{} to < {}", ">= {}")
 
 
 def axis_labels(model: AdditiveModel, term: Term, which: int) -> list[str]:
@@ -38,10 +33,12 @@ def axis_labels(model: AdditiveModel, term: Term, which: int) -> list[str]:
     feature = model.feature(name)
     if "levels" in axis:
         return list(axis["levels"])
-    edges = axis["edges"]
+    return _bin_labels(axis["edges"], feature, "all", "<{}", "{}-{}", ">={}")
+
+
+def _bin_labels(edges, feature, alone: str, below: str, between: str, above: str) -> list[str]:
+    """One label per step bin (edges[i-1] <= x < edges[i]), in the given wording; `alone` when there is one bin."""
     if not edges:
-        return ["all"]
-    labels = [f"<{number(edges[0], feature)}"]
-    labels += [f"{number(a, feature)}-{number(b, feature)}" for a, b in zip(edges[:-1], edges[1:])]
-    labels.append(f">={number(edges[-1], feature)}")
-    return labels
+        return [alone]
+    shown = [number(e, feature) for e in edges]
+    return [below.format(shown[0])] + [between.format(a, b) for a, b in zip(shown[:-1], shown[1:])] + [above.format(shown[-1])]
