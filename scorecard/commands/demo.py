@@ -63,7 +63,7 @@ CARE_PROCESS_REASON = (
     "must not lower anyone's points. Hours to surgery beyond 96 and more than 12 regular medicines rest on "
     "fewer than 30 patients each (review flags): held at their last well-supported value"
 )
-SPARSE_TAIL_CLIPS = ("hours_to_surgery=:96", "medicines=:12")
+SPARSE_TAILS_HELD_ABOVE = ("hours_to_surgery=96", "medicines=12")
 
 
 def fit_model(ctx: click.Context, folder: Path, cohort: Path) -> Path:
@@ -102,7 +102,7 @@ def edit_model(ctx: click.Context, folder: Path, declared: Path, cohort: Path) -
     from scorecard.commands.edit import command as edit
 
     edited = folder / "edited.model.json"
-    ctx.invoke(edit, model_path=str(declared), zeros=(CARE_PROCESS_FLAG,), clips=SPARSE_TAIL_CLIPS, reason=CARE_PROCESS_REASON,
+    ctx.invoke(edit, model_path=str(declared), removals=(CARE_PROCESS_FLAG,), holds_above=SPARSE_TAILS_HELD_ABOVE, reason=CARE_PROCESS_REASON,
                editor="scorecard demo", cohort_path=str(cohort), outcome=OUTCOME, output=str(edited))
     return edited
 

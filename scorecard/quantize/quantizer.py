@@ -377,9 +377,10 @@ def parse_bands(text: str | None) -> list[dict]:
 
 
 def _zero_edit(model, term_name: str) -> dict | None:
-    """The latest edit that set this term to zero (`scorecard edit --zero`), if any."""
+    """The latest edit that removed this term's effect (`scorecard edit --remove-effect`; "zero" in models
+    edited before the option was renamed), if any."""
     for edit in reversed(model.provenance.get("edits") or []):
-        if edit.get("action") == "zero" and edit.get("term") == term_name:
+        if edit.get("action") in ("remove_effect", "zero") and edit.get("term") == term_name:
             return edit
     return None
 
