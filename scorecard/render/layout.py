@@ -39,7 +39,7 @@ PARTS = {
     "conversion_curve": "the same conversion plotted as a curve",
     "bands": "the risk bands with the unit's own wording",
     "cautions": "the cautions in full, with the fingerprint check",
-    "nomogram": "points ruler, one axis per term, total-points axis with the risk aligned",
+    "nomogram": "one line per term with its own points at each tick, then one total-to-risk scale with the bands shaded",
 }
 # a sheet that leaves any of these out could be misused at the bedside
 REQUIRED_PARTS = ("terms", "total", "instructions", "ranges", "conversion_table", "cautions")
