@@ -233,7 +233,7 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
         "document": REPORT_TAG,
         "format_version": 1,
         "passed": all(c["pass"] for c in checks),
-        "sheet": {"title": sheet["title"], "fingerprint": sheet.get("fingerprint", ""), "short_fingerprint": short_fingerprint(sheet),
+        "sheet": {"invented_data": bool(sheet.get("invented_data")), "title": sheet["title"], "fingerprint": sheet.get("fingerprint", ""), "short_fingerprint": short_fingerprint(sheet),
                   "model_fingerprint": sheet["model"]["fingerprint"], "outcome": sheet["outcome"]},
         "model": {"name": model.name, "version": model.version, "fingerprint": model.fingerprint, "matches_sheet": model_matches},
         "cohort": {"source": source_of(frame), "n": int(len(frame)), "outcome_column": outcome,

@@ -23,6 +23,8 @@ from reportlab.pdfgen.canvas import Canvas
 from reportlab.platypus import KeepTogether, Paragraph, SimpleDocTemplate, Spacer, Table, TableStyle
 from xml.sax.saxutils import escape
 
+from scorecard.invented import draw_band
+
 FONT, BOLD = "ScorecardAuditSans", "ScorecardAuditSans-Bold"
 PASS_COLOUR, FAIL_COLOUR = colors.HexColor("#1b6e20"), colors.HexColor("#b00020")
 
@@ -285,6 +287,10 @@ def report_document_bytes(story: list, cautions: list[str], short_fingerprint: s
     caution_text = "  ".join(cautions)
 
     def on_page(canvas, doc):
+        if sheet.get("invented_data"):  # scorecard.invented: black bands at the top and the foot of every page
+            page_w, page_h = A4
+            draw_band(canvas, 15 * mm, page_w - 30 * mm, page_h - 5 * mm, bold, 8)
+            draw_band(canvas, 15 * mm, page_w - 30 * mm, 24 * mm, bold, 8)  # above the cautions
         canvas.saveState()
         canvas.setFont(regular, 6.5)
         width, _ = A4

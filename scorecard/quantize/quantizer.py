@@ -446,7 +446,7 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
         "total_points_tradeoff": _tradeoff(problem),
         "search": problem.tried,
     }
-    return {
+    doc = {
         "format_version": 1,
         "document": "scorecard-sheet",
         "title": title or f"Risk of {outcome['event']}",
@@ -469,6 +469,9 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
                        "allow_negative": problem.allow_negative, "merge_equal_levels": merge_equal_levels},
                        "evaluation": problem.population.description},
     }
+    if model.invented_data:  # the sheet inherits the mark: every page printed from it says so
+        doc["invented_data"] = True
+    return doc
 
 
 def printed_rows(terms: list[dict]) -> int:

@@ -16,7 +16,8 @@ from reportlab.platypus import BaseDocTemplate, Flowable, Frame, NextPageTemplat
 from scorecard import __version__
 from scorecard.errors import UserError
 from scorecard.render.conversion import bands_block, conversion_curve_block, conversion_table_block
-from scorecard.render.fonts import REGULAR, text_width
+from scorecard.invented import band_height, draw_band, is_invented
+from scorecard.render.fonts import BOLD, REGULAR, text_width
 from scorecard.render.layout import Layout
 from scorecard.render.nomogram import nomogram_block
 from scorecard.render.styles import Styles, styles_for
@@ -99,10 +100,14 @@ class _Furniture:
         self.printed_label = "Printed on:"
         self.cautions = Paragraph(markup(cautions_line(sheet, short_fingerprint)), styles.small)
         s = styles.min_pt
+        # a sheet from invented data carries a black band with the mark at the top and foot of every page,
+        # inside the margins so no printer crops it (scorecard.invented)
+        self.invented = is_invented(sheet)
+        self.band_h = band_height(s) + s * 0.4 if self.invented else 0.0
         self.line_h = s * 1.25
         _, self.title_h = self.title.wrap(self.inner_w, height)
         _, self.outcome_h = self.outcome.wrap(self.inner_w, height)
-        self.header_h = self.title_h + 2 + self.outcome_h + 3
+        self.header_h = self.band_h + self.title_h + 2 + self.outcome_h + 3
         _, self.cautions_h = self.cautions.wrap(self.inner_w, height)
         self.page_label_w = text_width("Page 888 of 888", s)
         ident_room = self.inner_w - self.page_label_w - s
@@ -112,7 +117,7 @@ class _Furniture:
         self.one_line = len(self.ident_lines) == 1 and (
             text_width(self.ident, s) + self.print_w + self.page_label_w + 2 * s <= self.inner_w)
         lines = 1 if self.one_line else max(len(self.ident_lines), 2)
-        self.footer_h = 3 + self.cautions_h + 2 + lines * self.line_h
+        self.footer_h = 3 + self.cautions_h + 2 + lines * self.line_h + self.band_h
         self.gap = s * 0.8
 
     @property
@@ -125,7 +130,10 @@ class _Furniture:
 
     def draw(self, canv, doc) -> None:
         canv.saveState()
-        y = self.top - self.title_h
+        if self.invented:
+            draw_band(canv, self.x0, self.inner_w, self.top, BOLD, self.styles.min_pt)
+            draw_band(canv, self.x0, self.inner_w, self.bottom + band_height(self.styles.min_pt), BOLD, self.styles.min_pt)
+        y = self.top - self.band_h - self.title_h
         self.title.drawOn(canv, self.x0, y)
         y -= 2 + self.outcome_h
         self.outcome.drawOn(canv, self.x0, y)
@@ -134,6 +142,7 @@ class _Furniture:
         canv.line(self.x0, self.top - self.header_h, self.x0 + self.inner_w, self.top - self.header_h)
         # footer: rule, cautions, identity lines (page x of y and the print-date field go on the right)
         y = self.bottom + self.footer_h
+        canv.setStrokeColor(colors.black)
         canv.line(self.x0, y, self.x0 + self.inner_w, y)
         y -= 3 + self.cautions_h
         self.cautions.drawOn(canv, self.x0, y)
