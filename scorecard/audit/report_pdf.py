@@ -275,6 +275,15 @@ def report_pdf_bytes(report: dict, cautions: list[str]) -> bytes:
     blocks = [_patient_block(p, s) for p in report["largest"]]
     story += [KeepTogether(heading + ([blocks[0]] if blocks else []))] + blocks[1:]
 
+    return report_document_bytes(story, cautions, sheet["short_fingerprint"], title=f"Agreement report {sheet['short_fingerprint']}",
+                                 subject=sheet["title"], author="scorecard check")
+
+
+def report_document_bytes(story: list, cautions: list[str], short_fingerprint: str, title: str, subject: str, author: str,
+                          footer: str = "Sheet fingerprint") -> bytes:
+    """A report's flowables as A4 PDF bytes with the cautions, the fingerprint and 'page x of y' on every page
+    (deterministic: reportlab's invariant mode and fixed metadata). Shared by every report verb."""
+    regular, bold = _fonts()
     caution_text = "  ".join(cautions)
 
     def on_page(canvas, doc):
@@ -290,13 +299,12 @@ def report_pdf_bytes(report: dict, cautions: list[str]) -> bytes:
             text.textLine(line)
         canvas.drawText(text)
         canvas.setFont(bold, 7)
-        canvas.drawString(15 * mm, 6 * mm, f"Sheet fingerprint {sheet['short_fingerprint']}")
+        canvas.drawString(15 * mm, 6 * mm, f"{footer} {short_fingerprint}")
         canvas.restoreState()
 
     buffer = io.BytesIO()
     doc = SimpleDocTemplate(buffer, pagesize=A4, leftMargin=15 * mm, rightMargin=15 * mm, topMargin=14 * mm, bottomMargin=26 * mm,
-                            title=f"Agreement report {sheet['short_fingerprint']}", author="scorecard check",
-                            subject=sheet["title"], creator="scorecard", producer="scorecard", invariant=1)
+                            title=title, author=author, subject=subject, creator="scorecard", producer="scorecard", invariant=1)
     doc.build(story, onFirstPage=on_page, onLaterPages=on_page, canvasmaker=_page_of_total_canvas(bold))
     return buffer.getvalue()
 
@@ -336,3 +344,9 @@ def _wrap(text: str, font: str, size: float, width: float) -> list[str]:
         else:
             line = trial
     return lines + ([line] if line else [])
+
+
+# the building blocks other report verbs (compare, exercise, recalibrate) lay their pages out with
+report_styles = _styles
+report_table = _table
+paragraph = _p
