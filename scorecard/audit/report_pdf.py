@@ -23,6 +23,8 @@ from reportlab.pdfgen.canvas import Canvas
 from reportlab.platypus import KeepTogether, Paragraph, SimpleDocTemplate, Spacer, Table, TableStyle
 from xml.sax.saxutils import escape
 
+from scorecard.invented import draw_band
+
 FONT, BOLD = "ScorecardAuditSans", "ScorecardAuditSans-Bold"
 PASS_COLOUR, FAIL_COLOUR = colors.HexColor("#1b6e20"), colors.HexColor("#b00020")
 
@@ -312,9 +314,22 @@ def report_pdf_bytes(report: dict, cautions: list[str]) -> bytes:
     blocks = [_patient_block(p, s) for p in report["largest"]]
     story += [KeepTogether(heading + ([blocks[0]] if blocks else []))] + blocks[1:]
 
+    return report_document_bytes(story, cautions, sheet["short_fingerprint"], title=f"Agreement report {sheet['short_fingerprint']}",
+                                 subject=sheet["title"], author="scorecard check")
+
+
+def report_document_bytes(story: list, cautions: list[str], short_fingerprint: str, title: str, subject: str, author: str,
+                          footer: str = "Sheet fingerprint") -> bytes:
+    """A report's flowables as A4 PDF bytes with the cautions, the fingerprint and 'page x of y' on every page
+    (deterministic: reportlab's invariant mode and fixed metadata). Shared by every report verb."""
+    regular, bold = _fonts()
     caution_text = "  ".join(cautions)
 
     def on_page(canvas, doc):
+        if sheet.get("invented_data"):  # scorecard.invented: black bands at the top and the foot of every page
+            page_w, page_h = A4
+            draw_band(canvas, 15 * mm, page_w - 30 * mm, page_h - 5 * mm, bold, 8)
+            draw_band(canvas, 15 * mm, page_w - 30 * mm, 24 * mm, bold, 8)  # above the cautions
         canvas.saveState()
         canvas.setFont(regular, 6.5)
         width, _ = A4
@@ -323,13 +338,12 @@ def report_pdf_bytes(report: dict, cautions: list[str]) -> bytes:
             text.textLine(line)
         canvas.drawText(text)
         canvas.setFont(bold, 7)
-        canvas.drawString(15 * mm, 6 * mm, f"Sheet fingerprint {sheet['short_fingerprint']}")
+        canvas.drawString(15 * mm, 6 * mm, f"{footer} {short_fingerprint}")
         canvas.restoreState()
 
     buffer = io.BytesIO()
     doc = SimpleDocTemplate(buffer, pagesize=A4, leftMargin=15 * mm, rightMargin=15 * mm, topMargin=14 * mm, bottomMargin=26 * mm,
-                            title=f"Agreement report {sheet['short_fingerprint']}", author="scorecard check",
-                            subject=sheet["title"], creator="scorecard", producer="scorecard", invariant=1)
+                            title=title, author=author, subject=subject, creator="scorecard", producer="scorecard", invariant=1)
     doc.build(story, onFirstPage=on_page, onLaterPages=on_page, canvasmaker=_page_of_total_canvas(bold))
     return buffer.getvalue()
 
@@ -369,3 +383,9 @@ def _wrap(text: str, font: str, size: float, width: float) -> list[str]:
         else:
             line = trial
     return lines + ([line] if line else [])
+
+
+# the building blocks other report verbs (compare, exercise, recalibrate) lay their pages out with
+report_styles = _styles
+report_table = _table
+paragraph = _p

@@ -13,7 +13,9 @@ import pandas as pd
 
 from scorecard.commands._common import say
 from scorecard.demo import OUTCOME, cohort_csv_text, generate_cohort, true_model
-from scorecard.demo.true_model import FEATURE_INFO, OUTCOME_TEXT
+from scorecard.demo.population import RESIDENCE_LEVELS
+from scorecard.demo.true_model import COMPLETED_UNITS, FEATURE_INFO, OUTCOME_TEXT
+from scorecard.invented import MARK
 from scorecard.errors import UserError
 from scorecard.jsondoc import atomic_write_text
 from scorecard.model import save_model
@@ -66,6 +68,10 @@ CARE_PROCESS_REASON = (
 SPARSE_TAILS_HELD_ABOVE = ("hours_to_surgery=96", "medicines=12")
 
 
+# levels in a clinical order (own home, with family, care home: rising dependence), not by name
+CLINICAL_ORDER = {"residence": RESIDENCE_LEVELS, "anaesthesia": ("spinal", "general")}
+
+
 def fit_model(ctx: click.Context, folder: Path, cohort: Path) -> Path:
     """Step 3: learn an additive model from the cohort, as a methodologist without a model would."""
     from scorecard.commands.fit import command as fit
@@ -77,6 +83,8 @@ def fit_model(ctx: click.Context, folder: Path, cohort: Path) -> Path:
         labels=tuple(f"{n}={label}" for n, label, *_ in FEATURE_INFO),
         units=tuple(f"{n}={unit}" for n, _, unit, *_ in FEATURE_INFO if unit),
         decimals=tuple(f"{n}={d}" for n, _, _, d, kind, *_ in FEATURE_INFO if kind == "continuous"),
+        score_at=OUTCOME_TEXT["score_at"], completed=COMPLETED_UNITS,
+        orders=tuple(f"{n}={','.join(levels)}" for n, levels in CLINICAL_ORDER.items()), invented=True,
         output=str(path),
     )
     return path
@@ -196,4 +204,5 @@ def command(ctx: click.Context, output: str, rows: int, seed: int, without_pair:
     sheet = make_sheet(ctx, folder, edited, cohort)
     pdf = print_sheet(ctx, folder, sheet, layout)
     audit_sheet(ctx, folder, sheet, pdf, edited, audit_cohort)
-    say(f"demo complete: print {pdf} (previews in {folder / 'sheet-previews'}); the audit report is {folder / 'check-report.pdf'}")
+    say(f"demo complete: {pdf} (previews in {folder / 'sheet-previews'}), audit report {folder / 'check-report.pdf'}. "
+        f"{MARK}: every page says so; practise with it, never score a patient with it")

@@ -24,8 +24,8 @@ from scorecard.errors import CheckFailed, UserError
 from scorecard.model import AdditiveModel, logistic
 from scorecard.quantize.allocate import allocate_rows
 from scorecard.quantize.certificate import certificate
-from scorecard.quantize.curves import Curve, Layout, LevelCurve, build_curves
-from scorecard.quantize.figures import full_figures, quick_figures, expected_auc
+from scorecard.quantize.curves import Curve, RowPlan, LevelCurve, build_curves
+from scorecard.quantize.accuracy import full_figures, quick_figures, expected_auc
 from scorecard.quantize.nice import MAX_CANDIDATES
 from scorecard.quantize.population import Population, evaluation_population
 from scorecard.quantize.points import Quadratic, fit_scale_offset, polish_points, round_points, weighted_error
@@ -111,7 +111,7 @@ class Bound:
 class Candidate:
     budget: int
     choice: list[int]
-    layouts: list[Layout]
+    layouts: list[RowPlan]
     points: list[np.ndarray]
     scale: float
     offset: float
@@ -143,7 +143,7 @@ class Problem:
                              self.bands, self.bound.risk_error_percentile)
 
 
-def _design(problem: Problem, layouts: list[Layout]):
+def _design(problem: Problem, layouts: list[RowPlan]):
     """Global row ids per patient, the term of each row, and each row's own-curve value."""
     starts = np.cumsum([0] + [lay.n_rows for lay in layouts])
     ids = np.empty((problem.population.size, len(layouts)), dtype=np.int64)
@@ -215,7 +215,7 @@ class Design:
 
     budget: int
     choice: list[int]
-    layouts: list[Layout]
+    layouts: list[RowPlan]
     ids: np.ndarray
     starts: np.ndarray
     term_of_row: np.ndarray
@@ -508,7 +508,7 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
         "total_points_tradeoff": _tradeoff(problem),
         "search": problem.tried,
     }
-    return {
+    doc = {
         "format_version": 1,
         "document": "scorecard-sheet",
         "title": title or f"Risk of {outcome['event']}",
@@ -531,6 +531,9 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
                        "allow_negative": problem.allow_negative, "merge_equal_levels": merge_equal_levels},
                        "evaluation": problem.population.description},
     }
+    if model.invented_data:  # the sheet inherits the mark: every page printed from it says so
+        doc["invented_data"] = True
+    return doc
 
 
 def printed_rows(terms: list[dict]) -> int:
