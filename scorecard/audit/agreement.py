@@ -10,7 +10,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from scorecard.audit import figures
+from scorecard.audit import statistics
 from scorecard.audit.paper import ScoredCohort, band_index, parse_cohort, score_cohort, sheet_logodds
 from scorecard.errors import UserError
 from scorecard.model import AdditiveModel, contributions, logistic
@@ -127,15 +127,15 @@ def _against_outcomes(y: np.ndarray, model_lo: np.ndarray, model_risk: np.ndarra
     yk = y[known]
     out: dict = {"n": int(known.sum()), "not_known": int((~known).sum()), "event_rate": float(yk.mean())}
     for who, lo, risk in (("model", model_lo[known], model_risk[known]), ("sheet", sheet_lo[known], scored.risk[known])):
-        g, ng = figures.tie_groups(lo)
-        a, b = figures.logistic_calibration(*figures.grouped(lo, yk))
+        g, ng = statistics.tie_groups(lo)
+        a, b = statistics.logistic_calibration(*statistics.grouped(lo, yk))
         out[who] = {
-            "auc": figures.weighted_auc(g, ng, yk, 1 - yk),
+            "auc": statistics.weighted_auc(g, ng, yk, 1 - yk),
             "calibration_intercept": a,
             "calibration_slope": b,
-            "brier": figures.brier(risk, yk),
+            "brier": statistics.brier(risk, yk),
             "mean_risk": float(np.mean(risk)),
-            "calibration_table": figures.calibration_table(risk, yk),
+            "calibration_table": statistics.calibration_table(risk, yk),
         }
     out["auc_loss"] = out["model"]["auc"] - out["sheet"]["auc"]
     return out
@@ -165,14 +165,14 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
     has_outcomes = y is not None and (~np.isnan(y)).any()
     w_pos, w_neg = model_risk, 1 - model_risk
     basis = "outcomes expected from the model's risk"
-    gm, ngm = figures.tie_groups(model_lo)
+    gm, ngm = statistics.tie_groups(model_lo)
     gs = scored.total - scored.total.min()
     ngs = int(gs.max()) + 1
-    auc_model = figures.weighted_auc(gm, ngm, w_pos, w_neg)
-    auc_sheet = figures.weighted_auc(gs, ngs, w_pos, w_neg)
+    auc_model = statistics.weighted_auc(gm, ngm, w_pos, w_neg)
+    auc_sheet = statistics.weighted_auc(gs, ngs, w_pos, w_neg)
     say(f"bootstrap interval of the AUC loss ({replicates} resamples)")
-    ci = figures.bootstrap_auc_difference(gm, ngm, gs, ngs, w_pos, w_neg, replicates=replicates, seed=seed)
-    cal_a, cal_b = figures.logistic_calibration(*figures.grouped(sheet_lo, model_risk))
+    ci = statistics.bootstrap_auc_difference(gm, ngm, gs, ngs, w_pos, w_neg, replicates=replicates, seed=seed)
+    cal_a, cal_b = statistics.logistic_calibration(*statistics.grouped(sheet_lo, model_risk))
     agreement = {
         "auc_basis": basis,
         "auc_model": auc_model,
@@ -184,8 +184,8 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
         "calibration_intercept": cal_a,
         "calibration_slope": cal_b,
         "brier_basis": basis,
-        "brier_model": figures.expected_brier(model_risk, model_risk),
-        "brier_sheet": figures.expected_brier(scored.risk, model_risk),
+        "brier_model": statistics.expected_brier(model_risk, model_risk),
+        "brier_sheet": statistics.expected_brier(scored.risk, model_risk),
     }
     bands = _band_matrix(sheet, model_risk, scored)
     agreement["band_agreement"] = None if bands is None else bands["agreement"]

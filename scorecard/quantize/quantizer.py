@@ -24,8 +24,8 @@ from scorecard.errors import CheckFailed, UserError
 from scorecard.model import AdditiveModel, logistic
 from scorecard.quantize.allocate import allocate_rows
 from scorecard.quantize.certificate import certificate
-from scorecard.quantize.curves import Curve, Layout, LevelCurve, build_curves
-from scorecard.quantize.figures import full_figures, quick_figures, expected_auc
+from scorecard.quantize.curves import Curve, RowPlan, LevelCurve, build_curves
+from scorecard.quantize.accuracy import full_figures, quick_figures, expected_auc
 from scorecard.quantize.nice import MAX_CANDIDATES
 from scorecard.quantize.population import Population, evaluation_population
 from scorecard.quantize.points import Quadratic, fit_scale_offset, polish_points, round_points, weighted_error
@@ -71,7 +71,7 @@ class Bound:
 class Candidate:
     budget: int
     choice: list[int]
-    layouts: list[Layout]
+    layouts: list[RowPlan]
     points: list[np.ndarray]
     scale: float
     offset: float
@@ -97,7 +97,7 @@ class Problem:
     design: "Design | None" = None  # the chosen allocation, set by `search`
 
 
-def _design(problem: Problem, layouts: list[Layout]):
+def _design(problem: Problem, layouts: list[RowPlan]):
     """Global row ids per patient, the term of each row, and each row's own-curve value."""
     starts = np.cumsum([0] + [lay.n_rows for lay in layouts])
     ids = np.empty((problem.population.size, len(layouts)), dtype=np.int64)
@@ -169,7 +169,7 @@ class Design:
 
     budget: int
     choice: list[int]
-    layouts: list[Layout]
+    layouts: list[RowPlan]
     ids: np.ndarray
     starts: np.ndarray
     term_of_row: np.ndarray
