@@ -321,7 +321,8 @@ def report_pdf_bytes(report: dict, cautions: list[str]) -> bytes:
 def report_document_bytes(story: list, cautions: list[str], short_fingerprint: str, title: str, subject: str, author: str,
                           footer: str = "Sheet fingerprint", invented: bool = False) -> bytes:
     """A report's flowables as A4 PDF bytes with the cautions, the fingerprint and 'page x of y' on every page
-    (deterministic: reportlab's invariant mode and fixed metadata). Shared by every report verb."""
+    (deterministic: reportlab's invariant mode and fixed metadata), and the invented-data bands when `invented`.
+    Shared by every report verb."""
     regular, bold = _fonts()
     caution_text = "  ".join(cautions)
 
