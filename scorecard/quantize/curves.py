@@ -173,10 +173,18 @@ class ContinuousCurve(Curve):
 
     def options(self, patient_weight: np.ndarray, max_rows: int, cap: float, nice: bool = True) -> list[Option]:
         w = self.piece_weights(patient_weight)
+        return [Option(size=k, cost=cost, layout=plan, cap=cap_used)
+                for k, cost, plan, cap_used in self.segmentations(self.scores, w, max_rows, cap, nice)]
+
+    def segmentations(self, target: np.ndarray, piece_weight: np.ndarray, max_rows: int, cap: float,
+                      nice: bool = True) -> list[tuple[int, float, RowPlan, float]]:
+        """(k, cost, plan, cap used) for every k = 1..max_rows rows that meets the cap: the exact DP
+        (`segment`) of the piece values `target` with weights `piece_weight` (the model's own curve, or a
+        partial residual when backfitting). The cap is raised to the smallest `max_rows` rows can meet."""
         n = self.n_main
         allowed = self.axis["allowed"] if nice else self.axis["edge_allowed"]
         allowed = allowed[(allowed > 0) & (allowed < n)]
-        table = segment_table(self.scores[:n], w[:n], allowed)
+        table = segment_table(target[:n], piece_weight[:n], allowed)
         rows_limit = min(max_rows, len(allowed) + 1)
         cap_used = max(cap, smallest_cap(table, rows_limit) * (1 + 1e-9) + 1e-12)
         out = []
@@ -186,8 +194,8 @@ class ContinuousCurve(Curve):
             cost, cuts = found
             row = rows_of_pieces(n, cuts)
             extra, _ = self.special_rows(k)
-            layout = RowPlan(np.concatenate([row, extra]), k + len(extra), k + len(extra), {"cuts": cuts})
-            out.append(Option(size=k, cost=cost, layout=layout, cap=cap_used))
+            plan = RowPlan(np.concatenate([row, extra]), k + len(extra), k + len(extra), {"cuts": cuts, "k": (k,)})
+            out.append((k, cost, plan, cap_used))
         return out
 
     def sheet_term(self, layout: RowPlan, points: list[int]) -> dict:
@@ -338,29 +346,44 @@ class PairCurve(Curve):
 
     def options(self, patient_weight: np.ndarray, max_rows: int, cap: float, nice: bool = True) -> list[Option]:
         w = self.piece_weights(patient_weight)
-        p0, p1 = self.shape
-        s2, w2 = self.scores[: self.n_main].reshape(p0, p1), w[: self.n_main].reshape(p0, p1)
-        ks = [range(1, max_rows + 1) if ax["kind"] == "continuous" else [ax["n_pieces"]] for ax in self.axes]
         out = []
-        for k0 in ks[0]:
-            for k1 in ks[1]:
-                rows1 = np.zeros(p1, dtype=np.int64) if self.axes[1]["kind"] == "continuous" else np.arange(p1)
-                cuts0 = cuts1 = None
-                for _ in range(3):  # alternate between the axes; each step is an exact DP given the other
-                    cuts0, rows0 = self._axis_groups(0, k0, s2, w2, rows1, nice)
-                    cuts1, rows1 = self._axis_groups(1, k1, s2, w2, rows0, nice)
-                n1 = int(rows1.max()) + 1
-                cell = rows0[:, None] * n1 + rows1[None, :]
-                n_cells = (int(rows0.max()) + 1) * n1
-                cw = np.bincount(cell.ravel(), weights=w2.ravel(), minlength=n_cells)
-                cs = np.bincount(cell.ravel(), weights=(w2 * s2).ravel(), minlength=n_cells)
-                value = cs / cw
-                cost = float((w2 * (s2 - value[cell]) ** 2).sum())
-                row = np.concatenate([cell.ravel(), [n_cells]])
-                size = int(rows0.max()) + 1 + n1
-                layout = RowPlan(row, n_cells + 1, size, {"cuts": [cuts0, cuts1], "rows": [rows0, rows1]})
-                out.append(Option(size=size, cost=cost, layout=layout, cap=cap))
+        for k0 in self.axis_rows(0, max_rows):
+            for k1 in self.axis_rows(1, max_rows):
+                cost, plan = self.grid(self.scores, w, k0, k1, nice=nice)
+                out.append(Option(size=plan.size, cost=cost, layout=plan, cap=cap))
         return out
+
+    def axis_rows(self, j: int, max_rows: int) -> range:
+        """Row counts axis j may take: 1..max_rows for a continuous axis, one row per level otherwise."""
+        ax = self.axes[j]
+        return range(1, max_rows + 1) if ax["kind"] == "continuous" else range(ax["n_pieces"], ax["n_pieces"] + 1)
+
+    def grid(self, target: np.ndarray, piece_weight: np.ndarray, k0: int, k1: int, start: np.ndarray | None = None,
+             nice: bool = True) -> tuple[float, RowPlan]:
+        """A k0 x k1 grid fitted to the cell values `target`: each continuous axis cut by the exact DP given
+        the other axis' grouping, alternating three times from `start` (the rows of axis 1; default one
+        group), so each step is exact but the grid is not jointly optimal. Returns (cost, plan)."""
+        p0, p1 = self.shape
+        s2, w2 = target[: self.n_main].reshape(p0, p1), piece_weight[: self.n_main].reshape(p0, p1)
+        if start is not None:
+            rows1 = start
+        else:
+            rows1 = np.zeros(p1, dtype=np.int64) if self.axes[1]["kind"] == "continuous" else np.arange(p1)
+        cuts0 = cuts1 = None
+        for _ in range(3):  # alternate between the axes; each step is an exact DP given the other
+            cuts0, rows0 = self._axis_groups(0, k0, s2, w2, rows1, nice)
+            cuts1, rows1 = self._axis_groups(1, k1, s2, w2, rows0, nice)
+        n1 = int(rows1.max()) + 1
+        cell = rows0[:, None] * n1 + rows1[None, :]
+        n_cells = (int(rows0.max()) + 1) * n1
+        cw = np.bincount(cell.ravel(), weights=w2.ravel(), minlength=n_cells)
+        cs = np.bincount(cell.ravel(), weights=(w2 * s2).ravel(), minlength=n_cells)
+        value = cs / cw
+        cost = float((w2 * (s2 - value[cell]) ** 2).sum())
+        row = np.concatenate([cell.ravel(), [n_cells]])
+        size = int(rows0.max()) + 1 + n1
+        plan = RowPlan(row, n_cells + 1, size, {"cuts": [cuts0, cuts1], "rows": [rows0, rows1], "k": (k0, k1)})
+        return cost, plan
 
     def sheet_term(self, layout: RowPlan, points: list[int]) -> dict:
         axes = []

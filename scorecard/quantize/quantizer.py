@@ -18,13 +18,15 @@ from typing import Callable
 
 import numpy as np
 import pandas as pd
+from threadpoolctl import threadpool_limits
 
 from scorecard import __version__
 from scorecard.errors import CheckFailed, UserError
 from scorecard.model import AdditiveModel, logistic
 from scorecard.quantize.allocate import allocate_rows
+from scorecard.quantize.backfit import Backfit, smallest_plans
 from scorecard.quantize.certificate import certificate
-from scorecard.quantize.curves import Curve, RowPlan, LevelCurve, build_curves
+from scorecard.quantize.curves import ContinuousCurve, Curve, RowPlan, LevelCurve, build_curves
 from scorecard.quantize.accuracy import full_figures, quick_figures, expected_auc
 from scorecard.quantize.nice import MAX_CANDIDATES
 from scorecard.quantize.population import Population, evaluation_population
@@ -119,6 +121,8 @@ class Candidate:
     figures: dict
     total_range: int
     passed: bool
+    confirm_figures: dict | None = None  # on the held-out part, when there is one
+    confirm_logodds: np.ndarray | None = None
 
 
 @dataclass
@@ -136,10 +140,15 @@ class Problem:
     bands: list[dict] = field(default_factory=list)
     tried: list[dict] = field(default_factory=list)
     design: "Design | None" = None  # the chosen allocation, set by `search`
+    confirm: Population | None = None  # held-out patients: a sheet is offered only if it meets the bound there too
+    confirm_curves: list[Curve] | None = None
+    steps: list = field(default_factory=list)  # the allocation path (backfit.Step), set by `search`
 
-    def figures(self, sheet_logodds: np.ndarray) -> dict:
-        """The figures the bound is judged on, for sheet log-odds on the evaluation population."""
-        return quick_figures(self.population.logodds, sheet_logodds, self.bound.max_risk_error, self.auc_model,
+    def figures(self, sheet_logodds: np.ndarray, held_out: bool = False) -> dict:
+        """The figures the bound is judged on, for sheet log-odds on the patients choosing the sheet (or on
+        the held-out part)."""
+        pop = self.confirm if held_out else self.population
+        return quick_figures(pop.logodds, sheet_logodds, self.bound.max_risk_error, None if held_out else self.auc_model,
                              self.bands, self.bound.risk_error_percentile)
 
 
@@ -222,18 +231,27 @@ class Design:
     q: Quadratic
     values: np.ndarray
     span: float
+    confirm_ids: np.ndarray | None = None
+
+
+def design_of(problem: Problem, layouts: list[RowPlan], budget: int, choice: list[int] | None = None) -> Design:
+    """The design of these row plans: row ids per patient (choosing and held-out), jointly refitted values."""
+    ids, v0, term_of_row, starts = _design(problem, layouts)
+    q = Quadratic.from_rows(ids, starts, problem.population.logodds, problem.weight)
+    values, _ = refit_row_values(q, v0)
+    span = _span(values, term_of_row)
+    confirm_ids = None
+    if problem.confirm is not None:
+        confirm_ids = np.stack([starts[t] + lay.row_of_piece[c.patient_piece]
+                                for t, (c, lay) in enumerate(zip(problem.confirm_curves, layouts))], axis=1)
+    return Design(budget, choice or [], layouts, ids, starts, term_of_row, q, values, span if span > 0 else 1.0, confirm_ids)
 
 
 def _allocate(problem: Problem, budget: int) -> Design | None:
     choice = allocate_rows(problem.options, budget)
     if choice is None:
         return None
-    layouts = [problem.options[t][i].layout for t, i in enumerate(choice)]
-    ids, v0, term_of_row, starts = _design(problem, layouts)
-    q = Quadratic.from_rows(ids, starts, problem.population.logodds, problem.weight)
-    values, _ = refit_row_values(q, v0)
-    span = _span(values, term_of_row)
-    return Design(budget, choice, layouts, ids, starts, term_of_row, q, values, span if span > 0 else 1.0)
+    return design_of(problem, [problem.options[t][i].layout for t, i in enumerate(choice)], budget, choice)
 
 
 def _attempt(problem: Problem, design: Design, target: int, polish: bool = False) -> Candidate | None:
@@ -247,13 +265,19 @@ def _attempt(problem: Problem, design: Design, target: int, polish: bool = False
     sheet = offset + scale * pts[design.ids].sum(axis=1)
     figs = problem.figures(sheet)
     passed = not bound.misses(figs)
+    confirm_figs = confirm_lo = None
+    if problem.confirm is not None and (passed or polish):
+        confirm_lo = offset + scale * pts[design.confirm_ids].sum(axis=1)
+        confirm_figs = problem.figures(confirm_lo, held_out=True)
+        passed = passed and not bound.misses(confirm_figs)
     s = design.starts
     per_term = [pts[s[t]:s[t + 1]] for t in range(len(design.layouts))]
     total_range = int(sum(np.ptp(p) for p in per_term))
     problem.tried.append({"row_budget": design.budget, "total_points_target": target, "scale": scale,
                           "auc_loss": figs["auc_loss"], "share_over_risk_error": figs["share_over_risk_error"],
-                          "passed": passed})
-    return Candidate(design.budget, design.choice, design.layouts, per_term, scale, offset, sheet, figs, total_range, passed)
+                          "held_out_checked": confirm_figs is not None, "passed": passed})
+    return Candidate(design.budget, design.choice, design.layouts, per_term, scale, offset, sheet, figs, total_range, passed,
+                     confirm_figs, confirm_lo)
 
 
 def _evaluate(problem: Problem, budget: int) -> tuple[Design, Candidate] | None:
@@ -277,33 +301,116 @@ def _smallest_total(problem: Problem, design: Design, top: Candidate) -> Candida
     return best
 
 
+HOLD_OUT_SHARE = 1 / 3  # of a cohort, held out to confirm the chosen sheet (seeded split)
+MIN_HOLD_OUT_COHORT = 300  # a smaller cohort is used whole (its held-out part would be too small to judge)
+SYNTHETIC_HELD_OUT = 10000  # without a cohort: a second synthetic draw of this size confirms the sheet
+
+
+def split_populations(model: AdditiveModel, data: pd.DataFrame | None, hold_out: bool = True,
+                      seed: int = 0) -> tuple[Population, Population | None]:
+    """The patients the sheet is chosen on and the held-out ones it is confirmed on (None without a hold-out):
+    with a cohort, a seeded random third of its patients is held out; without one, the synthetic population
+    of the model's bin counts chooses and a second, independent synthetic draw confirms."""
+    if not hold_out:
+        return evaluation_population(model, data), None
+    if data is None:
+        return (evaluation_population(model, None),
+                evaluation_population(model, None, size=SYNTHETIC_HELD_OUT, seed=seed + 1,
+                                      description=f"a second synthetic population of {SYNTHETIC_HELD_OUT} (seed {seed + 1}), "
+                                                  "not used to choose the rows"))
+    if len(data) < MIN_HOLD_OUT_COHORT:
+        return evaluation_population(model, data), None
+    # a stream of its own: a generator seeded like the cohort's (seed 0 for the demo) would draw the same
+    # uniforms the cohort was made from, and the split would follow the patients' risk
+    rng = np.random.default_rng(np.random.SeedSequence([seed, 0x4E1D0]))
+    held = np.zeros(len(data), dtype=bool)
+    held[rng.permutation(len(data))[: int(round(len(data) * HOLD_OUT_SHARE))]] = True
+    n = len(data)
+    choose = data.loc[~held].reset_index(drop=True)
+    confirm = data.loc[held].reset_index(drop=True)
+    return (evaluation_population(model, choose, description=f"{len(choose)} of the cohort's {n} patients (the part not held out)"),
+            evaluation_population(model, confirm, description=f"{len(confirm)} held-out patients of the cohort's {n} "
+                                                              f"(a seeded random third, not used to choose the rows)"))
+
+
 def prepare(model: AdditiveModel, data: pd.DataFrame | None = None, bound: Bound | None = None,
             allow_negative: bool = False, population: Population | None = None,
-            max_candidates: int = MAX_CANDIDATES, bands: list[dict] | None = None) -> Problem:
+            max_candidates: int = MAX_CANDIDATES, bands: list[dict] | None = None, hold_out: bool = False) -> Problem:
+    """Everything the search needs. With `hold_out` (and no `population` given) the sheet is chosen on one
+    part of the patients and confirmed on the other (`split_populations`)."""
     bands = list(bands or [])
     bound = (bound or Bound()).for_bands(bands)
     bound.check()
     if not model.terms:
         raise UserError("the model has no terms; there is nothing to put on a sheet")
-    population = population or evaluation_population(model, data)
+    confirm = None
+    if population is None:
+        population, confirm = split_populations(model, data, hold_out)
     p = population.risk
     weight = p * (1 - p)
     curves = build_curves(model, population.frame, max_candidates)
     options = [c.options(weight, bound.max_rows, bound.max_row_error) for c in curves]
     auc_model = expected_auc(p, population.logodds)
-    return Problem(model, population, curves, options, weight, auc_model, bound, allow_negative, bands)
+    problem = Problem(model, population, curves, options, weight, auc_model, bound, allow_negative, bands)
+    if confirm is not None:
+        problem.confirm = confirm
+        problem.confirm_curves = build_curves(model, confirm.frame, max_candidates)
+    return problem
 
 
 def search(problem: Problem, progress: Callable[[str], None] | None = None) -> Candidate:
-    """The simplest passing candidate: fewest rows (bisection on the row budget), then smallest total."""
+    """The simplest passing candidate on the per-patient allocation path (`backfit`): the smallest sheet on
+    the path that meets every bound (bisection along the path, each sheet judged at the largest total
+    allowed), then the smallest total-points range for it. With a held-out part, a sheet passes only if it
+    meets the bound there as well, so one that just meets it in sample and misses it held out is not offered."""
+    say = progress or (lambda _m: None)
+    bound = problem.bound
+    fit = Backfit(problem.curves, problem.population.logodds, problem.weight, bound.max_rows, bound.max_row_error)
+    steps = fit.path(smallest_plans(problem.curves, problem.weight, bound.max_row_error, bound.max_rows))
+    problem.steps = steps
+    say(f"backfitting path: {len(steps)} sheets from {steps[0].printed} to {steps[-1].printed} printed rows over "
+        f"{len(problem.curves)} terms, each row given where it lowers the per-patient error most")
+    cache: dict[int, tuple[Design, Candidate | None]] = {}
+
+    def judge(k: int, polish: bool = False) -> tuple[Design, Candidate | None]:
+        if k not in cache or polish:
+            design = design_of(problem, steps[k].plans, steps[k].printed)
+            cache[k] = (design, _attempt(problem, design, bound.max_total_points, polish=polish))
+        return cache[k]
+
+    def ok(k: int) -> bool:
+        cand = judge(k)[1]
+        return cand is not None and cand.passed
+
+    top = len(steps) - 1
+    if not ok(top):
+        # before calling the bound out of reach, give the largest sheet the full rounding: the quick one
+        # can miss by a hair
+        judge(top, polish=True)
+    if not ok(top):
+        raise CheckFailed(_infeasible_message(problem, cache[top][1]))
+    lo, hi = 0, top
+    while lo < hi:  # the smallest sheet on the path that passes, judged at the largest total allowed
+        mid = (lo + hi) // 2
+        passed = ok(mid)
+        say(f"  {steps[mid].printed} rows: {'meets' if passed else 'misses'} the bound")
+        if passed:
+            hi = mid
+        else:
+            lo = mid + 1
+    design, top_cand = judge(hi)
+    problem.design = design
+    return _finish(problem, design, top_cand)
+
+
+def search_by_term_error(problem: Problem, progress: Callable[[str], None] | None = None) -> Candidate:
+    """The earlier search, kept for comparison (bench_quantize): rows allocated by each term's own error
+    (knapsack over the options of `curves`), fewest rows by bisection on the row budget, then the smallest total."""
     say = progress or (lambda _m: None)
     lo = sum(min(o.size for o in opts) for opts in problem.options)
     hi = sum(max(o.size for o in opts) for opts in problem.options)
-    say(f"looking for the fewest printed rows that meet the bound (between {lo} and {hi}, over {len(problem.curves)} terms)")
     found = _evaluate(problem, hi)
     if found is not None and found[1] is not None and not found[1].passed:
-        # before calling the bound out of reach, give the largest sheet the full rounding: the quick one
-        # can miss by a hair (e.g. the demo's true model with --max-row-error 0.5: ΔAUC 0.0101 -> 0.0099)
         found = (found[0], _attempt(problem, found[0], problem.bound.max_total_points, polish=True) or found[1])
     if found is None or found[1] is None or not found[1].passed:
         raise CheckFailed(_infeasible_message(problem, None if found is None else found[1]))
@@ -319,9 +426,14 @@ def search(problem: Problem, progress: Callable[[str], None] | None = None) -> C
             lo = mid + 1
     design, top = best
     problem.design = design
+    return _finish(problem, design, top)
+
+
+def _finish(problem: Problem, design: Design, top: Candidate) -> Candidate:
+    """The smallest total-points range for the chosen rows; the rows and total are chosen by the quick
+    rounding, then the chosen sheet gets the full rounding (pair moves, scale and offset refitted), kept
+    when it still meets the bound."""
     chosen = _smallest_total(problem, design, top)
-    # the rows and total are chosen by the quick rounding; the chosen sheet then gets the full rounding
-    # (pair moves, scale and offset refitted), kept when it still meets the bound
     polished = _attempt(problem, design, chosen.total_range if chosen.total_range > 0 else 1, polish=True)
     if polished is not None and polished.passed and _weighted(problem, polished) <= _weighted(problem, chosen):
         return polished
@@ -360,34 +472,39 @@ def _infeasible_message(problem: Problem, top: Candidate | None) -> str:
     if top is None:
         return (f"no sheet fits within --max-total-points {b.max_total_points}: even the coarsest rounding needs more; "
                 "raise --max-total-points")
-    lines = bound_lines(b, top.figures)
+    figs, where = top.figures, ""
+    if top.confirm_figures is not None and not b.misses(top.figures):
+        figs, where = top.confirm_figures, " on the held-out patients"  # it met the bound in sample only
+    lines = bound_lines(b, figs)
     missed = [text for _, text, met, _ in lines if not met]
     relax = [option for _, _, met, option in lines if not met]
     met = [text.split(" (bound")[0] for _, text, ok, _ in lines if ok]
     return (f"no sheet with at most {b.max_rows} rows per term and {b.max_total_points} total points meets the bound; "
-            f"best achievable misses: {'; '.join(missed)}" + (f" (meets: {', '.join(met)})" if met else "")
+            f"best achievable{where} misses: {'; '.join(missed)}" + (f" (meets: {', '.join(met)})" if met else "")
             + f"; relax {' or '.join(relax)}, or raise --max-total-points / --max-rows")
 
 
 def _readability(problem: Problem, cand: Candidate) -> dict:
-    """Error before rounding with readable cuts vs cuts anywhere between model bins, at the same rows."""
+    """Error before rounding with readable cuts vs cuts anywhere between model bins, at the same rows, on
+    each continuous term's own curve."""
     nice_total = free_total = 0.0
     per_term = {}
-    for curve, opts, i in zip(problem.curves, problem.options, cand.choice):
-        if isinstance(curve, LevelCurve):
+    for curve, lay in zip(problem.curves, cand.layouts):
+        if not isinstance(curve, ContinuousCurve):
             continue
-        size = opts[i].size
+        (size,) = lay.detail["k"]
+        w = curve.piece_weights(problem.weight)
         # compared without the cap, which would otherwise differ between the two sets of cuts
-        rows = {o.size: o.cost for o in curve.options(problem.weight, problem.bound.max_rows, math.inf, nice=True)}
-        free = {o.size: o.cost for o in curve.options(problem.weight, problem.bound.max_rows, math.inf, nice=False)}
-        n_cost = rows.get(size, opts[i].cost)
+        rows = {k: cost for k, cost, _, _ in curve.segmentations(curve.scores, w, size, math.inf, nice=True)}
+        free = {k: cost for k, cost, _, _ in curve.segmentations(curve.scores, w, size, math.inf, nice=False)}
+        n_cost = rows.get(size, 0.0)
         f = free.get(size, n_cost)
         per_term[curve.name] = {"rows": size, "error_nice_cuts": n_cost, "error_any_cuts": f}
         nice_total += n_cost
         free_total += f
     extra = (nice_total / free_total - 1) if free_total > 0 else 0.0
     return {"extra_error_share": extra, "per_term": per_term,
-            "note": "risk-weighted squared log-odds error before rounding; readable cuts vs cuts at any model bin edge"}
+            "note": "risk-weighted squared log-odds error before rounding, on each term's own curve; readable cuts vs cuts at any model bin edge"}
 
 
 def _tradeoff(problem: Problem) -> list[dict]:
@@ -496,8 +613,11 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
         risk = float(logistic(np.array([offset + scale * total]))[0])
         conversion.append({"total": total, "risk": risk, "text": risk_text(risk)})
     say_bound = problem.bound
-    figures = full_figures(problem.population.logodds, cand.sheet_logodds, say_bound.max_risk_error, bands, bootstrap=bootstrap,
-                           percentile=say_bound.risk_error_percentile)
+    held_out = cand.confirm_logodds is not None
+    # the figures printed and reported are the held-out ones when there is a held-out part
+    figures = full_figures(problem.confirm.logodds if held_out else problem.population.logodds,
+                           cand.confirm_logodds if held_out else cand.sheet_logodds, say_bound.max_risk_error, bands,
+                           bootstrap=bootstrap, percentile=say_bound.risk_error_percentile)
     cert = certificate(piece_errors, offset, model.intercept, scale, total_min, total_max)
     outcome = dict(model.outcome)
     report = {
@@ -508,6 +628,9 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
         "total_points_tradeoff": _tradeoff(problem),
         "search": problem.tried,
     }
+    if held_out:
+        report["in_sample"] = full_figures(problem.population.logodds, cand.sheet_logodds, say_bound.max_risk_error, bands,
+                                           bootstrap=0, percentile=say_bound.risk_error_percentile)
     doc = {
         "format_version": 1,
         "document": "scorecard-sheet",
@@ -529,7 +652,8 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
         "report": report,
         "provenance": {"package_version": __version__, "settings": settings or {"max_row_error": say_bound.max_row_error,
                        "allow_negative": problem.allow_negative, "merge_equal_levels": merge_equal_levels},
-                       "evaluation": problem.population.description},
+                       "evaluation": (problem.confirm if held_out else problem.population).description,
+                       **({"chosen_on": problem.population.description} if held_out else {})},
     }
     if model.invented_data:  # the sheet inherits the mark: every page printed from it says so
         doc["invented_data"] = True
@@ -551,18 +675,21 @@ def _term_points(term: dict) -> list[int]:
 def quantize_model(model: AdditiveModel, data: pd.DataFrame | None = None, bound: Bound | None = None,
                    bands: list[dict] | None = None, allow_negative: bool = False, merge_equal_levels: bool = False,
                    bootstrap: int = 200, title: str | None = None, progress: Callable[[str], None] | None = None,
-                   population: Population | None = None) -> dict:
+                   population: Population | None = None, hold_out: bool = True) -> dict:
     """The sheet document (a plain dict, not yet fingerprinted) for `model`: the simplest sheet meeting
-    `bound` on `data` (or on a synthetic population from the model's bin counts). Raises CheckFailed with
+    `bound` on `data` (or on a synthetic population from the model's bin counts), confirmed on held-out
+    patients (`hold_out`, see `split_populations`; not when `population` is given). Raises CheckFailed with
     the best achievable figures when no sheet within the limits meets the bound."""
     bound = bound or Bound()
     say = progress or (lambda _m: None)
-    problem = prepare(model, data, bound, allow_negative, population, bands=bands)
-    say("patients the sheet is judged on: " + ("the cohort given" if data is not None
-                                                 else "a synthetic population drawn from the model's own bin counts"))
-    cand = search(problem, progress)
-    if bootstrap:
-        say(f"measuring the chosen sheet ({bootstrap} bootstrap resamples for the ΔAUC interval)")
-    settings = {"max_row_error": bound.max_row_error, "allow_negative": allow_negative,
-                "merge_equal_levels": merge_equal_levels, "bootstrap": bootstrap}
-    return build_sheet(problem, cand, bands or [], merge_equal_levels, bootstrap, title, settings)
+    # many small vector operations: BLAS threads only contend with each other on a shared machine
+    with threadpool_limits(1):
+        problem = prepare(model, data, bound, allow_negative, population, bands=bands, hold_out=hold_out and population is None)
+        say("patients the sheet is chosen on: " + problem.population.description
+            + ("" if problem.confirm is None else f"; confirmed on {problem.confirm.description}"))
+        cand = search(problem, progress)
+        if bootstrap:
+            say(f"measuring the chosen sheet ({bootstrap} bootstrap resamples for the ΔAUC interval)")
+        settings = {"max_row_error": bound.max_row_error, "allow_negative": allow_negative,
+                    "merge_equal_levels": merge_equal_levels, "bootstrap": bootstrap, "held_out": problem.confirm is not None}
+        return build_sheet(problem, cand, bands or [], merge_equal_levels, bootstrap, title, settings)

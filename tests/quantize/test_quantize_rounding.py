@@ -86,7 +86,7 @@ def test_the_largest_sheet_gets_the_full_rounding_before_the_bound_is_called_out
     # the demo's true model with a tighter row cap: the quick rounding of the largest sheet misses the ΔAUC
     # bound by a hair (0.0101), the full rounding meets it, so the command must not exit 3
     bound = Bound(max_row_error=0.5, **POPULATION_ONLY)
-    doc = quantize_model(true_model(), bound=bound, bootstrap=0)
+    doc = quantize_model(true_model(), bound=bound, bootstrap=0, hold_out=False)
     assert doc["achieved"]["auc_loss"] <= bound.max_auc_loss
     assert doc["achieved"]["share_over_risk_error"] <= bound.risk_error_share
 
