@@ -2,9 +2,13 @@
 
 from __future__ import annotations
 
+from dataclasses import replace
+
 import click
 
 from scorecard.commands._common import output_path, say
+from scorecard.errors import CheckFailed
+from scorecard.jsondoc import atomic_write_bytes
 from scorecard.model import load_model
 from scorecard.quantize import Bound, parse_bands, quantize_model
 from scorecard.sheet import save_sheet, short_fingerprint
@@ -74,6 +78,56 @@ def summary_lines(doc: dict) -> list[str]:
     return lines
 
 
+def frontier_lines(doc: dict) -> list[str]:
+    """The frontier of alternative sheets as a table for the terminal (also in the sheet's report.frontier)."""
+    rows = doc["report"].get("frontier") or []
+    if not rows:
+        return []
+    where = rows[0]["measured_on"]
+    out = [f"alternative sheets (measured on {where}; * = meets every bound set, + = beyond --max-total-points):",
+           "  rows  points   ΔAUC   band   p95 pp  largest pp  mean pp"]
+    for f in rows:
+        band = "  –  " if f["band_agreement"] is None else f"{f['band_agreement']:.3f}"
+        mark = ("*" if f["meets_bound"] else " ") + (" " if f["within_limits"] else "+")
+        out.append(f"{mark}{f['printed_rows']:4d}  {f['total_points']:6d}  {f['auc_loss']:.4f}  {band}  {f['p95_abs_risk_error'] * 100:6.1f}"
+                   f"  {f['max_abs_risk_error'] * 100:10.1f}  {f['mean_abs_risk_error'] * 100:7.2f}")
+    return out
+
+
+def frontier_png_bytes(doc: dict) -> bytes:
+    """p95 and largest |Δrisk| against printed rows, one line per total-points limit (matplotlib, Agg)."""
+    import io
+
+    import matplotlib
+
+    matplotlib.use("Agg")
+    import matplotlib.pyplot as plt
+
+    rows = doc["report"].get("frontier") or []
+    fig, axes = plt.subplots(1, 2, figsize=(9, 3.6), dpi=110)
+    for target in sorted({f["total_points"] for f in rows}):
+        sel = sorted((f for f in rows if f["total_points"] == target), key=lambda f: f["printed_rows"])
+        x = [f["printed_rows"] for f in sel]
+        axes[0].plot(x, [f["p95_abs_risk_error"] * 100 for f in sel], marker="o", label=f"up to {target} points")
+        axes[1].plot(x, [f["max_abs_risk_error"] * 100 for f in sel], marker="o", label=f"up to {target} points")
+    b = doc["bound"]
+    for ax, key, title in ((axes[0], "max_percentile_risk_error", f"{b.get('risk_error_percentile', 95):g}th percentile |Δrisk|"),
+                           (axes[1], "max_largest_risk_error", "largest |Δrisk|")):
+        if b.get(key) is not None:
+            ax.axhline(b[key] * 100, color="grey", linestyle="--", linewidth=0.8, label="bound")
+        ax.set_xlabel("printed rows")
+        ax.set_ylabel("percentage points")
+        ax.set_title(title, fontsize=10)
+    axes[0].legend(fontsize=7)
+    fig.suptitle(f"Alternative sheets, measured on {rows[0]['measured_on'] if rows else 'no patients'} "
+                 f"(sheet {short_fingerprint(doc)}; decision support only)", fontsize=9)
+    fig.tight_layout()
+    buffer = io.BytesIO()
+    fig.savefig(buffer, format="png", metadata={"Software": None})
+    plt.close(fig)
+    return buffer.getvalue()
+
+
 @click.command()
 @click.argument("model_path", metavar="MODEL.json", type=click.Path())
 @click.option("--data", "data_path", metavar="COHORT.csv", type=click.Path(),
@@ -113,10 +167,16 @@ def summary_lines(doc: dict) -> list[str]:
 @click.option("--title", help="Page title (default: 'Risk of <event>').")
 @click.option("--bootstrap", type=click.IntRange(0, 10000), default=200, show_default=True,
               help="Bootstrap resamples for the ΔAUC interval (0 = none).")
+@click.option("--frontier-plot", "frontier_png", metavar="FILE.png", type=click.Path(),
+              help="Also draw the frontier of alternative sheets (rows and points against per-patient error) as a PNG.")
+@click.option("--write-nearest", "nearest_path", metavar="FILE.json", type=click.Path(),
+              help="When no sheet within the limits meets the bound (exit 3), write the nearest sheet that does "
+                   "(more total points) to this file; it still exits 3, since the limits asked for were not met.")
 @click.option("-o", "--output", "output", required=True, type=click.Path(), help="Sheet document to write (*.sheet.json).")
 def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_share, min_band_agreement, risk_error_percentile,
             max_percentile_risk_error, max_largest_risk_error, max_certificate_risk_error, max_rows, max_total_points,
-            max_row_error, bands, allow_negative, merge_equal_levels, title, bootstrap, output) -> None:
+            max_row_error, bands, allow_negative, merge_equal_levels, title, bootstrap, frontier_png, nearest_path,
+            output) -> None:
     """Quantise MODEL.json into integer point tables that meet an accuracy bound.
 
     Finds the simplest sheet (fewest printed rows, then the smallest range of total points) whose ΔAUC is at
@@ -144,11 +204,32 @@ def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_shar
     band_list = parse_bands(bands)
     model = load_model(model_path)
     data = read_csv(data_path) if data_path else None
-    doc = quantize_model(model, data=data, bound=bound, bands=band_list, allow_negative=allow_negative,
-                         merge_equal_levels=merge_equal_levels, bootstrap=bootstrap, title=title, progress=say)
-    save_sheet(doc, out, protect=(model_path, data_path) if data_path else (model_path,))
+    protect = (model_path, data_path) if data_path else (model_path,)
+    near = output_path(nearest_path, *protect, option="--write-nearest") if nearest_path else None
+    png = output_path(frontier_png, *protect, option="--frontier-plot") if frontier_png else None
+    options = dict(data=data, bands=band_list, allow_negative=allow_negative, merge_equal_levels=merge_equal_levels,
+                   bootstrap=bootstrap, title=title)
+    try:
+        doc = quantize_model(model, bound=bound, progress=say, **options)
+    except CheckFailed as failed:
+        nearest = getattr(failed, "nearest", None)
+        if near is not None and nearest is not None:
+            relaxed = replace(bound, max_total_points=int(nearest["total_points"]))
+            other = quantize_model(model, bound=relaxed, progress=None, **options)
+            save_sheet(other, near, protect=protect)
+            say(f"wrote the nearest sheet that meets the bound ({other['report']['printed_rows']} rows, total points "
+                f"{other['total']['min']} to {other['total']['max']}) to {near} (fingerprint {short_fingerprint(other)})")
+        elif near is not None:
+            say("no nearer sheet meets the bound within 100 total points; nothing written to --write-nearest")
+        raise
+    save_sheet(doc, out, protect=protect)
     for line in summary_lines(doc):
         say(line)
+    for line in frontier_lines(doc):
+        say(line)
+    if png is not None:
+        atomic_write_bytes(png, frontier_png_bytes(doc))
+        say(f"wrote the frontier plot to {png}")
     extra = doc["report"]["readability"]["extra_error_share"]
     say(f"readable cut-points cost {extra:+.0%} error before rounding (vs cuts anywhere between model bins)")
     for d in doc["dropped_terms"]:

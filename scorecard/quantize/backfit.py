@@ -192,15 +192,17 @@ class Backfit:
         return True
 
     def path(self, plans: list[RowPlan], max_steps: int = 10_000) -> list[Step]:
-        """From the smallest plans, one printed row at a time (each followed by backfitting) up to every
-        term's limit: the sheets the search chooses among."""
+        """From the smallest plans, one printed row at a time (each followed by a backfitting sweep) up to
+        every term's limit: the sheets the search chooses among."""
         self.start(plans)
         j = self.sweep()
         steps = [Step(list(self.plans), self.printed(), j)]
         for _ in range(max_steps):
             if not self.grow_once():
                 break
-            j = self.sweep()
+            # one sweep per added row (each kept step lowers J); the full convergence of `sweep` at every
+            # step cost 3-4 x the time for a J lower by < 1 % on the demo
+            j = self.sweep(max_sweeps=1)
             steps.append(Step(list(self.plans), self.printed(), j))
         return steps
 

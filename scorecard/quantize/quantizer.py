@@ -143,6 +143,7 @@ class Problem:
     confirm: Population | None = None  # held-out patients: a sheet is offered only if it meets the bound there too
     confirm_curves: list[Curve] | None = None
     steps: list = field(default_factory=list)  # the allocation path (backfit.Step), set by `search`
+    frontier: list = field(default_factory=list)  # alternative sheets (`frontier`)
 
     def figures(self, sheet_logodds: np.ndarray, held_out: bool = False) -> dict:
         """The figures the bound is judged on, for sheet log-odds on the patients choosing the sheet (or on
@@ -388,7 +389,24 @@ def search(problem: Problem, progress: Callable[[str], None] | None = None) -> C
         # can miss by a hair
         judge(top, polish=True)
     if not ok(top):
-        raise CheckFailed(_infeasible_message(problem, cache[top][1]))
+        # the path optimises the per-patient error, not ΔAUC: before calling the bound out of reach, try the
+        # allocation by each term's own error too (e.g. the demo's true model with --max-row-error 0.5: the
+        # path's largest sheet misses ΔAUC 0.01 by 0.0007, the term-error sheet meets it)
+        try:
+            return search_by_term_error(problem, progress)
+        except CheckFailed:
+            pass
+        problem.frontier = frontier(problem)
+        # nearest: the fewest rows plus points among the sheets that meet the bound
+        nearest = min((f for f in problem.frontier if f["meets_bound"]), default=None,
+                      key=lambda f: (f["printed_rows"] + f["total_points"], f["printed_rows"]))
+        message = _infeasible_message(problem, cache[top][1])
+        if nearest is not None:
+            message += (f"; the nearest sheet that meets it: {nearest['printed_rows']} rows on up to {nearest['total_points']} "
+                        f"points (--max-total-points {nearest['total_points']}); write it with --write-nearest FILE")
+        failure = CheckFailed(message)
+        failure.nearest = nearest
+        raise failure
     lo, hi = 0, top
     while lo < hi:  # the smallest sheet on the path that passes, judged at the largest total allowed
         mid = (lo + hi) // 2
@@ -401,6 +419,39 @@ def search(problem: Problem, progress: Callable[[str], None] | None = None) -> C
     design, top_cand = judge(hi)
     problem.design = design
     return _finish(problem, design, top_cand)
+
+
+FRONTIER_SHEETS = 6  # sheets along the allocation path shown in the frontier
+FRONTIER_POINTS = (20, 40, 60, 100)  # total-points limits shown (and the one set)
+
+
+def frontier(problem: Problem) -> list[dict]:
+    """Alternative sheets for the methodologist: sheets spread along the allocation path, each rounded at
+    several total-points limits, with their figures (held out when there is a held-out part) and whether
+    they meet every bound (the rows and points limits aside: those are what the table varies)."""
+    steps, bound = problem.steps, problem.bound
+    if not steps:
+        return []
+    picks = sorted({int(round(x)) for x in np.linspace(0, len(steps) - 1, FRONTIER_SHEETS)})
+    out = []
+    for k in picks:
+        design = design_of(problem, steps[k].plans, steps[k].printed)
+        for target in sorted({*FRONTIER_POINTS, bound.max_total_points}):
+            found = _points_for_total(design.q, design.values, design.term_of_row, design.span, target, problem.allow_negative)
+            if found is None:
+                continue
+            scale, (pts, offset) = found
+            figs = problem.figures(offset + scale * pts[design.ids].sum(axis=1))
+            held = None if problem.confirm is None else problem.figures(offset + scale * pts[design.confirm_ids].sum(axis=1), held_out=True)
+            shown = held or figs
+            out.append({"printed_rows": steps[k].printed, "total_points": target, "auc_loss": shown["auc_loss"],
+                        "band_agreement": shown["band_agreement"], "p95_abs_risk_error": shown["p95_abs_risk_error"],
+                        "max_abs_risk_error": shown["max_abs_risk_error"], "mean_abs_risk_error": shown["mean_abs_risk_error"],
+                        "measured_on": "held-out patients" if held else "the patients it was chosen on",
+                        "meets_bound": not bound.misses(figs) and (held is None or not bound.misses(held)),
+                        "within_limits": target <= bound.max_total_points})
+    out.sort(key=lambda f: (f["printed_rows"], f["total_points"]))
+    return out
 
 
 def search_by_term_error(problem: Problem, progress: Callable[[str], None] | None = None) -> Candidate:
@@ -612,6 +663,14 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
     for total in range(total_min, total_max + 1):
         risk = float(logistic(np.array([offset + scale * total]))[0])
         conversion.append({"total": total, "risk": risk, "text": risk_text(risk)})
+    # the spread of model risk per total and per band, over every patient judged on (chosen on and held out)
+    model_lo, sheet_lo = problem.population.logodds, cand.sheet_logodds
+    if cand.confirm_logodds is not None:
+        model_lo = np.concatenate([model_lo, problem.confirm.logodds])
+        sheet_lo = np.concatenate([sheet_lo, cand.confirm_logodds])
+    patient_total = np.rint((sheet_lo - offset) / scale).astype(np.int64)
+    add_spread(conversion, patient_total, logistic(model_lo))
+    bands = band_spread(bands, conversion, patient_total, logistic(model_lo))
     say_bound = problem.bound
     held_out = cand.confirm_logodds is not None
     # the figures printed and reported are the held-out ones when there is a held-out part
@@ -626,6 +685,7 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
         "total_points_range": total_max - total_min,
         "readability": _readability(problem, cand),
         "total_points_tradeoff": _tradeoff(problem),
+        "frontier": problem.frontier or frontier(problem),
         "search": problem.tried,
     }
     if held_out:
@@ -658,6 +718,41 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
     if model.invented_data:  # the sheet inherits the mark: every page printed from it says so
         doc["invented_data"] = True
     return doc
+
+
+SPREAD_MIN_PATIENTS = 10  # fewer patients at a total: no spread is given for it
+SPREAD_PERCENTILES = (10, 90)
+
+
+def add_spread(conversion: list[dict], total: np.ndarray, model_risk: np.ndarray) -> None:
+    """For each total: how many patients have it and the 10th-90th percentile of their exact model risk
+    (numpy percentiles; none below SPREAD_MIN_PATIENTS patients). Arrays in: per-patient totals and risks."""
+    order = np.argsort(total, kind="stable")
+    total, model_risk = total[order], model_risk[order]
+    for row in conversion:
+        lo, hi = np.searchsorted(total, row["total"], side="left"), np.searchsorted(total, row["total"], side="right")
+        n = int(hi - lo)
+        low = high = None
+        if n >= SPREAD_MIN_PATIENTS:
+            low, high = (float(v) for v in np.percentile(model_risk[lo:hi], SPREAD_PERCENTILES))
+        row["spread"] = {"patients": n, "low": low, "high": high}
+
+
+def band_spread(bands: list[dict], conversion: list[dict], total: np.ndarray, model_risk: np.ndarray) -> list[dict]:
+    """Each band with how many in 100 of the patients the sheet puts in it the exact model puts in another band."""
+    if not bands:
+        return bands
+    uppers = np.array([b["upper_risk"] if b["upper_risk"] is not None else np.inf for b in bands])
+    risk_at = {c["total"]: c["risk"] for c in conversion}
+    sheet_band = np.searchsorted(uppers, np.array([risk_at[int(t)] for t in total]), side="right")
+    model_band = np.searchsorted(uppers, model_risk, side="right")
+    out = []
+    for b, band in enumerate(bands):
+        inside = sheet_band == b
+        n = int(inside.sum())
+        other = int(round(100 * float(np.mean(model_band[inside] != b)))) if n else None
+        out.append({**band, "patients": n, "other_band_per_100": other})
+    return out
 
 
 def printed_rows(terms: list[dict]) -> int:

@@ -156,8 +156,10 @@ def bands_block(sheet: dict, styles: Styles, width: float) -> list[Flowable]:
         return [KeepTogether([title, Spacer(1, 3), note]), Spacer(1, styles.body_pt)]
     members = row_bands(sheet)
     s = styles
-    data = [[Paragraph("<b>Band</b>", s.body), Paragraph("<b>Totals</b>", s.body), Paragraph("<b>Risk</b>", s.body),
-             Paragraph("<b>What to do (your unit's protocol)</b>", s.body)]]
+    spread = any(b.get("other_band_per_100") is not None for b in bands)
+    data = [[Paragraph("<b>Band</b>", s.body), Paragraph("<b>Totals</b>", s.body), Paragraph("<b>Risk</b>", s.body)]
+            + ([Paragraph("<b>Exact model: other band</b>", s.body)] if spread else [])
+            + [Paragraph("<b>What to do (your unit's protocol)</b>", s.body)]]
     commands = [
         ("VALIGN", (0, 0), (-1, -1), "TOP"),
         ("LEFTPADDING", (0, 0), (-1, -1), PAD), ("RIGHTPADDING", (0, 0), (-1, -1), PAD),
@@ -173,20 +175,25 @@ def bands_block(sheet: dict, styles: Styles, width: float) -> list[Flowable]:
             risks = f"{rows[0]['text']} to {rows[-1]['text']}" if len(rows) > 1 else rows[0]["text"]
         else:
             totals, risks = "no total reaches this band", ""
-        plain.append((band["name"], totals, risks))
+        # how many in 100 patients the sheet puts in this band the exact model puts in another one
+        other = "" if band.get("other_band_per_100") is None else f"{band['other_band_per_100']} in 100"
+        plain.append((band["name"], totals, risks, other))
         data.append([Paragraph(f"<b>{markup(band['name'])}</b>", s.body), Paragraph(markup(totals), s.body),
-                     Paragraph(markup(risks), s.body), Paragraph(markup(band["wording"]), s.body)])
+                     Paragraph(markup(risks), s.body)] + ([Paragraph(markup(other), s.body)] if spread else [])
+                    + [Paragraph(markup(band["wording"]), s.body)])
         commands.append(("BACKGROUND", (0, b + 1), (-1, b + 1), band_tint(b, len(bands))))
     def col_w(column: int, header: str) -> float:
         texts = [entry[column] for entry in plain]
         return max([text_width(header, s.body_pt, bold=True)] + [text_width(t, s.body_pt, bold=column == 0) for t in texts]) + 2 * PAD + 5
 
     name_w, totals_w, risk_w = col_w(0, "Band"), col_w(1, "Totals"), col_w(2, "Risk")
-    rest = width - name_w - totals_w - risk_w
+    other_w = col_w(3, "Exact model:") if spread else 0.0
+    rest = width - name_w - totals_w - risk_w - other_w
     if rest < width * 0.3:  # narrow column (pocket card): let the figures wrap instead of the wording
         name_w, totals_w, risk_w = width * 0.2, width * 0.17, width * 0.23
-        rest = width - name_w - totals_w - risk_w
-    table = Table(data, colWidths=[name_w, totals_w, risk_w, rest], hAlign="LEFT")
+        other_w = width * 0.14 if spread else 0.0
+        rest = width - name_w - totals_w - risk_w - other_w
+    table = Table(data, colWidths=[name_w, totals_w, risk_w] + ([other_w] if spread else []) + [rest], hAlign="LEFT")
     table.setStyle(TableStyle(commands))
     table.tracked_as = "the risk bands"
     return [KeepTogether([title, Spacer(1, 3), table]), Spacer(1, styles.body_pt)]

@@ -33,7 +33,11 @@ from scorecard.model import model_from_dict  # noqa: E402
 from scorecard.quantize import Bound  # noqa: E402
 from scorecard.quantize.accuracy import quick_figures  # noqa: E402
 from scorecard.quantize.framingham import framingham_span, framingham_table  # noqa: E402
-from scorecard.quantize.quantizer import _attempt, build_sheet, prepare, search  # noqa: E402
+from scorecard.quantize.quantizer import _attempt, build_sheet, design_of, prepare, search, search_by_term_error  # noqa: E402
+from scorecard.quantize.backfit import Backfit, smallest_plans  # noqa: E402
+from scorecard.quantize.curves import build_curves  # noqa: E402
+from scorecard.quantize.population import evaluation_population  # noqa: E402
+from scorecard.quantize.quantizer import _points_for_total  # noqa: E402
 
 
 # -- models ------------------------------------------------------------------------------------------
@@ -185,13 +189,75 @@ def compare(label: str, model, data, bound: Bound) -> dict:
     return {"ours_rows": ours_rows}
 
 
+DEMO_BANDS = [{"name": "low", "upper_risk": 0.10, "wording": "-"}, {"name": "moderate", "upper_risk": 0.25, "wording": "-"},
+              {"name": "high", "upper_risk": None, "wording": "-"}]
+
+
+def frontier(model, choose, audit, max_rows: int, max_points: int, every: int = 6) -> None:
+    """The per-patient allocation path (backfit) at these limits: for every `every`-th sheet on the path, its
+    printed rows and, after rounding to at most `max_points`, band agreement / p95 / largest / mean |Δrisk|
+    on the choosing cohort and on a separate audit cohort (the patients the sheet never saw)."""
+    problem = prepare(model, choose, Bound(max_rows=max_rows, max_total_points=max_points), bands=DEMO_BANDS)
+    fit = Backfit(problem.curves, problem.population.logodds, problem.weight, max_rows, 1.0)
+    steps = fit.path(smallest_plans(problem.curves, problem.weight, 1.0, max_rows))
+    audit_pop = evaluation_population(model, audit)
+    audit_curves = build_curves(model, audit_pop.frame, 60)
+    print(f"\n-- frontier: at most {max_rows} rows per term, {max_points} points (audit cohort {audit_pop.size}) --")
+    print("rows | choosing cohort: band  p95  largest  mean | audit cohort: band  p95  largest  mean  ΔAUC")
+    for k, step in enumerate(steps):
+        if k % every and k != len(steps) - 1:
+            continue
+        design = design_of(problem, step.plans, step.printed)
+        found = _points_for_total(design.q, design.values, design.term_of_row, design.span, max_points, False)
+        if found is None:
+            continue
+        scale, (pts, offset) = found
+        ids = np.stack([design.starts[t] + p.row_of_piece[c.patient_piece] for t, (c, p) in enumerate(zip(audit_curves, step.plans))], axis=1)
+        f_in = quick_figures(problem.population.logodds, offset + scale * pts[design.ids].sum(axis=1), 0.1, None, DEMO_BANDS)
+        f_au = quick_figures(audit_pop.logodds, offset + scale * pts[ids].sum(axis=1), 0.1, None, DEMO_BANDS)
+        print(f"{step.printed:4d} | {f_in['band_agreement']:.3f} {f_in['p95_abs_risk_error'] * 100:5.1f} {f_in['max_abs_risk_error'] * 100:6.1f} "
+              f"{f_in['mean_abs_risk_error'] * 100:5.2f} | {f_au['band_agreement']:.3f} {f_au['p95_abs_risk_error'] * 100:5.1f} "
+              f"{f_au['max_abs_risk_error'] * 100:6.1f} {f_au['mean_abs_risk_error'] * 100:5.2f} {f_au['auc_loss']:.4f}")
+
+
+def old_and_new(label: str, model, data, bound: Bound) -> None:
+    """Today's search (per-patient path) and the earlier one (each term's own error) in the same run."""
+    print(f"\n== {label}: per-patient search against the earlier search ==")
+    for name, run in (("per-patient (backfit)", search), ("earlier (term error)", search_by_term_error)):
+        t0 = time.perf_counter()
+        problem = prepare(model, data, bound, hold_out=True)
+        try:
+            cand = run(problem)
+        except CheckFailed as exc:
+            print(f"{name}: {exc}")
+            continue
+        doc = build_sheet(problem, cand, [], bootstrap=0)
+        a = doc["achieved"]
+        print(f"{name}: {doc['report']['printed_rows']} rows, totals 0-{doc['total']['max'] - doc['total']['min']}, held out: "
+              f"ΔAUC {a['auc_loss']:.4f}, p95 {a['p95_abs_risk_error'] * 100:.1f} pp, largest {a['max_abs_risk_error'] * 100:.1f} pp, "
+              f"mean {a['mean_abs_risk_error'] * 100:.2f} pp ({time.perf_counter() - t0:.1f} s)")
+
+
 def main() -> None:
+    if len(sys.argv) > 2 and sys.argv[1] == "--demo-folder":
+        # the frontier on a demo run's own files: python tests/benchmarks/bench_quantize.py --demo-folder /tmp/qd
+        from scorecard.model import load_model
+        from scorecard.tabular import read_csv
+
+        folder = Path(sys.argv[2])
+        model, choose, audit = load_model(folder / "edited.model.json"), read_csv(folder / "cohort.csv"), read_csv(folder / "audit-cohort.csv")
+        for rows, points in ((8, 40), (10, 60), (10, 100)):
+            frontier(model, choose, audit, rows, points)
+        return
+
     bound = Bound()
     print(f"default bound: ΔAUC <= {bound.max_auc_loss}, <= {bound.risk_error_share:.0%} of patients over "
           f"{bound.max_risk_error * 100:g} pp, <= {bound.max_rows} rows per factor, <= {bound.max_total_points} points")
     compare("demo true model (its own bin counts)", true_model(), None, bound)
     model, data = breast_cancer_model()
     compare("breast cancer spline model (569 patients)", model, data, bound)
+    old_and_new("demo true model", true_model(), None, bound)
+    old_and_new("breast cancer spline model", model, data, bound)
 
     print("\n== speed: 40 terms x 256 bins ==")
     big = large_model()

@@ -98,6 +98,31 @@ def _held_out_figures_match_outside_references(doc, cohort):
     assert a["p95_abs_risk_error"] == pytest.approx(np.percentile(err, 95), abs=1e-9)
     assert a["max_abs_risk_error"] == pytest.approx(err.max(), abs=1e-9)
     assert a["mean_abs_risk_error"] == pytest.approx(err.mean(), abs=1e-9)
+    _spread_matches_numpy_percentiles(doc, cohort, model)
+
+
+def _spread_matches_numpy_percentiles(doc, cohort, model):
+    """The spread stored per total (what the sheet prints beside each band) equals numpy's 10th and 90th
+    percentiles of predict's model risk among the cohort's patients with that total."""
+    from quantize_models import sheet_total
+    from scorecard.model import predict_logodds
+
+    frame = cohort.astype(object).where(cohort.notna(), None)
+    lo, _ = predict_logodds(model, frame)
+    p = 1 / (1 + np.exp(-lo))
+    totals = np.array([sheet_total(doc, {k: (np.nan if v is None else float(v) if k != "residence" else v) for k, v in row.items()})
+                       for row in frame.to_dict("records")])
+    checked = 0
+    for c in doc["conversion"]:
+        sel = totals == c["total"]
+        assert c["spread"]["patients"] == int(sel.sum())
+        if sel.sum() >= 10:
+            low, high = np.percentile(p[sel], [10, 90])
+            assert c["spread"]["low"] == pytest.approx(low, abs=1e-12) and c["spread"]["high"] == pytest.approx(high, abs=1e-12)
+            checked += 1
+        else:
+            assert c["spread"]["low"] is None
+    assert checked >= 5
 
 
 def test_infeasible_bound_exits_3_with_best_figures(model_file, tmp_path):
@@ -136,3 +161,25 @@ def test_bad_files_exit_2(model_file, tmp_path):
     res = run(model_file, "--data", csv, "-o", tmp_path / "s.json")
     assert res.exit_code == 2 and "albumin" in res.output
 
+
+
+def test_frontier_is_printed_stored_and_plotted(model_file, tmp_path):
+    out, png = tmp_path / "s.sheet.json", tmp_path / "frontier.png"
+    res = run(model_file, *FAST, "--frontier-plot", png, "-o", out)
+    assert res.exit_code == 0, res.output
+    rows = load_sheet(out)["report"]["frontier"]
+    assert rows and all({"printed_rows", "total_points", "p95_abs_risk_error", "max_abs_risk_error", "meets_bound"} <= set(r) for r in rows)
+    assert "alternative sheets" in res.output and png.read_bytes()[:8] == b"\x89PNG\r\n\x1a\n"
+    assert any(r["meets_bound"] for r in rows)  # the chosen sheet's limits are among them
+
+
+def test_exit_3_names_the_nearest_passing_sheet_and_writes_it_on_request(model_file, tmp_path):
+    out, near = tmp_path / "s.sheet.json", tmp_path / "near.sheet.json"
+    args = ["--bootstrap", "0", "--max-rows", "6", "--max-total-points", "12", "--max-auc-loss", "0.02",
+            "--risk-error-share", "0.2", "--max-percentile-risk-error", "0.10"]
+    plain = run(model_file, *args, "-o", out)
+    assert plain.exit_code == 3 and "the nearest sheet that meets it" in plain.output and not near.exists()
+    asked = run(model_file, *args, "--write-nearest", near, "-o", out)
+    assert asked.exit_code == 3 and not out.exists()
+    doc = load_sheet(near)
+    assert doc["total"]["max"] - doc["total"]["min"] > 12 and doc["achieved"]["p95_abs_risk_error"] <= 0.10
