@@ -18,7 +18,7 @@ from scorecard.errors import UserError
 from scorecard.render.conversion import bands_block, conversion_curve_block, conversion_table_block
 from scorecard.invented import band_height, draw_band, is_invented
 from scorecard.render.fonts import BOLD, REGULAR, text_width
-from scorecard.render.layout import Layout
+from scorecard.render.layout import PageLayout
 from scorecard.render.nomogram import nomogram_block
 from scorecard.render.styles import Styles, styles_for
 from scorecard.render.tables import (
@@ -84,7 +84,7 @@ def training_range_texts(sheet: dict) -> list[str]:
 class _Furniture:
     """Header and footer drawn on every page, sized once per layout."""
 
-    def __init__(self, sheet: dict, layout: Layout, styles: Styles, short_fingerprint: str):
+    def __init__(self, sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: str):
         self.layout, self.styles = layout, styles
         width, height = layout.page_size
         m = layout.margins
@@ -200,7 +200,7 @@ def _canvas_class(furniture: _Furniture):
     return NumberedCanvas
 
 
-def _story(sheet: dict, layout: Layout, styles: Styles, short_fingerprint: str, furniture: _Furniture,
+def _story(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: str, furniture: _Furniture,
            blank_before: set[int]) -> list[Flowable]:
     signed = sheet_has_negative_points(sheet)
     gap = styles.body_pt * 1.2
@@ -242,7 +242,7 @@ def _story(sheet: dict, layout: Layout, styles: Styles, short_fingerprint: str, 
     return story
 
 
-def _build(sheet: dict, layout: Layout, styles: Styles, short_fingerprint: str, blank_before: set[int]) -> tuple[bytes, _Placement]:
+def _build(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: str, blank_before: set[int]) -> tuple[bytes, _Placement]:
     furniture = _Furniture(sheet, layout, styles, short_fingerprint)
     placement = _Placement()
     buffer = io.BytesIO()
@@ -273,7 +273,7 @@ def _build(sheet: dict, layout: Layout, styles: Styles, short_fingerprint: str, 
     return buffer.getvalue(), placement
 
 
-def render_pdf(sheet: dict, layout: Layout, short_fingerprint: str) -> bytes:
+def render_pdf(sheet: dict, layout: PageLayout, short_fingerprint: str) -> bytes:
     """The PDF of `sheet` laid out by `layout` (same inputs, same bytes).
 
     UserError when the layout's page limits cannot hold the sheet, naming what does not fit.
@@ -290,7 +290,7 @@ def render_pdf(sheet: dict, layout: Layout, short_fingerprint: str) -> bytes:
     return data
 
 
-def _render_sides(sheet: dict, layout: Layout, styles: Styles, short_fingerprint: str) -> tuple[bytes, _Placement]:
+def _render_sides(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: str) -> tuple[bytes, _Placement]:
     blank_before: set[int] = set()
     for _ in range(len(layout.sections) + 1):
         data, placement = _build(sheet, layout, styles, short_fingerprint, blank_before)
@@ -306,7 +306,7 @@ def _render_sides(sheet: dict, layout: Layout, styles: Styles, short_fingerprint
     return data, placement
 
 
-def _cautions_moved_on(layout: Layout, placement: _Placement) -> Layout | None:
+def _cautions_moved_on(layout: PageLayout, placement: _Placement) -> PageLayout | None:
     """When the cautions box is the only block on its page and a later section follows, the layout with the box
     moved into that section (before its curve, or first); None when the box shares its page or cannot move.
     A page holding the cautions alone is easily skipped, and wastes paper."""
@@ -329,7 +329,7 @@ def _cautions_moved_on(layout: Layout, placement: _Placement) -> Layout | None:
     return replace(layout, sections=tuple(sections))
 
 
-def _check_limits(layout: Layout, placement: _Placement) -> None:
+def _check_limits(layout: PageLayout, placement: _Placement) -> None:
     starts = [placement.section_pages.get(i, 0) for i in range(len(layout.sections))]
     ends = starts[1:] + [placement.pages + 1]
     for i, section in enumerate(layout.sections):
