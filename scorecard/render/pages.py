@@ -30,7 +30,7 @@ from scorecard.render.tables import (
     total_block,
 )
 from scorecard.render.text import markup, sheet_has_negative_points
-from scorecard.sheet.printed import number_text, units
+from scorecard.sheet.printed import MEASURE_FIRST_RULE, number_text, units
 
 
 class _SectionStart(Flowable):
@@ -222,7 +222,8 @@ def _story(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: s
                 story.append(instructions_block(sheet, styles, layout.compact))
             elif part == "terms" and "instructions" not in section.parts:
                 story.append(Paragraph(markup(sheet["rounding_rule"]) + " Write the points of the patient's row in "
-                                       "the box beside each table's heading.", styles.body))
+                                       "the box beside each table's heading. " + markup(MEASURE_FIRST_RULE),
+                                       styles.body))
                 story.append(Spacer(1, styles.body_pt * 0.5))
                 story += [term_block(term, styles, signed, width) for term in sheet["terms"]]
             elif part == "terms":
