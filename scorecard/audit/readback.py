@@ -316,11 +316,12 @@ class _Checker:
                 self.mismatches.append(Mismatch(None, "text", name, "(not found)", text))
 
     # -- fingerprint ----------------------------------------------------------------------------------
-    def fingerprints(self, short: str) -> None:
+    def fingerprints(self, short: str, lineage: str | None = None) -> None:
+        """`lineage`: the short fingerprint a recalibrated sheet names as its origin (printed, and allowed)."""
         for page in self.pages:
             found = set(HEX12.findall(page.text))
             self.cells += 1
-            others = sorted(found - {short})
+            others = sorted(found - {short, lineage})
             if others:
                 self.mismatches.append(Mismatch(page.number, "fingerprint", "another sheet version", ", ".join(others), short))
             elif short not in found:
@@ -357,7 +358,8 @@ def verify_pages(sheet: dict, pages: list[PrintedPage], source: str = "PDF") -> 
         raise UserError(f"{source}: does not look like a printed points sheet (no points table and no conversion table found); "
                         "give the PDF written by `scorecard render`")
     check = _Checker(sheet, pages)
-    check.fingerprints(short)
+    lineage = sheet.get("recalibration")
+    check.fingerprints(short, lineage["original_fingerprint"][:12] if lineage else None)
     for term in sheet["terms"]:
         if term["kind"] == "pair":
             check.pair_term(term)

@@ -99,6 +99,10 @@ class _Furniture:
             f"<b>Outcome:</b> {markup(outcome['event'])} \u00b7 <b>Horizon:</b> {markup(outcome['horizon'])} \u00b7 "
             f"<b>For:</b> {markup(outcome['population'])}{when}", styles.small)
         self.ident = f"Fingerprint {short_fingerprint} \u00b7 model {model['name']} version {model['version']}"
+        lineage = sheet.get("recalibration")
+        if lineage:  # scorecard recalibrate: the version this one was recalibrated from, and on what
+            self.ident += (f" \u00b7 recalibrated from {lineage['original_fingerprint'][:12]} on {lineage['n']:,} patients "
+                           f"of {lineage['data']['file']}")
         self.printed_label = "Printed on:"
         self.cautions = Paragraph(markup(cautions_line(sheet, short_fingerprint)), styles.small)
         s = styles.min_pt
