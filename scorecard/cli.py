@@ -13,7 +13,8 @@ from scorecard import __version__
 from scorecard.errors import CheckFailed, UserError
 
 # the order a newcomer meets the verbs in `scorecard --help`: along the pipeline
-PIPELINE_ORDER = ["demo", "fit", "import", "predict", "review", "edit", "explain", "quantize", "render", "score", "check", "verify"]
+PIPELINE_ORDER = ["demo", "fit", "import", "predict", "review", "edit", "explain", "quantize", "render", "score", "check", "verify",
+                  "compare"]
 
 
 class PipelineGroup(click.Group):

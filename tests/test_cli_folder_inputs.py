@@ -27,7 +27,7 @@ CASES = [
     ("check", "{d}", "--model", "{d}", "--data", "{f}", "-o", "{o}/x.pdf"),
     ("fit", "{d}", "--outcome", "y", "-o", "{o}/x.json"),
     ("review", "{d}", "-o", "{o}/x.pdf"),
-    ("edit", "{d}", "--zero", "age", "-o", "{o}/x.json"),
+    ("edit", "{d}", "--remove-effect", "age", "-o", "{o}/x.json"),
     ("explain", "{d}", "--row", "1", "--data", "{f}"),
     ("quantize", "{d}", "-o", "{o}/x.json"),
     ("render", "{d}", "-o", "{o}/x.pdf"),

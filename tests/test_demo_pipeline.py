@@ -21,10 +21,10 @@ def test_demo_runs_the_whole_pipeline_and_its_audit_passes(tmp_path):
     # the review caught the care-process trap, and the edit recorded why it was removed
     assert "protective_care_marker" in result.output
     edits = json.loads((out / "edited.model.json").read_text())["provenance"]["edits"]
-    assert [e["action"] for e in edits].count("zero") == 1
+    assert [e["action"] for e in edits].count("remove_effect") == 1
     # the sheet left the care-process flag off, and verify read every printed cell back
     sheet = load_sheet(out / "sheet.json")
     assert "geriatric_review" not in {t["name"] for t in sheet["terms"]}
     assert "all match" in result.output
     report = json.loads((out / "check-report.json").read_text())
-    assert report and "all checks pass" in result.output
+    assert report and "every bound set on this sheet passes" in result.output and "not bounded" in result.output

@@ -10,7 +10,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from scorecard.audit import figures
+from scorecard.audit import statistics
 from scorecard.audit.paper import ScoredCohort, band_index, parse_cohort, score_cohort, sheet_logodds
 from scorecard.errors import UserError
 from scorecard.model import AdditiveModel, contributions, logistic
@@ -65,14 +65,58 @@ def outcome_values(frame: pd.DataFrame, column: str | None) -> np.ndarray | None
     return flag_column(frame, column)
 
 
-def _risk_errors(diff: np.ndarray, limit: float) -> dict:
+def _risk_errors(diff: np.ndarray, limit: float, percentile: float) -> dict:
     a = np.abs(diff)
     return {
         "max_abs_risk_error": float(a.max()),
         "p99_abs_risk_error": float(np.percentile(a, 99)),
+        "p95_abs_risk_error": float(np.percentile(a, 95)),
+        "risk_error_percentile": float(percentile),
+        "percentile_abs_risk_error": float(np.percentile(a, percentile)),
         "mean_abs_risk_error": float(a.mean()),
         "share_over_risk_error": float((a > limit + _SLACK).mean()),
     }
+
+
+def per_patient_bounds(bound: dict, agreement: dict, certificate: dict) -> tuple[list[dict], list[dict]]:
+    """The per-patient bounds of a sheet judged on figures computed from per-patient arrays: (judged, not
+    bounded). Each judged entry is PASS/FAIL against the sheet's own bound; a figure no bound covers is
+    listed as not bounded and is never counted as a pass. Band agreement leads, then the percentile and the
+    largest |Δrisk|, then the certificate's worst case (docs/audit.md)."""
+    pp = lambda v: f"{v * 100:.2f} percentage points"  # noqa: E731
+    judged, free = [], []
+
+    def add(name: str, what: str, value, limit, at_least: bool, shown: str, limit_shown: str) -> None:
+        if value is None:
+            return
+        if limit is None:
+            free.append({"name": name, "what": what, "value": value, "shown": shown})
+            return
+        ok = value >= limit - _SLACK if at_least else value <= limit + _SLACK
+        judged.append(_bound(name, what, value, limit, ok, f"{shown} vs {'at least ' if at_least else ''}{limit_shown}"))
+
+    share = agreement.get("band_agreement")
+    add("band_agreement", "share of patients in the same risk band on the sheet as by the exact model", share,
+        bound.get("min_band_agreement"), True, "–" if share is None else f"{share:.2%}",
+        "" if bound.get("min_band_agreement") is None else f"{bound['min_band_agreement']:.2%}")
+    q = agreement["risk_error_percentile"]
+    limit = bound.get("max_percentile_risk_error")
+    add("percentile_risk_error", f"{q:g}th percentile of |risk difference|", agreement["percentile_abs_risk_error"], limit, False,
+        pp(agreement["percentile_abs_risk_error"]), "" if limit is None else pp(limit))
+    limit = bound.get("max_largest_risk_error")
+    add("largest_risk_error", "largest |risk difference| of any patient", agreement["max_abs_risk_error"], limit, False,
+        pp(agreement["max_abs_risk_error"]), "" if limit is None else pp(limit))
+    if q != 99:
+        free.append({"name": "p99_risk_error", "what": "99th percentile of |risk difference|", "value": agreement["p99_abs_risk_error"],
+                     "shown": pp(agreement["p99_abs_risk_error"])})
+    free.append({"name": "mean_risk_error", "what": "mean |risk difference|", "value": agreement["mean_abs_risk_error"],
+                 "shown": pp(agreement["mean_abs_risk_error"])})
+    limit = bound.get("max_certificate_risk_error")
+    add("certificate_size", "the certificate's worst case: largest risk error any combination of inputs can give, at any total",
+        float(certificate["max_risk_error"]), limit, False,
+        f"{pp(float(certificate['max_risk_error']))} ({float(certificate['max_logodds_error']):.2f} log-odds)",
+        "" if limit is None else pp(limit))
+    return judged, free
 
 
 def _band_matrix(sheet: dict, model_risk: np.ndarray, scored: ScoredCohort) -> dict | None:
@@ -131,15 +175,15 @@ def _against_outcomes(y: np.ndarray, model_lo: np.ndarray, model_risk: np.ndarra
     yk = y[known]
     out: dict = {"n": int(known.sum()), "not_known": int((~known).sum()), "event_rate": float(yk.mean())}
     for who, lo, risk in (("model", model_lo[known], model_risk[known]), ("sheet", sheet_lo[known], scored.risk[known])):
-        g, ng = figures.tie_groups(lo)
-        a, b = figures.logistic_calibration(*figures.grouped(lo, yk))
+        g, ng = statistics.tie_groups(lo)
+        a, b = statistics.logistic_calibration(*statistics.grouped(lo, yk))
         out[who] = {
-            "auc": figures.weighted_auc(g, ng, yk, 1 - yk),
+            "auc": statistics.weighted_auc(g, ng, yk, 1 - yk),
             "calibration_intercept": a,
             "calibration_slope": b,
-            "brier": figures.brier(risk, yk),
+            "brier": statistics.brier(risk, yk),
             "mean_risk": float(np.mean(risk)),
-            "calibration_table": figures.calibration_table(risk, yk),
+            "calibration_table": statistics.calibration_table(risk, yk),
         }
     out["auc_loss"] = out["model"]["auc"] - out["sheet"]["auc"]
     return out
@@ -169,14 +213,14 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
     has_outcomes = y is not None and (~np.isnan(y)).any()
     w_pos, w_neg = model_risk, 1 - model_risk
     basis = "outcomes expected from the model's risk"
-    gm, ngm = figures.tie_groups(model_lo)
+    gm, ngm = statistics.tie_groups(model_lo)
     gs = scored.total - scored.total.min()
     ngs = int(gs.max()) + 1
-    auc_model = figures.weighted_auc(gm, ngm, w_pos, w_neg)
-    auc_sheet = figures.weighted_auc(gs, ngs, w_pos, w_neg)
+    auc_model = statistics.weighted_auc(gm, ngm, w_pos, w_neg)
+    auc_sheet = statistics.weighted_auc(gs, ngs, w_pos, w_neg)
     say(f"bootstrap interval of the AUC loss ({replicates} resamples)")
-    ci = figures.bootstrap_auc_difference(gm, ngm, gs, ngs, w_pos, w_neg, replicates=replicates, seed=seed)
-    cal_a, cal_b = figures.logistic_calibration(*figures.grouped(sheet_lo, model_risk))
+    ci = statistics.bootstrap_auc_difference(gm, ngm, gs, ngs, w_pos, w_neg, replicates=replicates, seed=seed)
+    cal_a, cal_b = statistics.logistic_calibration(*statistics.grouped(sheet_lo, model_risk))
     agreement = {
         "auc_basis": basis,
         "auc_model": auc_model,
@@ -184,12 +228,12 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
         "auc_loss": auc_model - auc_sheet,
         "auc_loss_ci": list(ci),
         "bootstrap_replicates": replicates,
-        **_risk_errors(diff, float(bound["max_risk_error"])),
+        **_risk_errors(diff, float(bound["max_risk_error"]), float(bound.get("risk_error_percentile", 95))),
         "calibration_intercept": cal_a,
         "calibration_slope": cal_b,
         "brier_basis": basis,
-        "brier_model": figures.expected_brier(model_risk, model_risk),
-        "brier_sheet": figures.expected_brier(scored.risk, model_risk),
+        "brier_model": statistics.expected_brier(model_risk, model_risk),
+        "brier_sheet": statistics.expected_brier(scored.risk, model_risk),
     }
     bands = _band_matrix(sheet, model_risk, scored)
     agreement["band_agreement"] = None if bands is None else bands["agreement"]
@@ -209,7 +253,8 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
     most_rows = max((n for t in sheet["terms"] for n in _rows_per_block(t)), default=0)
     share = agreement["share_over_risk_error"]
     span = int(sheet["total"]["max"]) - int(sheet["total"]["min"])
-    checks = [
+    per_patient, not_bounded = per_patient_bounds(bound, agreement, cert)
+    checks = per_patient + [
         _bound("model", "the model is the one the sheet was built from (fingerprint)", model.fingerprint,
                sheet["model"]["fingerprint"], model_matches, "same fingerprint" if model_matches else "DIFFERENT model (overridden)"),
         _bound("conversion", "conversion risks equal logistic(offset + log-odds per point x total)", conversion_error,
@@ -220,10 +265,12 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
         _bound("risk_error_share", f"share of patients with |risk difference| > {bound['max_risk_error'] * 100:g} percentage points",
                share, bound["risk_error_share"], share <= bound["risk_error_share"] + _SLACK,
                f"{share:.2%} vs {bound['risk_error_share']:.2%}"),
-        _bound("certificate_logodds", "no patient inside the training ranges is further from the model than the certificate (log-odds)",
+        _bound("certificate_logodds", "the sheet keeps its own certificate: no patient inside the training ranges is further "
+               "from the model than it states (log-odds; a FAIL is a quantizer bug)",
                worst_inside, cert["max_logodds_error"], worst_inside <= float(cert["max_logodds_error"]) + _SLACK,
                f"worst {worst_inside:.4f} vs {float(cert['max_logodds_error']):.4f} ({int(inside.sum())} patients inside)"),
-        _bound("certificate_risk", "no patient inside the training ranges exceeds the certificate's risk error at their total",
+        _bound("certificate_risk", "the sheet keeps its own certificate: no patient inside the training ranges exceeds its "
+               "risk error at their total",
                int(over_chart.sum()), 0, not over_chart.any(), f"{int(over_chart.sum())} patients over"),
         _bound("rows", "printed rows per block at most the bound", most_rows, bound["max_rows"],
                most_rows <= bound["max_rows"], f"{most_rows} vs {bound['max_rows']}"),
@@ -237,23 +284,39 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
         "document": REPORT_TAG,
         "format_version": 1,
         "passed": all(c["pass"] for c in checks),
-        "sheet": {"title": sheet["title"], "fingerprint": sheet.get("fingerprint", ""), "short_fingerprint": short_fingerprint(sheet),
+        "sheet": {"invented_data": bool(sheet.get("invented_data")), "title": sheet["title"], "fingerprint": sheet.get("fingerprint", ""), "short_fingerprint": short_fingerprint(sheet),
                   "model_fingerprint": sheet["model"]["fingerprint"], "outcome": sheet["outcome"]},
         "model": {"name": model.name, "version": model.version, "fingerprint": model.fingerprint, "matches_sheet": model_matches},
         "cohort": {"source": source_of(frame), "n": int(len(frame)), "outcome_column": outcome,
                    "outside_training": int(scored.outside_training.sum())},
         "bounds": checks,
+        "not_bounded": not_bounded,
         "agreement": agreement,
         "band_matrix": bands,
         "against_outcomes": _against_outcomes(y, model_lo, model_risk, scored, sheet_lo) if has_outcomes else None,
         "certificate": {"max_logodds_error": float(cert["max_logodds_error"]), "worst_inside": worst_inside,
-                        "patients_inside": int(inside.sum()), "over_risk_chart": int(over_chart.sum())},
+                        "max_risk_error": float(cert["max_risk_error"]),
+                        "patients_inside": int(inside.sum()), "over_risk_chart": int(over_chart.sum()),
+                        "by_total": certificate_by_total(sheet)},
         "stored_achieved": sheet.get("achieved"),
         "histogram": {"unit": "percentage points (sheet risk - model risk)", "edges": edges.tolist(), "counts": counts.tolist()},
         "largest": _largest(sheet, model, scored, parts, model_risk, diff, TOP_PATIENTS),
         "warnings": list(scored.warnings),
         "notes": list(scored.notes) + [f"model: {line}" for line in model_report.lines()],
     })
+
+
+def certificate_by_total(sheet: dict) -> list[dict]:
+    """For every total: the conversion risk and the range the exact model's risk of a patient with that total
+    can lie in whatever the inputs, logistic(offset + scale x total -/+ the certificate's log-odds bound),
+    recomputed from the sheet's scale and certificate."""
+    scale, bound = sheet["scale"], float(sheet["certificate"]["max_logodds_error"])
+    out = []
+    for c in sheet["conversion"]:
+        z = float(scale["offset"]) + float(scale["logodds_per_point"]) * int(c["total"])
+        low, high = logistic(np.array([z - bound, z + bound]))
+        out.append({"total": int(c["total"]), "risk": float(c["risk"]), "model_risk_low": float(low), "model_risk_high": float(high)})
+    return out
 
 
 def _without_nan(value):

@@ -13,7 +13,9 @@ import pandas as pd
 
 from scorecard.commands._common import say
 from scorecard.demo import OUTCOME, cohort_csv_text, generate_cohort, true_model
-from scorecard.demo.true_model import FEATURE_INFO, OUTCOME_TEXT
+from scorecard.demo.population import RESIDENCE_LEVELS
+from scorecard.demo.true_model import COMPLETED_UNITS, FEATURE_INFO, OUTCOME_TEXT
+from scorecard.invented import MARK
 from scorecard.errors import UserError
 from scorecard.jsondoc import atomic_write_text
 from scorecard.model import save_model
@@ -63,7 +65,11 @@ CARE_PROCESS_REASON = (
     "must not lower anyone's points. Hours to surgery beyond 96 and more than 12 regular medicines rest on "
     "fewer than 30 patients each (review flags): held at their last well-supported value"
 )
-SPARSE_TAIL_CLIPS = ("hours_to_surgery=:96", "medicines=:12")
+SPARSE_TAILS_HELD_ABOVE = ("hours_to_surgery=96", "medicines=12")
+
+
+# levels in a clinical order (own home, with family, care home: rising dependence), not by name
+CLINICAL_ORDER = {"residence": RESIDENCE_LEVELS, "anaesthesia": ("spinal", "general")}
 
 
 def fit_model(ctx: click.Context, folder: Path, cohort: Path) -> Path:
@@ -77,6 +83,8 @@ def fit_model(ctx: click.Context, folder: Path, cohort: Path) -> Path:
         labels=tuple(f"{n}={label}" for n, label, *_ in FEATURE_INFO),
         units=tuple(f"{n}={unit}" for n, _, unit, *_ in FEATURE_INFO if unit),
         decimals=tuple(f"{n}={d}" for n, _, _, d, kind, *_ in FEATURE_INFO if kind == "continuous"),
+        score_at=OUTCOME_TEXT["score_at"], completed=COMPLETED_UNITS,
+        orders=tuple(f"{n}={','.join(levels)}" for n, levels in CLINICAL_ORDER.items()), invented=True,
         output=str(path),
     )
     return path
@@ -102,7 +110,7 @@ def edit_model(ctx: click.Context, folder: Path, declared: Path, cohort: Path) -
     from scorecard.commands.edit import command as edit
 
     edited = folder / "edited.model.json"
-    ctx.invoke(edit, model_path=str(declared), zeros=(CARE_PROCESS_FLAG,), clips=SPARSE_TAIL_CLIPS, reason=CARE_PROCESS_REASON,
+    ctx.invoke(edit, model_path=str(declared), removals=(CARE_PROCESS_FLAG,), holds_above=SPARSE_TAILS_HELD_ABOVE, reason=CARE_PROCESS_REASON,
                editor="scorecard demo", cohort_path=str(cohort), outcome=OUTCOME, output=str(edited))
     return edited
 
@@ -196,4 +204,5 @@ def command(ctx: click.Context, output: str, rows: int, seed: int, without_pair:
     sheet = make_sheet(ctx, folder, edited, cohort)
     pdf = print_sheet(ctx, folder, sheet, layout)
     audit_sheet(ctx, folder, sheet, pdf, edited, audit_cohort)
-    say(f"demo complete: print {pdf} (previews in {folder / 'sheet-previews'}); the audit report is {folder / 'check-report.pdf'}")
+    say(f"demo complete: {pdf} (previews in {folder / 'sheet-previews'}), audit report {folder / 'check-report.pdf'}. "
+        f"{MARK}: every page says so; practise with it, never score a patient with it")

@@ -16,14 +16,14 @@ from scorecard.model import load_model, save_model
 from scorecard.review.cost import cost_lines, edit_cost, observed_outcome
 from scorecard.review.edits import (
     DIRECTIONS,
-    clip_term,
     declare,
-    merge_levels,
-    monotone_term,
-    parse_clip,
+    force_direction,
+    hold_beyond,
     parse_declaration,
-    parse_merge,
-    zero_term,
+    parse_hold,
+    parse_pool,
+    pool_levels,
+    remove_effect,
 )
 from scorecard.tabular import read_csv
 
@@ -48,11 +48,35 @@ def _default_editor() -> str:
         return "unknown"
 
 
-def _parse_monotone(text: str) -> tuple[str, str]:
+def _parse_direction(text: str) -> tuple[str, str]:
     name, eq, direction = text.partition("=")
     if not eq or not name.strip() or direction.strip() not in DIRECTIONS:
-        raise UserError(f"--monotone {text}: write TERM=increasing or TERM=decreasing, e.g. --monotone age=increasing")
+        raise UserError(f"--force-direction {text}: write TERM=increasing or TERM=decreasing, e.g. --force-direction age=increasing")
     return name.strip(), direction.strip()
+
+
+# the option names of earlier releases, answered with the new name instead of click's bare "no such option"
+RENAMED = {
+    "--zero": "--remove-effect TERM",
+    "--monotone": "--force-direction TERM=increasing|decreasing",
+    "--clip": "--hold-above TERM=VALUE and/or --hold-below TERM=VALUE",
+    "--merge": "--pool-levels TERM=A,B[,...]",
+}
+
+
+class EditCommand(click.Command):
+    """`edit` with a did-you-mean for its renamed options."""
+
+    def parse_args(self, ctx: click.Context, args: list[str]) -> list[str]:
+        try:
+            return super().parse_args(ctx, args)
+        except click.NoSuchOption as exc:
+            new = RENAMED.get(exc.option_name)
+            if new is None:
+                raise
+            raise click.UsageError(f"no such option {exc.option_name}; did you mean {new}? (the edit options are "
+                                   "--declare, --pool-levels, --hold-below, --hold-above, --force-direction, "
+                                   "--remove-effect)", ctx) from None
 
 
 def _outcome_column(model, given: str | None) -> str | None:
@@ -66,22 +90,25 @@ def _outcome_column(model, given: str | None) -> str | None:
     return None
 
 
-@click.command()
+@click.command(cls=EditCommand)
 @click.argument("model_path", metavar="MODEL.json", type=click.Path())
 @click.option("--declare", "declarations", multiple=True, metavar="FEATURE=VALUE",
               help="Declare what a feature is: increasing / decreasing (risk should only rise / fall with it), "
                    "unordered (clear the direction), care_process (a treatment or care-process marker whose "
                    "apparent effect must not drive care) or measurement. Read by `scorecard review`. Repeatable.")
-@click.option("--merge", "merges", multiple=True, metavar="TERM=A,B[,...]",
-              help="Give these levels of a categorical term their patient-weighted mean score. Repeatable.")
-@click.option("--clip", "clips", multiple=True, metavar="TERM=LO:HI",
-              help="Freeze a continuous shape beyond [LO, HI]: values below LO score as LO, above HI as HI. "
-                   "Either bound may be empty (TERM=:HI). Bounds must lie in the training range. Repeatable.")
-@click.option("--monotone", "monotones", multiple=True, metavar="TERM=increasing|decreasing",
-              help="Replace a continuous or flag shape by its closest monotone shape (weighted isotonic regression, "
-                   "weights = patients per bin) and declare the direction. Repeatable.")
-@click.option("--zero", "zeros", multiple=True, metavar="TERM",
-              help="Set a term's scores to 0; the other terms keep their fitted scores. Repeatable.")
+@click.option("--pool-levels", "pools", multiple=True, metavar="TERM=A,B[,...]",
+              help="Pool these levels of a categorical term: they share their patient-weighted mean score. Repeatable.")
+@click.option("--hold-below", "holds_below", multiple=True, metavar="TERM=VALUE",
+              help="Below VALUE the term keeps the score it has at VALUE (e.g. sodium=125: a sodium of 118 scores "
+                   "as 125 does). VALUE must lie in the training range. Repeatable.")
+@click.option("--hold-above", "holds_above", multiple=True, metavar="TERM=VALUE",
+              help="Above VALUE the term keeps the score it has at VALUE (e.g. medicines=12). VALUE must lie in "
+                   "the training range. Repeatable.")
+@click.option("--force-direction", "directions", multiple=True, metavar="TERM=increasing|decreasing",
+              help="Make risk only rise (or only fall) with a measurement or flag: its closest such shape "
+                   "(weighted isotonic regression, weights = patients per bin); also declares the direction. Repeatable.")
+@click.option("--remove-effect", "removals", multiple=True, metavar="TERM",
+              help="Remove a term's effect: its scores become 0; the other terms keep their fitted scores. Repeatable.")
 @click.option("--reason", default="", help="Why (free text), stored with every edit of this run.")
 @click.option("--by", "editor", default=None, help="Who made the edit (default: the login name).")
 @click.option("--data", "cohort_path", metavar="COHORT.csv", type=click.Path(),
@@ -90,12 +117,12 @@ def _outcome_column(model, given: str | None) -> str | None:
               help="Outcome column (0/1) in --data. Default: the column the fitter recorded, if any. Without an "
                    "outcome the cost is measured against the unedited model's own risks.")
 @click.option("-o", "--output", "output", required=True, type=click.Path(), help="Edited model to write.")
-def command(model_path, declarations, merges, clips, monotones, zeros, reason, editor, cohort_path, outcome, output) -> None:
+def command(model_path, declarations, pools, holds_below, holds_above, directions, removals, reason, editor, cohort_path, outcome, output) -> None:
     """Edit MODEL.json without retraining and write the edited model.
 
     \b
     Edits run in this order, each on the result of the one before:
-      --declare, --merge, --clip, --monotone, --zero.
+      --declare, --pool-levels, --hold-below, --hold-above, --force-direction, --remove-effect.
     Every edit is appended to the model's provenance under `edits`: who (--by), when (UTC), what (in words
     and figures), why (--reason), the fingerprint of the model it was applied to and, with --data, its
     cost (AUC before and after; calibration-in-the-large, observed minus mean predicted risk). The cost is
@@ -105,12 +132,14 @@ def command(model_path, declarations, merges, clips, monotones, zeros, reason, e
     \b
     Example:
       scorecard edit demo_output/fitted.model.json --declare geriatric_review=care_process \\
-          --zero geriatric_review --clip medicines=:12 --reason "care-process marker; few patients above 12" \\
+          --remove-effect geriatric_review --hold-above medicines=12 \\
+          --reason "care-process marker; few patients above 12" \\
           --data demo_output/cohort.csv -o edited.model.json
     """
     out = output_path(output, model_path, cohort_path or "")
-    if not (declarations or merges or clips or monotones or zeros):
-        raise UserError("no edit given; use --declare, --merge, --clip, --monotone or --zero (see scorecard edit --help)")
+    if not (declarations or pools or holds_below or holds_above or directions or removals):
+        raise UserError("no edit given; use --declare, --pool-levels, --hold-below, --hold-above, --force-direction "
+                        "or --remove-effect (see scorecard edit --help)")
     model = load_model(model_path)
     if not isinstance(model.provenance.get("edits", []), list):
         raise UserError(f"{model_path}: provenance.edits must be a list of earlier edits; fix or remove it")
@@ -124,10 +153,11 @@ def command(model_path, declarations, merges, clips, monotones, zeros, reason, e
         data_note = {"file": Path(cohort_path).name, "sha256": file_sha256(cohort_path), "rows": len(cohort)}
 
     steps = [lambda m, d=d: declare(m, *parse_declaration(d)) for d in declarations]
-    steps += [lambda m, t=t: merge_levels(m, *parse_merge(t), cohort=cohort) for t in merges]
-    steps += [lambda m, t=t: clip_term(m, *parse_clip(t)) for t in clips]
-    steps += [lambda m, t=t: monotone_term(m, *_parse_monotone(t), cohort=cohort) for t in monotones]
-    steps += [lambda m, t=t: zero_term(m, t) for t in zeros]
+    steps += [lambda m, t=t: pool_levels(m, *parse_pool(t), cohort=cohort) for t in pools]
+    steps += [lambda m, h=parse_hold(t, "below"): hold_beyond(m, h[0], lo=h[1]) for t in holds_below]
+    steps += [lambda m, h=parse_hold(t, "above"): hold_beyond(m, h[0], hi=h[1]) for t in holds_above]
+    steps += [lambda m, t=t: force_direction(m, *_parse_direction(t), cohort=cohort) for t in directions]
+    steps += [lambda m, t=t: remove_effect(m, t) for t in removals]
 
     who = editor if editor else _default_editor()
     when = _edit_time()

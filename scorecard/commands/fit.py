@@ -12,6 +12,8 @@ from scorecard.commands._common import output_path, say
 from scorecard.errors import UserError
 from scorecard.jsondoc import file_sha256
 from scorecard.model import save_model
+from scorecard.model.declare import declare_completed, declare_level_order
+from scorecard.suggest import did_you_mean
 from scorecard.tabular import FLAG_FALSE, FLAG_TRUE, flag_column, is_missing_text, numeric_column, read_csv
 
 MIN_EVENTS = 10  # below this no shape can be told from noise (common practice: >= 10 events per variable is already generous)
@@ -43,7 +45,7 @@ def _settings(values: tuple[str, ...], option: str, known: list[str], cast) -> d
 
 
 # what a FEATURE=VALUE option looks like, for its error message
-_EXAMPLES = {"--unit": "sodium=mmol/L", "--decimals": "temperature=1 (a whole number from 0 to 6)",
+_EXAMPLES = {"--order": "residence=own_home,with_family,care_home", "--unit": "sodium=mmol/L", "--decimals": "temperature=1 (a whole number from 0 to 6)",
              "--label": '"sodium=Sodium (blood)"'}
 
 
@@ -162,10 +164,23 @@ def _pairs_option(text: str):
 @click.option("--label", "labels", multiple=True, metavar="FEATURE=TEXT", help="Printed label of a feature (repeatable).")
 @click.option("--unit", "units", multiple=True, metavar="FEATURE=UNIT", help="Unit of a feature, e.g. sodium=mmol/L (repeatable).")
 @click.option("--decimals", "decimals", multiple=True, metavar="FEATURE=N", help="Decimals to print for a feature (repeatable; default: as recorded).")
+@click.option("--score-at", "score_at", default=None, metavar="TEXT",
+              help="When to score, printed on the sheet: the moment every feature is known, e.g. "
+                   "'once the operation is scheduled, before surgery'.")
+@click.option("--completed", "completed", multiple=True, metavar="NAMES",
+              help="Features recorded in completed units (age in completed years: 79.6 counts as 79); the sheet's "
+                   "table says so and `score` reads them that way (comma-separated or repeated).")
+@click.option("--order", "orders", multiple=True, metavar="FEATURE=LEVEL,LEVEL,...",
+              help="The clinical order of a categorical feature's levels, printed in that order (default: by name); "
+                   "list every level once (repeatable).")
+@click.option("--invented-data", "invented", is_flag=True,
+              help="The data is invented (a demo, a test): the model, its sheets and every page made from them say "
+                   "INVENTED DATA - NOT FOR CLINICAL USE.")
 @click.option("--jobs", default=None, type=click.IntRange(1), help="Processes for the bags (default: all usable cores); the result does not depend on it.")
 @click.option("-o", "--output", required=True, type=click.Path(), help="Model document to write (*.model.json).")
 def command(data_path, outcome, features, exclude, categorical, weights_column, pairs_text, max_pairs, bags, seed,
-            learning_rate, min_leaf, max_bins, name, event, horizon, population, labels, units, decimals, jobs, output):
+            learning_rate, min_leaf, max_bins, name, event, horizon, population, labels, units, decimals, score_at,
+            completed, orders, invented, jobs, output):
     """Fit an additive risk model to DATA.csv and write it as a model document.
 
     \b
@@ -230,6 +245,12 @@ def command(data_path, outcome, features, exclude, categorical, weights_column, 
     unit_of = _settings(units, "--unit", kept, str)
     decimals_of = _settings(decimals, "--decimals", kept, _decimals)
     label_of = _settings(labels, "--label", kept, str)
+    order_of = _settings(orders, "--order", kept, lambda text: [lv.strip() for lv in text.split(",") if lv.strip()])
+    completed_names = _names(completed)
+    for column in completed_names:
+        if column not in kept:
+            raise UserError(f"--completed {column}: {column!r} is not a feature being fitted{did_you_mean(column, kept)}; "
+                            f"features: {', '.join(kept)}")
     say(f"read {len(frame)} patients, {int(y.sum())} events, {len(kept)} features from {source}")
 
     from scorecard.fit import AdditiveRiskClassifier
@@ -255,6 +276,15 @@ def command(data_path, outcome, features, exclude, categorical, weights_column, 
         provenance={"source": {"file": Path(data_path).name, "sha256": file_sha256(data_path), "outcome": outcome,
                                "weights": weights_column}},
     )
+    if score_at is not None:
+        if not score_at.strip():
+            raise UserError("--score-at: give the moment to score in words, e.g. --score-at 'on admission'")
+        model.outcome["score_at"] = score_at.strip()
+    for column in completed_names:
+        declare_completed(model, column)
+    for column, order in order_of.items():
+        declare_level_order(model, column, order)
+    model.invented_data = invented
     validation = model.provenance.get("validation", {})
     if "out_of_bag_auc" in validation:
         say(f"out-of-bag AUC {validation['out_of_bag_auc']:.3f} on {validation['out_of_bag_rows']} patients")

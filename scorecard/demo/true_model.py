@@ -32,7 +32,10 @@ OUTCOME_TEXT = {
     "event": "Delirium within 5 days after hip-fracture surgery",
     "horizon": "5 days after the operation",
     "population": "Adults aged 60 or over having surgery for a hip fracture",
+    "score_at": "once the operation is scheduled, before surgery (time to surgery: hours from admission to the planned start)",
 }
+# recorded in completed units, as a ward records them (age in completed years: 79.6 counts as 79)
+COMPLETED_UNITS = ("age",)
 
 # name, label, unit, decimals, kind, missing policy, declared direction
 FEATURE_INFO = [
@@ -125,6 +128,8 @@ def _true_model_document(interaction: bool) -> dict:
                    "role": "care_process" if name == "geriatric_review" else "measurement"}
         if direction:
             feature["direction"] = direction
+        if name in COMPLETED_UNITS:
+            feature["reading"] = "completed"
         scores = raw[name]
         if name == "geriatric_review":
             p = np.array([1 - review_share, review_share])
@@ -174,6 +179,7 @@ def _true_model_document(interaction: bool) -> dict:
         "intercept": intercept,
         "features": features,
         "terms": terms,
+        "invented_data": True,
         "provenance": {
             "source": "invented: the true model of scorecard's demo generator (scorecard.demo), not fitted to any data",
             "generator_version": GENERATOR_VERSION,

@@ -24,7 +24,7 @@ from scorecard.fit.purify import centre, purify_grid
 
 
 @dataclass
-class PairLayout:
+class PairBins:
     first: int
     second: int
     maps: tuple[np.ndarray, np.ndarray]  # fine slot -> coarse bin (-1: not measured), per feature
@@ -38,7 +38,7 @@ class FittedTerms:
     intercept: float
     mains: list[np.ndarray]  # per feature, one value per slot (last slot: not measured)
     main_spread: list[np.ndarray]
-    pairs: list[PairLayout]
+    pairs: list[PairBins]
     pair_grids: list[np.ndarray]
     pair_spread: list[np.ndarray]
     slot_weight: list[np.ndarray]  # weighted training count per slot
@@ -130,7 +130,7 @@ def logodds_of(intercept, mains, codes, grids=(), pair_codes=()):
     return f
 
 
-def pair_code(layout: PairLayout, codes) -> np.ndarray:
+def pair_code(layout: PairBins, codes) -> np.ndarray:
     """row * n_columns + column, or n_rows * n_columns when either feature is not measured."""
     r = layout.maps[0][codes[layout.first]]
     c = layout.maps[1][codes[layout.second]]
@@ -180,7 +180,7 @@ def fit_additive_terms(
             picked = ", ".join(f"{label[s.first]} x {label[s.second]}" for s in chosen) or "none"
             progress(f"pairs: ranked {len(ranking)} by FAST gain; chosen: {picked}")
     layouts = [
-        PairLayout(s.first, s.second, (coarse_maps[s.first], coarse_maps[s.second]),
+        PairBins(s.first, s.second, (coarse_maps[s.first], coarse_maps[s.second]),
                    (int(coarse_maps[s.first].max()) + 1, int(coarse_maps[s.second].max()) + 1))
         for s in chosen
     ]

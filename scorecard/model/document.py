@@ -35,6 +35,7 @@ class Feature:
     missing: str = "score"  # score | average | error
     direction: str | None = None
     role: str | None = None
+    reading: str | None = None  # None or "rounded": round half up; "completed": completed units (79.6 years -> 79)
 
 
 @dataclass
@@ -71,6 +72,7 @@ class AdditiveModel:
     terms: list[Term]
     provenance: dict[str, Any] = field(default_factory=dict)
     link: str = "logit"
+    invented_data: bool = False  # fitted on invented data: every page made from it says so (scorecard.invented)
 
     # -- lookups -----------------------------------------------------------------------------------
     def feature(self, name: str) -> Feature:
@@ -109,6 +111,8 @@ class AdditiveModel:
             "terms": [_drop_none(vars(t), keep=("missing_score",)) for t in self.terms],
             "provenance": copy.deepcopy(self.provenance),
         }
+        if self.invented_data:  # written only when true, so a real model's document (and fingerprint) is unchanged
+            doc["invented_data"] = True
         return normalise(doc)
 
     @property
@@ -210,6 +214,8 @@ def _check_structure(doc: dict) -> str | None:
             return f"{where}.levels: a categorical feature must list its levels"
         if f["kind"] != "categorical" and "levels" in f:
             return f"{where}.levels: only categorical features have levels"
+        if f.get("reading") == "completed" and f["kind"] != "continuous":
+            return f"{where}.reading: only a continuous feature is read in completed units"
         rng = f.get("training_range")
         if rng:
             if f["kind"] != "continuous":
@@ -347,6 +353,7 @@ def model_from_dict(doc: Any, source: str = "model") -> AdditiveModel:
         terms=terms,
         provenance=doc["provenance"],
         link=doc["link"],
+        invented_data=bool(doc.get("invented_data", False)),
     )
 
 

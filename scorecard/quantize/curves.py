@@ -27,7 +27,7 @@ MAX_LINEAR_PIECES = 400
 
 
 @dataclass
-class Layout:
+class RowPlan:
     """How one term is printed: the row of every piece, and what each row says."""
 
     row_of_piece: np.ndarray
@@ -40,7 +40,7 @@ class Layout:
 class Option:
     size: int
     cost: float
-    layout: Layout
+    layout: RowPlan
     cap: float
 
 
@@ -186,11 +186,11 @@ class ContinuousCurve(Curve):
             cost, cuts = found
             row = rows_of_pieces(n, cuts)
             extra, _ = self.special_rows(k)
-            layout = Layout(np.concatenate([row, extra]), k + len(extra), k + len(extra), {"cuts": cuts})
+            layout = RowPlan(np.concatenate([row, extra]), k + len(extra), k + len(extra), {"cuts": cuts})
             out.append(Option(size=k, cost=cost, layout=layout, cap=cap_used))
         return out
 
-    def sheet_term(self, layout: Layout, points: list[int]) -> dict:
+    def sheet_term(self, layout: RowPlan, points: list[int]) -> dict:
         d = self.feature.decimals
         cut_units = [int(self.axis["cuts"][np.searchsorted(self.axis["allowed"], c)]) for c in layout.detail["cuts"]]
         n_ranged = len(cut_units) + 1
@@ -249,10 +249,10 @@ class LevelCurve(Curve):
 
     def options(self, patient_weight: np.ndarray, max_rows: int, cap: float, nice: bool = True) -> list[Option]:
         n = len(self.scores)
-        layout = Layout(np.arange(n), n, n, {})
+        layout = RowPlan(np.arange(n), n, n, {})
         return [Option(size=self.n_main, cost=0.0, layout=layout, cap=cap)]
 
-    def sheet_term(self, layout: Layout, points: list[int], merge_equal: bool = False) -> dict:
+    def sheet_term(self, layout: RowPlan, points: list[int], merge_equal: bool = False) -> dict:
         rows = []
         if self.kind == "flag":
             for v in (False, True):
@@ -358,11 +358,11 @@ class PairCurve(Curve):
                 cost = float((w2 * (s2 - value[cell]) ** 2).sum())
                 row = np.concatenate([cell.ravel(), [n_cells]])
                 size = int(rows0.max()) + 1 + n1
-                layout = Layout(row, n_cells + 1, size, {"cuts": [cuts0, cuts1], "rows": [rows0, rows1]})
+                layout = RowPlan(row, n_cells + 1, size, {"cuts": [cuts0, cuts1], "rows": [rows0, rows1]})
                 out.append(Option(size=size, cost=cost, layout=layout, cap=cap))
         return out
 
-    def sheet_term(self, layout: Layout, points: list[int]) -> dict:
+    def sheet_term(self, layout: RowPlan, points: list[int]) -> dict:
         axes = []
         for j, (feature, ax) in enumerate(zip(self.features, self.axes)):
             if ax["kind"] == "continuous":

@@ -22,7 +22,7 @@ from dataclasses import dataclass
 
 import numpy as np
 
-from scorecard.quantize.curves import ContinuousCurve, Curve, Layout, LevelCurve, PairCurve
+from scorecard.quantize.curves import ContinuousCurve, Curve, RowPlan, LevelCurve, PairCurve
 from scorecard.quantize.segment import rows_of_pieces
 
 
@@ -30,7 +30,7 @@ from scorecard.quantize.segment import rows_of_pieces
 class PointsTable:
     """A baseline sheet in the quantizer's terms: per term the row of each piece and the row points."""
 
-    layouts: list[Layout]
+    layouts: list[RowPlan]
     points: list[np.ndarray]
     scale: float
     offset: float
@@ -65,7 +65,7 @@ def _axis_categories(ax: dict, feature, categories: int):
     return cut_pieces, mids
 
 
-def reference_values(curves: list[Curve], categories: int) -> tuple[list[Layout], list[np.ndarray]]:
+def reference_values(curves: list[Curve], categories: int) -> tuple[list[RowPlan], list[np.ndarray]]:
     """Steps 1-2: the categories of every factor (as layouts over its pieces) and f at each reference value."""
     layouts, refvals = [], []
     for c in curves:
@@ -75,11 +75,11 @@ def reference_values(curves: list[Curve], categories: int) -> tuple[list[Layout]
             values = [c.model_score(m) for m in mids]
             extra = list(c.scores[c.n_main:])
             k = len(values)
-            layouts.append(Layout(np.concatenate([row, np.arange(len(extra)) + k]), k + len(extra), k + len(extra), {"cuts": cut_pieces}))
+            layouts.append(RowPlan(np.concatenate([row, np.arange(len(extra)) + k]), k + len(extra), k + len(extra), {"cuts": cut_pieces}))
             refvals.append(np.array(values + extra))
         elif isinstance(c, LevelCurve):
             n = len(c.scores)
-            layouts.append(Layout(np.arange(n), n, n, {}))
+            layouts.append(RowPlan(np.arange(n), n, n, {}))
             refvals.append(c.scores.copy())
         elif isinstance(c, PairCurve):
             grid = np.asarray(c.term.scores, dtype=float)
@@ -96,7 +96,7 @@ def reference_values(curves: list[Curve], categories: int) -> tuple[list[Layout]
             cells = grid[np.ix_(axis_vals[0], axis_vals[1])].ravel()
             cell = axis_rows[0][:, None] * sizes[1] + axis_rows[1][None, :]
             n_cells = sizes[0] * sizes[1]
-            layouts.append(Layout(np.concatenate([cell.ravel(), [n_cells]]), n_cells + 1, sizes[0] + sizes[1], {}))
+            layouts.append(RowPlan(np.concatenate([cell.ravel(), [n_cells]]), n_cells + 1, sizes[0] + sizes[1], {}))
             refvals.append(np.concatenate([cells, [float(c.term.missing_score or 0.0)]]))
         else:  # pragma: no cover - every curve kind is handled above
             raise TypeError(type(c))

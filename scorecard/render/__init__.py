@@ -4,8 +4,8 @@ Public entry: `render_pdf(sheet, layout, short_fingerprint) -> bytes`, `load_lay
 `write_previews(pdf_bytes, folder)`.
 """
 
-from scorecard.render.layout import DEFAULT_LAYOUT, Layout, load_layout, parse_layout, shipped_layouts
+from scorecard.render.layout import DEFAULT_LAYOUT, PageLayout, load_layout, parse_layout, shipped_layouts
 from scorecard.render.pages import render_pdf
 from scorecard.render.preview import write_previews
 
-__all__ = ["DEFAULT_LAYOUT", "Layout", "load_layout", "parse_layout", "render_pdf", "shipped_layouts", "write_previews"]
+__all__ = ["DEFAULT_LAYOUT", "PageLayout", "load_layout", "parse_layout", "render_pdf", "shipped_layouts", "write_previews"]

@@ -2,7 +2,7 @@
 
 A layout is found by name among the shipped layouts (package `scorecard.layouts`, which is the repo's
 top-level `layouts/` folder) or read from a file path. Every field is checked once here, and a bad one is a
-single `UserError` line naming the file and the field; the renderer trusts a loaded `Layout`.
+single `UserError` line naming the file and the field; the renderer trusts a loaded `PageLayout`.
 The format is documented in docs/layouts.md.
 """
 
@@ -39,7 +39,7 @@ PARTS = {
     "conversion_curve": "the same conversion plotted as a curve",
     "bands": "the risk bands with the unit's own wording",
     "cautions": "the cautions in full, with the fingerprint check",
-    "nomogram": "points ruler, one axis per term, total-points axis with the risk aligned",
+    "nomogram": "one line per term with its own points at each tick, then one total-to-risk scale with the bands shaded",
 }
 # a sheet that leaves any of these out could be misused at the bedside
 REQUIRED_PARTS = ("terms", "total", "instructions", "ranges", "conversion_table", "cautions")
@@ -63,7 +63,7 @@ class Section:
 
 
 @dataclass(frozen=True)
-class Layout:
+class PageLayout:
     name: str
     description: str
     source: str
@@ -111,7 +111,7 @@ def shipped_layouts() -> dict[str, str]:
 DEFAULT_LAYOUT = "ward-a4"
 
 
-def load_layout(name_or_path: str | None = None) -> Layout:
+def load_layout(name_or_path: str | None = None) -> PageLayout:
     """A shipped layout by name (e.g. 'ward-a4'), or a layout file by path (anything ending .toml or existing)."""
     given = name_or_path or DEFAULT_LAYOUT
     path = Path(given)
@@ -152,7 +152,7 @@ def _unknown(where: str, value: dict, allowed: set[str]) -> None:
         raise UserError(f"{where}: unknown field {extra[0]!r}; allowed fields are {', '.join(sorted(allowed))}")
 
 
-def parse_layout(text: str, source: str = "layout") -> Layout:
+def parse_layout(text: str, source: str = "layout") -> PageLayout:
     """Check every field of a layout's TOML text; one line naming the field on the first problem."""
     try:
         doc = tomllib.loads(text)
@@ -235,6 +235,6 @@ def parse_layout(text: str, source: str = "layout") -> Layout:
     missing = [p for p in REQUIRED_PARTS if p not in seen]
     if missing:
         raise UserError(f"{source}: [[section]] parts must include {', '.join(missing)} (a sheet without them could be misread)")
-    return Layout(name=name, description=description, source=source, page_size=(width, height), margins=margins,
+    return PageLayout(name=name, description=description, source=source, page_size=(width, height), margins=margins,
                   two_sided=two_sided, max_pages=max_pages, min_pt=float(min_pt), body_pt=sizes["body_pt"],
                   heading_pt=sizes["heading_pt"], title_pt=sizes["title_pt"], sections=tuple(sections), compact=compact)

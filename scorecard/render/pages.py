@@ -16,8 +16,9 @@ from reportlab.platypus import BaseDocTemplate, Flowable, Frame, NextPageTemplat
 from scorecard import __version__
 from scorecard.errors import UserError
 from scorecard.render.conversion import bands_block, conversion_curve_block, conversion_table_block
-from scorecard.render.fonts import REGULAR, text_width
-from scorecard.render.layout import Layout
+from scorecard.invented import band_height, draw_band, is_invented
+from scorecard.render.fonts import BOLD, REGULAR, text_width
+from scorecard.render.layout import PageLayout
 from scorecard.render.nomogram import nomogram_block
 from scorecard.render.styles import Styles, styles_for
 from scorecard.render.tables import (
@@ -83,7 +84,7 @@ def training_range_texts(sheet: dict) -> list[str]:
 class _Furniture:
     """Header and footer drawn on every page, sized once per layout."""
 
-    def __init__(self, sheet: dict, layout: Layout, styles: Styles, short_fingerprint: str):
+    def __init__(self, sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: str):
         self.layout, self.styles = layout, styles
         width, height = layout.page_size
         m = layout.margins
@@ -99,10 +100,14 @@ class _Furniture:
         self.printed_label = "Printed on:"
         self.cautions = Paragraph(markup(cautions_line(sheet, short_fingerprint)), styles.small)
         s = styles.min_pt
+        # a sheet from invented data carries a black band with the mark at the top and foot of every page,
+        # inside the margins so no printer crops it (scorecard.invented)
+        self.invented = is_invented(sheet)
+        self.band_h = band_height(s) + s * 0.4 if self.invented else 0.0
         self.line_h = s * 1.25
         _, self.title_h = self.title.wrap(self.inner_w, height)
         _, self.outcome_h = self.outcome.wrap(self.inner_w, height)
-        self.header_h = self.title_h + 2 + self.outcome_h + 3
+        self.header_h = self.band_h + self.title_h + 2 + self.outcome_h + 3
         _, self.cautions_h = self.cautions.wrap(self.inner_w, height)
         self.page_label_w = text_width("Page 888 of 888", s)
         ident_room = self.inner_w - self.page_label_w - s
@@ -112,7 +117,7 @@ class _Furniture:
         self.one_line = len(self.ident_lines) == 1 and (
             text_width(self.ident, s) + self.print_w + self.page_label_w + 2 * s <= self.inner_w)
         lines = 1 if self.one_line else max(len(self.ident_lines), 2)
-        self.footer_h = 3 + self.cautions_h + 2 + lines * self.line_h
+        self.footer_h = 3 + self.cautions_h + 2 + lines * self.line_h + self.band_h
         self.gap = s * 0.8
 
     @property
@@ -125,7 +130,10 @@ class _Furniture:
 
     def draw(self, canv, doc) -> None:
         canv.saveState()
-        y = self.top - self.title_h
+        if self.invented:
+            draw_band(canv, self.x0, self.inner_w, self.top, BOLD, self.styles.min_pt)
+            draw_band(canv, self.x0, self.inner_w, self.bottom + band_height(self.styles.min_pt), BOLD, self.styles.min_pt)
+        y = self.top - self.band_h - self.title_h
         self.title.drawOn(canv, self.x0, y)
         y -= 2 + self.outcome_h
         self.outcome.drawOn(canv, self.x0, y)
@@ -134,6 +142,7 @@ class _Furniture:
         canv.line(self.x0, self.top - self.header_h, self.x0 + self.inner_w, self.top - self.header_h)
         # footer: rule, cautions, identity lines (page x of y and the print-date field go on the right)
         y = self.bottom + self.footer_h
+        canv.setStrokeColor(colors.black)
         canv.line(self.x0, y, self.x0 + self.inner_w, y)
         y -= 3 + self.cautions_h
         self.cautions.drawOn(canv, self.x0, y)
@@ -191,7 +200,7 @@ def _canvas_class(furniture: _Furniture):
     return NumberedCanvas
 
 
-def _story(sheet: dict, layout: Layout, styles: Styles, short_fingerprint: str, furniture: _Furniture,
+def _story(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: str, furniture: _Furniture,
            blank_before: set[int]) -> list[Flowable]:
     signed = sheet_has_negative_points(sheet)
     gap = styles.body_pt * 1.2
@@ -232,7 +241,7 @@ def _story(sheet: dict, layout: Layout, styles: Styles, short_fingerprint: str, 
     return story
 
 
-def _build(sheet: dict, layout: Layout, styles: Styles, short_fingerprint: str, blank_before: set[int]) -> tuple[bytes, _Placement]:
+def _build(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: str, blank_before: set[int]) -> tuple[bytes, _Placement]:
     furniture = _Furniture(sheet, layout, styles, short_fingerprint)
     placement = _Placement()
     buffer = io.BytesIO()
@@ -263,7 +272,7 @@ def _build(sheet: dict, layout: Layout, styles: Styles, short_fingerprint: str, 
     return buffer.getvalue(), placement
 
 
-def render_pdf(sheet: dict, layout: Layout, short_fingerprint: str) -> bytes:
+def render_pdf(sheet: dict, layout: PageLayout, short_fingerprint: str) -> bytes:
     """The PDF of `sheet` laid out by `layout` (same inputs, same bytes).
 
     UserError when the layout's page limits cannot hold the sheet, naming what does not fit.
@@ -280,7 +289,7 @@ def render_pdf(sheet: dict, layout: Layout, short_fingerprint: str) -> bytes:
     return data
 
 
-def _render_sides(sheet: dict, layout: Layout, styles: Styles, short_fingerprint: str) -> tuple[bytes, _Placement]:
+def _render_sides(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: str) -> tuple[bytes, _Placement]:
     blank_before: set[int] = set()
     for _ in range(len(layout.sections) + 1):
         data, placement = _build(sheet, layout, styles, short_fingerprint, blank_before)
@@ -296,7 +305,7 @@ def _render_sides(sheet: dict, layout: Layout, styles: Styles, short_fingerprint
     return data, placement
 
 
-def _cautions_moved_on(layout: Layout, placement: _Placement) -> Layout | None:
+def _cautions_moved_on(layout: PageLayout, placement: _Placement) -> PageLayout | None:
     """When the cautions box is the only block on its page and a later section follows, the layout with the box
     moved into that section (before its curve, or first); None when the box shares its page or cannot move.
     A page holding the cautions alone is easily skipped, and wastes paper."""
@@ -319,7 +328,7 @@ def _cautions_moved_on(layout: Layout, placement: _Placement) -> Layout | None:
     return replace(layout, sections=tuple(sections))
 
 
-def _check_limits(layout: Layout, placement: _Placement) -> None:
+def _check_limits(layout: PageLayout, placement: _Placement) -> None:
     starts = [placement.section_pages.get(i, 0) for i in range(len(layout.sections))]
     ends = starts[1:] + [placement.pages + 1]
     for i, section in enumerate(layout.sections):

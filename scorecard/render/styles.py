@@ -8,7 +8,7 @@ from reportlab.lib.enums import TA_CENTER, TA_LEFT, TA_RIGHT
 from reportlab.lib.styles import ParagraphStyle
 
 from scorecard.render.fonts import BOLD, REGULAR, register_fonts
-from scorecard.render.layout import Layout
+from scorecard.render.layout import PageLayout
 
 LEADING = 1.22  # line height / font size; enough that descenders never touch the next line's capitals
 
@@ -31,7 +31,7 @@ class Styles:
     small_bold: ParagraphStyle
 
 
-def styles_for(layout: Layout) -> Styles:
+def styles_for(layout: PageLayout) -> Styles:
     register_fonts()
     body, heading, title, small = layout.body_pt, layout.heading_pt, layout.title_pt, layout.min_pt
 

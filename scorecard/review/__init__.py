@@ -5,7 +5,7 @@ start without loading matplotlib.
 """
 
 from scorecard.review.cost import edit_cost
-from scorecard.review.edits import clip_term, declare, merge_levels, monotone_term, zero_term
+from scorecard.review.edits import declare, force_direction, hold_beyond, pool_levels, remove_effect
 from scorecard.review.flags import Flag, FlagSettings, review_flags
 from scorecard.review.importance import rank_terms
 from scorecard.review.isotonic import isotonic_projection
@@ -25,15 +25,15 @@ __all__ = [
     "Flag",
     "FlagSettings",
     "build_review",
-    "clip_term",
     "declare",
     "edit_cost",
+    "force_direction",
+    "hold_beyond",
     "isotonic_projection",
-    "merge_levels",
-    "monotone_term",
     "pdf_bytes",
+    "pool_levels",
     "rank_terms",
+    "remove_effect",
     "review_flags",
     "write_previews",
-    "zero_term",
 ]

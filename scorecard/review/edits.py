@@ -1,12 +1,15 @@
 """Edits a methodologist makes to a fitted model without retraining, each returning a new model and a record.
 
-- zero: the term contributes nothing; every other term keeps its fitted scores (they were fitted with this
-  variable present, so they have not absorbed its effect, and must not be refitted without it);
-- monotone: the closest monotone shape in weighted least squares (isotonic projection, weights = patients
-  per bin), which keeps the term's weighted mean;
-- clip: the shape is frozen beyond [LO, HI]: a value beyond takes the score at LO or HI;
-- merge: chosen levels of a categorical term share their patient-weighted mean score;
+- remove an effect: the term contributes nothing; every other term keeps its fitted scores (they were
+  fitted with this variable present, so they have not absorbed its effect, and must not be refitted without it);
+- force a direction: the closest rising (or falling) shape in weighted least squares (isotonic projection,
+  weights = patients per bin), which keeps the term's weighted mean;
+- hold beyond a value: above (or below) a value the shape keeps the score it has at that value;
+- pool levels: chosen levels of a categorical term share their patient-weighted mean score;
 - declare: a feature's expected direction or its role (a care-process marker), read by the review flags.
+
+The record's `action` names the edit in the same words as the command's options (remove_effect,
+force_direction, hold, pool_levels, declare).
 
 Functions never change the model they are given. The record says what was done in words and figures; the
 command adds who, when, why and the cost.
@@ -36,7 +39,7 @@ def _round(x: float) -> float:
     return float(f"{x:.6g}")
 
 
-def zero_term(model: AdditiveModel, term_name: str) -> tuple[AdditiveModel, dict]:
+def remove_effect(model: AdditiveModel, term_name: str) -> tuple[AdditiveModel, dict]:
     edited = model.copy()
     term = edited.term(term_name)
     before = np.asarray(term.scores, dtype=float)
@@ -46,23 +49,24 @@ def zero_term(model: AdditiveModel, term_name: str) -> tuple[AdditiveModel, dict
     if term.missing_score is not None:
         term.missing_score = 0.0
     largest = float(np.max(np.abs(before))) if before.size else 0.0
-    what = f"set every score of term {term_name!r} to 0 (largest removed |score| {largest:.3g} log-odds); other terms unchanged"
-    return edited, {"action": "zero", "term": term_name, "what": what}
+    what = (f"removed the effect of term {term_name!r}: every score set to 0 (largest removed |score| {largest:.3g} "
+            "log-odds); other terms unchanged")
+    return edited, {"action": "remove_effect", "term": term_name, "what": what}
 
 
-def monotone_term(
+def force_direction(
     model: AdditiveModel, term_name: str, direction: str, cohort: pd.DataFrame | None = None
 ) -> tuple[AdditiveModel, dict]:
     if direction not in DIRECTIONS:
-        raise UserError(f"--monotone {term_name}={direction}: direction must be increasing or decreasing")
+        raise UserError(f"--force-direction {term_name}={direction}: direction must be increasing or decreasing")
     edited = model.copy()
     term = edited.term(term_name)
     if term.kind == "categorical":
         raise UserError(
-            f"--monotone {term_name}: term is categorical and its levels have no order; use --merge to pool levels instead"
+            f"--force-direction {term_name}: term is categorical and its levels have no order; use --pool-levels instead"
         )
     if term.kind == "pair":
-        raise UserError(f"--monotone {term_name}: a pair term has no single direction; edit its one-feature terms instead")
+        raise UserError(f"--force-direction {term_name}: a pair term has no single direction; edit its one-feature terms instead")
     weights = term_weights(model, term, cohort)
     before = np.asarray(term.scores, dtype=float)
     after = isotonic_projection(before, weights.per_score, increasing=direction == "increasing")
@@ -71,76 +75,77 @@ def monotone_term(
     feature.direction = direction
     moved = float(np.max(np.abs(after - before))) if before.size else 0.0
     what = (
-        f"projected term {term_name!r} onto {direction} shapes (weighted isotonic regression, weights: {weights.source}); "
+        f"forced term {term_name!r} to be {direction}: its closest {direction} shape (weighted isotonic regression, "
+        f"weights: {weights.source}); "
         f"largest change {moved:.3g} log-odds; declared {feature.name} {direction}"
     )
-    record = {"action": "monotone", "term": term_name, "direction": direction, "weights": weights.source, "what": what}
+    record = {"action": "force_direction", "term": term_name, "direction": direction, "weights": weights.source, "what": what}
     return edited, record
 
 
-def parse_clip(text: str) -> tuple[str, float | None, float | None]:
-    """TERM=LO:HI with either bound optional (TERM=LO: or TERM=:HI)."""
-    term_name, lo_text, hi_text = _split_clip(text)
+HOLD_OPTIONS = {"above": "--hold-above", "below": "--hold-below"}
+
+
+def parse_hold(text: str, side: str) -> tuple[str, float]:
+    """TERM=VALUE for --hold-above / --hold-below: the term and the value beyond which its score is held."""
+    option = HOLD_OPTIONS[side]
+    name, eq, value = text.partition("=")
+    example = "medicines=12" if side == "above" else "sodium=125"
+    if not eq or not name.strip() or not value.strip():
+        raise UserError(f"{option} {text}: write TERM=VALUE, e.g. {option} {example}")
     try:
-        lo = float(lo_text) if lo_text.strip() else None
-        hi = float(hi_text) if hi_text.strip() else None
+        bound = float(value)
     except ValueError:
-        raise UserError(f"--clip {text}: LO and HI must be numbers, e.g. --clip age=65:95") from None
-    if lo is None and hi is None:
-        raise UserError(f"--clip {text}: give at least one bound, e.g. --clip age=65:95 or --clip age=:95")
+        raise UserError(f"{option} {text}: {value.strip()!r} is not a number; e.g. {option} {example}") from None
+    if not np.isfinite(bound):
+        raise UserError(f"{option} {text}: the value must be a finite number; e.g. {option} {example}")
+    return name.strip(), bound
+
+
+def hold_beyond(model: AdditiveModel, term_name: str, lo: float | None = None, hi: float | None = None) -> tuple[AdditiveModel, dict]:
+    """Values below `lo` score as `lo` does and values above `hi` as `hi` does (either may be None)."""
+    option = HOLD_OPTIONS["below" if hi is None else "above"]
     if lo is not None and hi is not None and not lo < hi:
-        raise UserError(f"--clip {text}: LO must be below HI")
-    return term_name, lo, hi
-
-
-def _split_clip(text: str) -> tuple[str, str, str]:
-    name, eq, bounds = text.partition("=")
-    if not eq or ":" not in bounds or not name.strip():
-        raise UserError(f"--clip {text}: write TERM=LO:HI, e.g. --clip sodium=125:150 (either bound may be left empty)")
-    lo, _, hi = bounds.partition(":")
-    return name.strip(), lo, hi
-
-
-def clip_term(model: AdditiveModel, term_name: str, lo: float | None, hi: float | None) -> tuple[AdditiveModel, dict]:
+        raise UserError(f"{option} {term_name}: the value held below ({lo:g}) must be under the value held above ({hi:g})")
     edited = model.copy()
     term = edited.term(term_name)
     if term.kind != "continuous":
-        raise UserError(f"--clip {term_name}: only continuous terms can be clipped; term is {term.kind}")
+        raise UserError(f"{option} {term_name}: only a measurement on a scale can be held beyond a value; term is {term.kind}")
     feature = edited.feature(term.feature)
-    low_end, high_end = _clip_limits(term, feature.training_range)
-    for side, value in (("LO", lo), ("HI", hi)):
+    low_end, high_end = _hold_limits(term, feature.training_range)
+    for side, value in (("below", lo), ("above", hi)):
         if value is not None and not low_end <= value <= high_end:
             raise UserError(
-                f"--clip {term_name}: {side} {value:g} is outside the training range {low_end:g} to {high_end:g} of "
-                f"{feature.name}; choose bounds inside it"
+                f"{HOLD_OPTIONS[side]} {term_name}={value:g}: {value:g} is outside the training range {low_end:g} to "
+                f"{high_end:g} of {feature.name}; choose a value inside it"
             )
     before = edited.copy().term(term_name)
     if term.shape == "step":
-        _clip_step(term, lo, hi)
+        _hold_step(term, lo, hi)
     else:
-        _clip_linear(term, lo, hi)
+        _hold_linear(term, lo, hi)
     shift = _recentre(edited, term)
     # in words, with the numbers: the reader of the history should not have to decode "LO:HI" syntax
     held = [f"values below {lo:g} score as {lo:g}"] if lo is not None else []
     held += [f"values above {hi:g} score as {hi:g}"] if hi is not None else []
-    what = f"froze term {term_name!r}: " + " and ".join(held)
+    what = f"held term {term_name!r}: " + " and ".join(held)
     if shift:
         what += f"; re-centred on the training counts (intercept moved by {shift:+.3g})"
     moved = _largest_change(before, term)
     what += f"; largest change {moved:.3g} log-odds"
-    record = {"action": "clip", "term": term_name, "low": lo, "high": hi, "what": what, "intercept_shift": _round(shift)}
+    record = {"action": "hold", "term": term_name, "below": lo, "above": hi, "what": what, "intercept_shift": _round(shift)}
     return edited, record
 
 
-def _clip_limits(term: Term, training_range: dict | None) -> tuple[float, float]:
+def _hold_limits(term: Term, training_range: dict | None) -> tuple[float, float]:
     if training_range:
         return float(training_range["min"]), float(training_range["max"])
     if term.edges:
         return float(term.edges[0]), float(term.edges[-1])
-    raise UserError(f"--clip {term.name}: the term has a single bin and no training range; there is nothing to clip")
+    raise UserError(f"hold {term.name}: the term has a single bin and no training range; there is nothing to hold")
 
 
-def _clip_step(term: Term, lo: float | None, hi: float | None) -> None:
+def _hold_step(term: Term, lo: float | None, hi: float | None) -> None:
     edges = np.asarray(term.edges, dtype=float)
     lists = [k for k in ("scores", "spread") if getattr(term, k) is not None]
     for key in lists:
@@ -154,7 +159,7 @@ def _clip_step(term: Term, lo: float | None, hi: float | None) -> None:
         setattr(term, key, values.tolist())
 
 
-def _clip_linear(term: Term, lo: float | None, hi: float | None) -> None:
+def _hold_linear(term: Term, lo: float | None, hi: float | None) -> None:
     knots = list(map(float, term.edges))
     for bound in (lo, hi):
         if bound is not None and bound not in knots and knots[0] < bound < knots[-1]:
@@ -212,29 +217,29 @@ def _largest_change(before: Term, after: Term) -> float:
     return float(np.max(np.abs(np.asarray(after.scores) - np.asarray(before.scores))))
 
 
-def parse_merge(text: str) -> tuple[str, list[str]]:
+def parse_pool(text: str) -> tuple[str, list[str]]:
     name, eq, levels = text.partition("=")
     chosen = [lv.strip() for lv in levels.split(",") if lv.strip()]
     if not eq or not name.strip() or len(chosen) < 2:
-        raise UserError(f"--merge {text}: write TERM=LEVEL,LEVEL[,...] with at least two levels, e.g. --merge residence=home,sheltered")
+        raise UserError(f"--pool-levels {text}: write TERM=LEVEL,LEVEL[,...] with at least two levels, e.g. --pool-levels residence=home,sheltered")
     return name.strip(), chosen
 
 
-def merge_levels(
+def pool_levels(
     model: AdditiveModel, term_name: str, levels: list[str], cohort: pd.DataFrame | None = None
 ) -> tuple[AdditiveModel, dict]:
     edited = model.copy()
     term = edited.term(term_name)
     if term.kind != "categorical":
-        hint = "; a flag has only two values, use --zero instead" if term.kind == "flag" else ""
-        raise UserError(f"--merge {term_name}: only categorical terms have levels to merge; term is {term.kind}{hint}")
+        hint = "; a flag has only two values, use --remove-effect instead" if term.kind == "flag" else ""
+        raise UserError(f"--pool-levels {term_name}: only categorical terms have levels to pool; term is {term.kind}{hint}")
     for level in levels:
         if level not in term.levels:
             raise UserError(
-                f"--merge {term_name}: level {level!r} is not in the term; its levels are {', '.join(term.levels)}"
+                f"--pool-levels {term_name}: level {level!r} is not in the term; its levels are {', '.join(term.levels)}"
             )
     if len(set(levels)) != len(levels):
-        raise UserError(f"--merge {term_name}: a level is listed twice")
+        raise UserError(f"--pool-levels {term_name}: a level is listed twice")
     weights = term_weights(model, term, cohort)
     idx = [term.levels.index(lv) for lv in levels]
     w = weights.per_score[idx]
@@ -249,10 +254,10 @@ def merge_levels(
         setattr(term, key, v.tolist())
     score = term.scores[idx[0]]
     what = (
-        f"merged levels {', '.join(levels)} of term {term_name!r} to their patient-weighted mean score {score:.4g} "
+        f"pooled levels {', '.join(levels)} of term {term_name!r} at their patient-weighted mean score {score:.4g} "
         f"(weights: {weights.source})"
     )
-    return edited, {"action": "merge", "term": term_name, "levels": levels, "weights": weights.source, "what": what}
+    return edited, {"action": "pool_levels", "term": term_name, "levels": levels, "weights": weights.source, "what": what}
 
 
 def parse_declaration(text: str) -> tuple[str, str]:

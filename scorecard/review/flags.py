@@ -118,7 +118,7 @@ def check_monotone(model: AdditiveModel, term: Term, weights: TermWeights, setti
             term.name,
             f"{feature.name} is declared {feature.direction} but the shape {verb} by {size:.2f} log-odds "
             f"(from {_lo(scores[a])} at {labels[a]} to {_lo(scores[b])} at {labels[b]}); "
-            f"edit with --monotone {term.name}={feature.direction} or revisit the declaration",
+            f"edit with --force-direction {term.name}={feature.direction} or revisit the declaration",
         )
     ]
 
@@ -138,7 +138,7 @@ def check_care_marker(model: AdditiveModel, term: Term, settings: FlagSettings) 
                 term.name,
                 f"{marked[0]} is marked a care-process marker and lowers risk by {-effect:.2f} log-odds when present "
                 f"(odds ratio {np.exp(effect):.2f}); patients who got this care look safer, which is no reason to withhold "
-                f"it from others: consider --zero {term.name}",
+                f"it from others: consider --remove-effect {term.name}",
             )
         ]
     spread = float(scores.max() - scores.min()) if scores.size else 0.0
@@ -153,7 +153,7 @@ def check_care_marker(model: AdditiveModel, term: Term, settings: FlagSettings) 
             "protective_care_marker",
             term.name,
             f"{', '.join(marked)} is marked a care-process marker yet its scores differ by {spread:.2f} log-odds{where}; "
-            f"some patients look safer because of the care they got: consider --zero {term.name}",
+            f"some patients look safer because of the care they got: consider --remove-effect {term.name}",
         )
     ]
 
@@ -238,7 +238,7 @@ def check_rare(model: AdditiveModel, term: Term, weights: TermWeights, settings:
             "rare_category",
             term.name,
             f"level {labels[i]!r} carries {_lo(scores[i])} log-odds but only {100 * share[i]:.1f}% of patients "
-            f"({_count(w[i])}, {weights.source}) have it; check it is real and consider --merge",
+            f"({_count(w[i])}, {weights.source}) have it; check it is real and consider --pool-levels",
         )
         for i in np.flatnonzero(hit)
     ]

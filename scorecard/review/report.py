@@ -12,7 +12,7 @@ from matplotlib.backends.backend_pdf import PdfPages
 
 from scorecard.jsondoc import atomic_write_bytes
 from scorecard.model.document import AdditiveModel
-from scorecard.review.figures import frame_page, summary_page, term_page
+from scorecard.review.plots import frame_page, summary_page, term_page
 from scorecard.review.flags import Flag, FlagSettings, review_flags
 from scorecard.review.importance import TermImportance, rank_terms
 

@@ -14,7 +14,7 @@ import statsmodels.api as sm
 from click.testing import CliRunner
 from sklearn.metrics import brier_score_loss, roc_auc_score
 
-from scorecard.audit import figures
+from scorecard.audit import statistics
 from scorecard.audit.agreement import check_agreement
 from scorecard.audit.paper import score_cohort, sheet_logodds
 from scorecard.cli import main
@@ -33,34 +33,34 @@ def test_auc_matches_scikit_learn_with_ties_and_weights():
     rng = np.random.default_rng(0)
     y = (rng.random(3000) < 0.25).astype(float)
     score = np.round(rng.normal(size=3000) + y, 1)  # rounded: many ties
-    g, n = figures.tie_groups(score)
+    g, n = statistics.tie_groups(score)
     # scikit-learn roc_auc_score, the outside reference
-    assert figures.weighted_auc(g, n, y, 1 - y) == pytest.approx(roc_auc_score(y, score), abs=1e-12)
+    assert statistics.weighted_auc(g, n, y, 1 - y) == pytest.approx(roc_auc_score(y, score), abs=1e-12)
     p = rng.uniform(0.02, 0.9, 3000)
     expected = roc_auc_score(np.r_[np.ones(3000), np.zeros(3000)], np.r_[score, score], sample_weight=np.r_[p, 1 - p])
-    assert figures.weighted_auc(g, n, p, 1 - p) == pytest.approx(expected, abs=1e-12)
+    assert statistics.weighted_auc(g, n, p, 1 - p) == pytest.approx(expected, abs=1e-12)
 
 
 def test_brier_matches_scikit_learn():
     rng = np.random.default_rng(1)
     risk, q = rng.uniform(0, 1, 500), rng.uniform(0, 1, 500)
     y = (rng.random(500) < q).astype(float)
-    assert figures.brier(risk, y) == pytest.approx(brier_score_loss(y, risk), abs=1e-12)  # scikit-learn
+    assert statistics.brier(risk, y) == pytest.approx(brier_score_loss(y, risk), abs=1e-12)  # scikit-learn
     dup = brier_score_loss(np.r_[np.ones(500), np.zeros(500)], np.r_[risk, risk], sample_weight=np.r_[q, 1 - q])
-    assert figures.expected_brier(risk, q) == pytest.approx(dup, abs=1e-12)  # scikit-learn, weighted duplicates
+    assert statistics.expected_brier(risk, q) == pytest.approx(dup, abs=1e-12)  # scikit-learn, weighted duplicates
 
 
 def test_logistic_calibration_matches_statsmodels():
     rng = np.random.default_rng(2)
     x = rng.normal(-1, 1, 4000)
     y = (rng.random(4000) < 1 / (1 + np.exp(-(0.3 + 0.8 * x)))).astype(float)
-    a, b = figures.logistic_calibration(*figures.grouped(x, y))
+    a, b = statistics.logistic_calibration(*statistics.grouped(x, y))
     fit = sm.Logit(y, sm.add_constant(x)).fit(disp=0)  # statsmodels logistic regression
     assert (a, b) == pytest.approx(tuple(fit.params), abs=1e-7)
     # fractional responses (the model's risk as the outcome), grouped on few distinct x like sheet totals
     xt = rng.integers(0, 12, 4000).astype(float)
     p = 1 / (1 + np.exp(-(-2 + 0.3 * xt + rng.normal(0, 0.2, 4000))))
-    a, b = figures.logistic_calibration(*figures.grouped(xt, p))
+    a, b = statistics.logistic_calibration(*statistics.grouped(xt, p))
     glm = sm.GLM(p, sm.add_constant(xt), family=sm.families.Binomial()).fit()  # statsmodels GLM, binomial
     assert (a, b) == pytest.approx(tuple(glm.params), abs=1e-7)
 
@@ -70,11 +70,11 @@ def test_bootstrap_interval_is_seeded_and_brackets_the_estimate():
     y = (rng.random(2000) < 0.3).astype(float)
     a = y + rng.normal(0, 1, 2000)
     b = np.round(a + rng.normal(0, 0.5, 2000))
-    ga, na = figures.tie_groups(a)
-    gb, nb = figures.tie_groups(b)
-    diff = figures.weighted_auc(ga, na, y, 1 - y) - figures.weighted_auc(gb, nb, y, 1 - y)
-    ci = figures.bootstrap_auc_difference(ga, na, gb, nb, y, 1 - y, replicates=200, seed=7)
-    assert ci == figures.bootstrap_auc_difference(ga, na, gb, nb, y, 1 - y, replicates=200, seed=7)
+    ga, na = statistics.tie_groups(a)
+    gb, nb = statistics.tie_groups(b)
+    diff = statistics.weighted_auc(ga, na, y, 1 - y) - statistics.weighted_auc(gb, nb, y, 1 - y)
+    ci = statistics.bootstrap_auc_difference(ga, na, gb, nb, y, 1 - y, replicates=200, seed=7)
+    assert ci == statistics.bootstrap_auc_difference(ga, na, gb, nb, y, 1 - y, replicates=200, seed=7)
     assert ci[0] < diff < ci[1] and ci[1] - ci[0] < 0.1
 
 
@@ -84,7 +84,8 @@ def test_bootstrap_interval_is_seeded_and_brackets_the_estimate():
 @pytest.fixture(scope="module")
 def demo():
     model = true_model()
-    sheet = quantize_model(model, bound=Bound(max_auc_loss=0.01, max_risk_error=0.1, risk_error_share=0.05), bootstrap=0)
+    sheet = quantize_model(model, bound=Bound(max_auc_loss=0.01, max_risk_error=0.1, risk_error_share=0.05,
+                                             min_band_agreement=None, max_percentile_risk_error=None, max_largest_risk_error=None), bootstrap=0)
     sheet["fingerprint"] = sheet_fingerprint(sheet)
     cohort = generate_cohort(4000, seed=11)
     frame = pd.read_csv(io.StringIO(cohort_csv_text(cohort)), dtype=str, keep_default_na=False)

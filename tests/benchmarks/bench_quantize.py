@@ -31,7 +31,7 @@ from scorecard.demo import true_model  # noqa: E402
 from scorecard.errors import CheckFailed  # noqa: E402
 from scorecard.model import model_from_dict  # noqa: E402
 from scorecard.quantize import Bound  # noqa: E402
-from scorecard.quantize.figures import quick_figures  # noqa: E402
+from scorecard.quantize.accuracy import quick_figures  # noqa: E402
 from scorecard.quantize.framingham import framingham_span, framingham_table  # noqa: E402
 from scorecard.quantize.quantizer import _attempt, build_sheet, prepare, search  # noqa: E402
 

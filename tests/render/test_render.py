@@ -156,10 +156,12 @@ def test_conversion_table_pairs_every_total_with_its_risk(sheet, ward_pdf):
 
 
 def test_nomogram_page_has_every_term_and_row_as_text(sheet, ward_pdf):
-    width, height, words, chars, text, images = next(p for p in _pages(ward_pdf) if "Nomogram" in p[4])
-    flat = " ".join(text.split())
-    assert images == 0  # drawn as vector graphics and text, nothing rasterised
-    assert "Points" in flat and "Total points" in flat and "Risk" in flat
+    pages = [p for p in _pages(ward_pdf) if "Nomogram" in p[4]]  # it may run on to a second page
+    flat = " ".join(" ".join(p[4].split()) for p in pages)
+    words = [w for p in pages for w in p[2]]
+    assert all(p[5] == 0 for p in pages)  # drawn as vector graphics and text, nothing rasterised
+    assert "Total points" in flat and "Risk" in flat and "Shading: the risk bands by total points" in flat
+    assert "Points (continued)" not in flat and not any(w["text"] == "Points" for w in words)  # no shared ruler
     for term in sheet["terms"]:
         if term["kind"] == "pair":
             continue
@@ -378,7 +380,8 @@ def test_layouts_are_found_as_installed_package_data(tmp_path):
 
 
 # The demo sheet as `scorecard quantize` wrote it from the demo's true model (`scorecard demo -o d`,
-# `scorecard quantize d/true.model.json -o demo.sheet.json`): 12 terms plus a 6 x 6 pair grid.
+# `scorecard quantize d/true.model.json -o demo.sheet.json`): 12 terms plus a 6 x 6 pair grid. Its numbers were
+# put in the canonical form (jsondoc) by load_sheet(check_fingerprint=False) + save_sheet when that form came.
 DEMO_SHEET = Path(__file__).parent / "data" / "demo.sheet.json"
 
 
@@ -430,11 +433,42 @@ def _label_boxes_and_leaders(axis):
     boxes, leaders = [], []
     for label in axis.labels:
         sign = 1 if label.level > 0 else -1
-        for i in range(len(label.lines)):
+        for i in range(label.slots):  # the points box and every line of values
             boxes.append((sign * (abs(label.level) + i), label.x - label.width / 2, label.x + label.width / 2, label.text))
         if abs(label.level) > 1:
             leaders.append((sign, abs(label.level), label.tick_x, label.text))
     return boxes, leaders
+
+
+@pytest.mark.parametrize("which", ["twelve", "demo"])
+def test_each_nomogram_line_carries_its_own_points_under_its_ticks(which):
+    """No shared ruler: every tick of an item carries a tag with the points of its rows in a box (as the points
+    table prints them) next to the line, and the values beyond it."""
+    from scorecard.render.nomogram import NomogramBlock
+    from scorecard.render.styles import styles_for
+    from scorecard.render.text import points_text
+    from scorecard.sheet import load_sheet
+
+    doc = {"twelve": twelve_term_sheet, "demo": lambda: load_sheet(DEMO_SHEET)}[which]()
+    layout = load_layout("ward-a4")
+    signed = sheet_has_negative_points(doc)
+    block = NomogramBlock(doc, styles_for(layout), signed)
+    block.wrap(layout.page_size[0] - layout.margins["left"] - layout.margins["right"], 1e5)
+    for axis in block._term_axes:
+        if axis.is_pair:
+            continue
+        by_points = {}
+        for row in axis.term["rows"]:
+            by_points.setdefault(row["points"], []).append(row["text"])
+        assert sorted(l.points for l in axis.labels) == sorted(points_text(p, signed) for p in by_points)
+        for label in axis.labels:
+            points = next(p for p, texts in by_points.items() if label.text == " / ".join(texts))
+            assert label.points == points_text(points, signed)  # the values and their own points share one tag
+            assert label.tick_x == block.x_of(points)
+            assert label.x - label.width / 2 <= label.tick_x <= label.x + label.width / 2  # the tag covers its tick
+        # a common points scale: ticks are in the order of their points
+        xs = [block.x_of(p) for p in sorted(by_points)]
+        assert xs == sorted(xs)
 
 
 @pytest.mark.parametrize("layout_name", ["ward-a4", "large-print-a4"])

@@ -6,23 +6,29 @@ import pytest
 
 
 BAD_EDITS = [
-    (["--zero", "frailty"], "term 'frailty' is not in the model"),
-    (["--monotone", "residence=increasing"], "categorical"),
-    (["--monotone", "sodium=upwards"], "TERM=increasing or TERM=decreasing"),
-    (["--monotone", "age x cognition=increasing"], "pair term"),
-    (["--clip", "sodium=100:150"], "outside the training range"),
-    (["--clip", "sodium=130:200"], "outside the training range"),
-    (["--clip", "sodium=150:130"], "LO must be below HI"),
-    (["--clip", "residence=1:2"], "only continuous terms"),
-    (["--clip", "sodium"], "TERM=LO:HI"),
-    (["--merge", "residence=own_home,castle"], "level 'castle' is not in the term"),
-    (["--merge", "prior_delirium=no,yes"], "use --zero instead"),
-    (["--merge", "residence=own_home"], "at least two levels"),
+    (["--remove-effect", "frailty"], "term 'frailty' is not in the model"),
+    (["--force-direction", "residence=increasing"], "categorical"),
+    (["--force-direction", "sodium=upwards"], "TERM=increasing or TERM=decreasing"),
+    (["--force-direction", "age x cognition=increasing"], "pair term"),
+    (["--hold-below", "sodium=100"], "outside the training range"),
+    (["--hold-above", "sodium=200"], "outside the training range"),
+    (["--hold-above", "sodium=high"], "is not a number"),
+    (["--hold-below", "sodium=nan"], "finite number"),
+    (["--hold-above", "residence=2"], "only a measurement on a scale"),
+    (["--hold-below", "sodium"], "TERM=VALUE"),
+    (["--pool-levels", "residence=own_home,castle"], "level 'castle' is not in the term"),
+    (["--pool-levels", "prior_delirium=no,yes"], "use --remove-effect instead"),
+    (["--pool-levels", "residence=own_home"], "at least two levels"),
     (["--declare", "shoe_size=increasing"], "feature is not in the model"),
     (["--declare", "residence=increasing"], "no order"),
     (["--declare", "sodium=sideways"], "FEATURE=VALUE"),
-    (["--zero", "sodium", "--outcome", "delirium"], "give --data"),
+    (["--remove-effect", "sodium", "--outcome", "delirium"], "give --data"),
     ([], "no edit given"),
+    # the option names of earlier releases are gone and answered with the new one
+    (["--zero", "sodium"], "did you mean --remove-effect"),
+    (["--monotone", "age=increasing"], "did you mean --force-direction"),
+    (["--clip", "sodium=125:150"], "did you mean --hold-above"),
+    (["--merge=residence=a,b"], "did you mean --pool-levels"),
 ]
 
 
@@ -39,13 +45,13 @@ def test_bad_edit_exits_2_with_one_line_and_writes_nothing(care_model_path, revi
 
 def test_edit_refuses_to_overwrite_its_input(care_model_path, run_cli):
     before = open(care_model_path, "rb").read()
-    result = run_cli("edit", care_model_path, "--zero", "sodium", "-o", care_model_path)
+    result = run_cli("edit", care_model_path, "--remove-effect", "sodium", "-o", care_model_path)
     assert result.exit_code == 2 and "input" in result.stderr
     assert open(care_model_path, "rb").read() == before
 
 
 def test_edit_with_an_outcome_column_that_is_not_there(care_model_path, cohort_csv, review_dir, run_cli):
-    result = run_cli("edit", care_model_path, "--zero", "sodium", "--data", cohort_csv, "--outcome", "falls", "-o", review_dir / "x.json")
+    result = run_cli("edit", care_model_path, "--remove-effect", "sodium", "--data", cohort_csv, "--outcome", "falls", "-o", review_dir / "x.json")
     assert result.exit_code == 2 and "outcome column 'falls'" in result.stderr
 
 

@@ -8,7 +8,7 @@ from hypothesis import given, settings
 from hypothesis import strategies as st
 
 from scorecard.model import model_from_dict, predict_logodds
-from scorecard.review.edits import clip_term, monotone_term
+from scorecard.review.edits import force_direction, hold_beyond
 
 
 @st.composite
@@ -37,9 +37,9 @@ def logodds(model, values):
 
 @settings(max_examples=60, deadline=None)
 @given(model=step_models(), lo=st.integers(100, 199), width=st.integers(1, 100))
-def test_clip_keeps_every_prediction_inside_the_bounds_and_freezes_it_outside(model, lo, width):
+def test_holding_keeps_every_prediction_inside_the_bounds_and_freezes_it_outside(model, lo, width):
     hi = min(lo + width, 200)
-    edited, _ = clip_term(model, "x", float(lo), float(hi))
+    edited, _ = hold_beyond(model, "x", float(lo), float(hi))
     inside = np.linspace(lo, hi, 23)
     np.testing.assert_allclose(logodds(edited, inside), logodds(model, inside), atol=1e-9)
     below = logodds(edited, [90, lo - 0.5, lo - 7])
@@ -50,13 +50,13 @@ def test_clip_keeps_every_prediction_inside_the_bounds_and_freezes_it_outside(mo
 
 @settings(max_examples=60, deadline=None)
 @given(model=step_models(), increasing=st.booleans())
-def test_monotone_edit_is_monotone_keeps_the_weighted_mean_and_is_idempotent(model, increasing):
+def test_forced_direction_is_monotone_keeps_the_weighted_mean_and_is_idempotent(model, increasing):
     direction = "increasing" if increasing else "decreasing"
-    edited, _ = monotone_term(model, "x", direction)
+    edited, _ = force_direction(model, "x", direction)
     new = np.asarray(edited.term("x").scores)
     steps = np.diff(new) if increasing else -np.diff(new)
     assert np.all(steps >= -1e-12)
     w = np.asarray(model.term("x").counts)
     assert np.isclose(np.dot(w, new), np.dot(w, model.term("x").scores), atol=1e-9)
-    again, _ = monotone_term(edited, "x", direction)
+    again, _ = force_direction(edited, "x", direction)
     np.testing.assert_allclose(again.term("x").scores, new, atol=1e-12)

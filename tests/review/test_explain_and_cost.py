@@ -11,7 +11,7 @@ from sklearn.metrics import roc_auc_score
 
 from scorecard.model import contributions, load_model, predict_risk
 from scorecard.review.cost import edit_cost, expected_auc
-from scorecard.review.edits import zero_term
+from scorecard.review.edits import remove_effect
 from scorecard.tabular import read_csv
 
 
@@ -67,7 +67,7 @@ def test_expected_auc_equals_the_pairwise_definition():
 
 
 def test_edit_cost_against_observed_outcome_uses_scikit_learns_auc(care_model, cohort_frame):
-    edited, _ = zero_term(care_model, "geriatric_review")
+    edited, _ = remove_effect(care_model, "geriatric_review")
     y = cohort_frame["delirium"].to_numpy(float)
     cost = edit_cost(care_model, edited, cohort_frame, y)
     parts, _ = contributions(edited, cohort_frame)
@@ -75,7 +75,7 @@ def test_edit_cost_against_observed_outcome_uses_scikit_learns_auc(care_model, c
     # reference: sklearn.metrics.roc_auc_score on the edited model's log-odds
     assert cost["auc_after"] == pytest.approx(roc_auc_score(y, after), abs=1e-6)
     assert cost["calibration_in_the_large_after"] == pytest.approx(y.mean() - expit(after).mean(), abs=1e-6)
-    # the marker predicts delirium in these data (that is the trap), so zeroing it costs discrimination
+    # the marker predicts delirium in these data (that is the trap), so removing its effect costs discrimination
     assert cost["delta_auc"] < 0
     without = edit_cost(care_model, edited, cohort_frame, None)
     assert without["against"] == "the unedited model's risks" and without["delta_auc"] < 0

@@ -7,7 +7,7 @@ import pandas as pd
 
 from scorecard.demo import true_model
 from scorecard.model import load_model
-from scorecard.review.edits import declare, monotone_term
+from scorecard.review.edits import declare, force_direction
 from scorecard.review.flags import FlagSettings, largest_reversal, review_flags
 
 
@@ -26,10 +26,10 @@ def test_care_process_flag_is_raised_once_the_methodologist_marks_it(care_model,
     marked = load_model(out)
     flags = [f for f in review_flags(marked, cohort_frame) if f.kind == "protective_care_marker"]
     assert [f.term for f in flags] == ["geriatric_review"]
-    assert "care-process marker" in flags[0].message and "--zero geriatric_review" in flags[0].message
-    # zeroing it clears the flag
+    assert "care-process marker" in flags[0].message and "--remove-effect geriatric_review" in flags[0].message
+    # removing its effect clears the flag
     out2 = review_dir / "marked-zeroed.model.json"
-    assert run_cli("edit", out, "--zero", "geriatric_review", "-o", out2).exit_code == 0
+    assert run_cli("edit", out, "--remove-effect", "geriatric_review", "-o", out2).exit_code == 0
     assert "protective_care_marker" not in kinds(review_flags(load_model(out2)), "geriatric_review")
 
 
@@ -50,7 +50,7 @@ def test_declaring_the_u_shaped_sodium_increasing_raises_the_non_monotone_flag()
     assert [f.term for f in flags] == ["sodium"]
     # the U falls from its low end to its bottom near 140 mmol/L (DESIGN: U-shaped around 140)
     assert "declared increasing" in flags[0].message
-    projected, _ = monotone_term(declared, "sodium", "increasing")
+    projected, _ = force_direction(declared, "sodium", "increasing")
     assert "non_monotone" not in kinds(review_flags(projected), "sodium")
     # the true model's declared directions (age increasing, cognition decreasing, ...) hold: no flag
     assert not [f for f in review_flags(model) if f.kind == "non_monotone"]

@@ -1,4 +1,4 @@
-"""Edits on a linear (knot) shape: clipping is exact between knots, monotone uses interpolation weights."""
+"""Edits on a linear (knot) shape: holding is exact between knots, a forced direction uses interpolation weights."""
 
 from __future__ import annotations
 
@@ -8,7 +8,7 @@ import pytest
 from sklearn.isotonic import IsotonicRegression
 
 from scorecard.model import model_from_dict, predict_logodds
-from scorecard.review.edits import clip_term, monotone_term
+from scorecard.review.edits import force_direction, hold_beyond
 from scorecard.review.weights import term_weights
 
 
@@ -31,9 +31,9 @@ def frame(values):
     return pd.DataFrame({"sodium": [str(v) for v in values]})
 
 
-def test_clip_of_a_linear_shape_is_exact_between_knots():
+def test_holding_a_linear_shape_is_exact_between_knots():
     model = linear_model()
-    edited, _ = clip_term(model, "sodium", 125.0, 155.0)
+    edited, _ = hold_beyond(model, "sodium", 125.0, 155.0)
     probes = [118, 121, 125, 127.5, 133, 140, 149, 155, 158, 170]
     before, _ = predict_logodds(model, frame(probes))
     after, _ = predict_logodds(edited, frame(probes))
@@ -50,14 +50,14 @@ def test_clip_of_a_linear_shape_is_exact_between_knots():
     assert len(term.scores) == len(term.edges) == len(term.spread) == len(term.counts)
 
 
-def test_monotone_on_knots_matches_scikit_learn_with_interpolation_weights():
+def test_forced_direction_on_knots_matches_scikit_learn_with_interpolation_weights():
     model = linear_model()
     cohort = frame([121, 125, 129, 135, 138, 140, 141, 144, 147, 151, 159])
     weights = term_weights(model, model.term("sodium"), cohort)
     # each value splits one patient between its two knots, as linear interpolation does: total = patients
     assert weights.per_score.sum() == pytest.approx(11)
     assert weights.per_score[0] == pytest.approx(0.9 + 0.5 + 0.1)  # 121, 125, 129 against knots 120 and 130
-    edited, _ = monotone_term(model, "sodium", "decreasing", cohort=cohort)
+    edited, _ = force_direction(model, "sodium", "decreasing", cohort=cohort)
     x = np.arange(5)
     # reference: sklearn.isotonic.IsotonicRegression(increasing=False) with the same knot weights
     reference = IsotonicRegression(increasing=False).fit(x, model.term("sodium").scores, sample_weight=weights.per_score).predict(x)

@@ -67,7 +67,7 @@ def test_flags_are_also_listed_on_stderr(rendered):
 
 
 def test_flags_that_do_not_fit_continue_on_another_summary_page(care_model):
-    from scorecard.review.figures import summary_page
+    from scorecard.review.plots import summary_page
     from scorecard.review.flags import Flag, FlagSettings
     from scorecard.review.importance import rank_terms
 

@@ -13,6 +13,7 @@ import pandas as pd
 from matplotlib.figure import Figure
 from matplotlib.patches import Rectangle
 
+from scorecard.invented import add_matplotlib_mark, is_invented
 from scorecard.model.document import AdditiveModel, Term
 from scorecard.model.predict import feature_values
 from scorecard.review.entries import axis_labels, entry_labels
@@ -44,6 +45,8 @@ def new_page() -> Figure:
 
 def frame_page(fig: Figure, model: AdditiveModel, fingerprint: str, title: str, page: int, pages: int) -> None:
     """Title, outcome, cautions and fingerprint: the parts every page shares."""
+    if is_invented(model):
+        add_matplotlib_mark(fig, left=LEFT, width=WIDTH)
     fig.text(LEFT, 0.965, title, fontsize=15, weight="bold", va="top")
     outcome = model.outcome
     heading = f"Model review: {model.name} version {model.version}. Outcome: {outcome['event']} (horizon: {outcome['horizon']}). Population: {outcome['population']}."

@@ -6,7 +6,7 @@ import statsmodels.api as sm
 from sklearn.metrics import brier_score_loss, roc_auc_score
 
 from scorecard.model import logistic
-from scorecard.quantize.figures import doubled, expected_auc, full_figures, recalibration
+from scorecard.quantize.accuracy import doubled, expected_auc, full_figures, recalibration
 
 
 @pytest.fixture

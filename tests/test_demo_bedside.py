@@ -1,0 +1,73 @@
+"""The demo as a ward would meet it: every page it writes says the data is invented, and only its outputs do.
+
+One demo run (module fixture) feeds the checks; each page of each PDF is read back with pdfplumber, a library
+outside the project, and every PNG preview is checked for the solid black band the mark is printed on.
+"""
+
+from pathlib import Path
+
+import numpy as np
+import pdfplumber
+import pytest
+from click.testing import CliRunner
+from PIL import Image
+
+from scorecard.cli import main
+from scorecard.invented import MARK
+from scorecard.sheet import load_sheet
+
+
+@pytest.fixture(scope="module")
+def demo(tmp_path_factory):
+    out = tmp_path_factory.mktemp("bedside") / "demo"
+    result = CliRunner().invoke(main, ["demo", "-o", str(out), "--rows", "10000"])
+    assert result.exit_code == 0, result.output
+    return out, result.output
+
+
+def _page_texts(pdf: Path) -> list[str]:
+    with pdfplumber.open(pdf) as document:
+        return [page.extract_text() or "" for page in document.pages]
+
+
+@pytest.mark.parametrize("name", ["sheet.pdf", "review.pdf", "check-report.pdf"])
+def test_every_page_of_every_demo_pdf_carries_the_mark(demo, name):
+    out, _ = demo
+    texts = _page_texts(out / name)
+    assert texts
+    unmarked = [i + 1 for i, text in enumerate(texts) if text.count(MARK) < 2]  # top band and foot band
+    assert not unmarked, f"{name}: pages without the invented-data mark at top and foot: {unmarked}"
+
+
+@pytest.mark.parametrize("folder", ["sheet-previews", "review-previews"])
+def test_every_preview_shows_the_black_band(demo, folder):
+    out, _ = demo
+    pngs = sorted((out / folder).glob("*.png"))
+    assert pngs
+    for png in pngs:
+        grey = np.asarray(Image.open(png).convert("L"), dtype=float)
+        top = grey[: grey.shape[0] // 12]
+        # a band: some row of the top twelfth is mostly black (white letters take less than half of it)
+        assert (top < 60).mean(axis=1).max() > 0.5, f"{png.name}: no black band at the top"
+
+
+def test_the_demo_says_so_last_and_its_documents_record_it(demo):
+    out, output = demo
+    assert MARK in output.strip().splitlines()[-1]
+    assert load_sheet(out / "sheet.json")["invented_data"] is True
+    for name in ("true.model.json", "fitted.model.json", "edited.model.json"):
+        assert '"invented_data": true' in (out / name).read_text()
+
+
+def test_a_model_not_marked_invented_prints_no_mark(tmp_path, demo):
+    """Only invented-data outputs carry the mark: the same sheet without the flag prints none."""
+    out, _ = demo
+    from scorecard.jsondoc import read_json_file
+    from scorecard.sheet import save_sheet
+
+    doc = read_json_file(out / "sheet.json", "sheet")
+    del doc["invented_data"]
+    save_sheet(doc, tmp_path / "real.sheet.json")
+    result = CliRunner().invoke(main, ["render", str(tmp_path / "real.sheet.json"), "-o", str(tmp_path / "real.pdf")])
+    assert result.exit_code == 0, result.output
+    assert not any("INVENTED" in text for text in _page_texts(tmp_path / "real.pdf"))
