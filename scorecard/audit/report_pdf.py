@@ -276,18 +276,19 @@ def report_pdf_bytes(report: dict, cautions: list[str]) -> bytes:
     story += [KeepTogether(heading + ([blocks[0]] if blocks else []))] + blocks[1:]
 
     return report_document_bytes(story, cautions, sheet["short_fingerprint"], title=f"Agreement report {sheet['short_fingerprint']}",
-                                 subject=sheet["title"], author="scorecard check")
+                                 subject=sheet["title"], author="scorecard check",
+                                 invented=bool(sheet.get("invented_data")))
 
 
 def report_document_bytes(story: list, cautions: list[str], short_fingerprint: str, title: str, subject: str, author: str,
-                          footer: str = "Sheet fingerprint") -> bytes:
+                          footer: str = "Sheet fingerprint", invented: bool = False) -> bytes:
     """A report's flowables as A4 PDF bytes with the cautions, the fingerprint and 'page x of y' on every page
     (deterministic: reportlab's invariant mode and fixed metadata). Shared by every report verb."""
     regular, bold = _fonts()
     caution_text = "  ".join(cautions)
 
     def on_page(canvas, doc):
-        if sheet.get("invented_data"):  # scorecard.invented: black bands at the top and the foot of every page
+        if invented:  # scorecard.invented: black bands at the top and the foot of every page
             page_w, page_h = A4
             draw_band(canvas, 15 * mm, page_w - 30 * mm, page_h - 5 * mm, bold, 8)
             draw_band(canvas, 15 * mm, page_w - 30 * mm, 24 * mm, bold, 8)  # above the cautions
