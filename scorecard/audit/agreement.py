@@ -61,14 +61,58 @@ def outcome_values(frame: pd.DataFrame, column: str | None) -> np.ndarray | None
     return flag_column(frame, column)
 
 
-def _risk_errors(diff: np.ndarray, limit: float) -> dict:
+def _risk_errors(diff: np.ndarray, limit: float, percentile: float) -> dict:
     a = np.abs(diff)
     return {
         "max_abs_risk_error": float(a.max()),
         "p99_abs_risk_error": float(np.percentile(a, 99)),
+        "p95_abs_risk_error": float(np.percentile(a, 95)),
+        "risk_error_percentile": float(percentile),
+        "percentile_abs_risk_error": float(np.percentile(a, percentile)),
         "mean_abs_risk_error": float(a.mean()),
         "share_over_risk_error": float((a > limit + _SLACK).mean()),
     }
+
+
+def per_patient_bounds(bound: dict, agreement: dict, certificate: dict) -> tuple[list[dict], list[dict]]:
+    """The per-patient bounds of a sheet judged on figures computed from per-patient arrays: (judged, not
+    bounded). Each judged entry is PASS/FAIL against the sheet's own bound; a figure no bound covers is
+    listed as not bounded and is never counted as a pass. Band agreement leads, then the percentile and the
+    largest |Δrisk|, then the certificate's worst case (docs/audit.md)."""
+    pp = lambda v: f"{v * 100:.2f} percentage points"  # noqa: E731
+    judged, free = [], []
+
+    def add(name: str, what: str, value, limit, at_least: bool, shown: str, limit_shown: str) -> None:
+        if value is None:
+            return
+        if limit is None:
+            free.append({"name": name, "what": what, "value": value, "shown": shown})
+            return
+        ok = value >= limit - _SLACK if at_least else value <= limit + _SLACK
+        judged.append(_bound(name, what, value, limit, ok, f"{shown} vs {'at least ' if at_least else ''}{limit_shown}"))
+
+    share = agreement.get("band_agreement")
+    add("band_agreement", "share of patients in the same risk band on the sheet as by the exact model", share,
+        bound.get("min_band_agreement"), True, "–" if share is None else f"{share:.2%}",
+        "" if bound.get("min_band_agreement") is None else f"{bound['min_band_agreement']:.2%}")
+    q = agreement["risk_error_percentile"]
+    limit = bound.get("max_percentile_risk_error")
+    add("percentile_risk_error", f"{q:g}th percentile of |risk difference|", agreement["percentile_abs_risk_error"], limit, False,
+        pp(agreement["percentile_abs_risk_error"]), "" if limit is None else pp(limit))
+    limit = bound.get("max_largest_risk_error")
+    add("largest_risk_error", "largest |risk difference| of any patient", agreement["max_abs_risk_error"], limit, False,
+        pp(agreement["max_abs_risk_error"]), "" if limit is None else pp(limit))
+    if q != 99:
+        free.append({"name": "p99_risk_error", "what": "99th percentile of |risk difference|", "value": agreement["p99_abs_risk_error"],
+                     "shown": pp(agreement["p99_abs_risk_error"])})
+    free.append({"name": "mean_risk_error", "what": "mean |risk difference|", "value": agreement["mean_abs_risk_error"],
+                 "shown": pp(agreement["mean_abs_risk_error"])})
+    limit = bound.get("max_certificate_risk_error")
+    add("certificate_size", "the certificate's worst case: largest risk error any combination of inputs can give, at any total",
+        float(certificate["max_risk_error"]), limit, False,
+        f"{pp(float(certificate['max_risk_error']))} ({float(certificate['max_logodds_error']):.2f} log-odds)",
+        "" if limit is None else pp(limit))
+    return judged, free
 
 
 def _band_matrix(sheet: dict, model_risk: np.ndarray, scored: ScoredCohort) -> dict | None:
@@ -180,7 +224,7 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
         "auc_loss": auc_model - auc_sheet,
         "auc_loss_ci": list(ci),
         "bootstrap_replicates": replicates,
-        **_risk_errors(diff, float(bound["max_risk_error"])),
+        **_risk_errors(diff, float(bound["max_risk_error"]), float(bound.get("risk_error_percentile", 95))),
         "calibration_intercept": cal_a,
         "calibration_slope": cal_b,
         "brier_basis": basis,
@@ -205,7 +249,8 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
     most_rows = max((n for t in sheet["terms"] for n in _rows_per_block(t)), default=0)
     share = agreement["share_over_risk_error"]
     span = int(sheet["total"]["max"]) - int(sheet["total"]["min"])
-    checks = [
+    per_patient, not_bounded = per_patient_bounds(bound, agreement, cert)
+    checks = per_patient + [
         _bound("model", "the model is the one the sheet was built from (fingerprint)", model.fingerprint,
                sheet["model"]["fingerprint"], model_matches, "same fingerprint" if model_matches else "DIFFERENT model (overridden)"),
         _bound("conversion", "conversion risks equal logistic(offset + log-odds per point x total)", conversion_error,
@@ -216,10 +261,12 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
         _bound("risk_error_share", f"share of patients with |risk difference| > {bound['max_risk_error'] * 100:g} percentage points",
                share, bound["risk_error_share"], share <= bound["risk_error_share"] + _SLACK,
                f"{share:.2%} vs {bound['risk_error_share']:.2%}"),
-        _bound("certificate_logodds", "no patient inside the training ranges is further from the model than the certificate (log-odds)",
+        _bound("certificate_logodds", "the sheet keeps its own certificate: no patient inside the training ranges is further "
+               "from the model than it states (log-odds; a FAIL is a quantizer bug)",
                worst_inside, cert["max_logodds_error"], worst_inside <= float(cert["max_logodds_error"]) + _SLACK,
                f"worst {worst_inside:.4f} vs {float(cert['max_logodds_error']):.4f} ({int(inside.sum())} patients inside)"),
-        _bound("certificate_risk", "no patient inside the training ranges exceeds the certificate's risk error at their total",
+        _bound("certificate_risk", "the sheet keeps its own certificate: no patient inside the training ranges exceeds its "
+               "risk error at their total",
                int(over_chart.sum()), 0, not over_chart.any(), f"{int(over_chart.sum())} patients over"),
         _bound("rows", "printed rows per block at most the bound", most_rows, bound["max_rows"],
                most_rows <= bound["max_rows"], f"{most_rows} vs {bound['max_rows']}"),
@@ -239,17 +286,33 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
         "cohort": {"source": source_of(frame), "n": int(len(frame)), "outcome_column": outcome,
                    "outside_training": int(scored.outside_training.sum())},
         "bounds": checks,
+        "not_bounded": not_bounded,
         "agreement": agreement,
         "band_matrix": bands,
         "against_outcomes": _against_outcomes(y, model_lo, model_risk, scored, sheet_lo) if has_outcomes else None,
         "certificate": {"max_logodds_error": float(cert["max_logodds_error"]), "worst_inside": worst_inside,
-                        "patients_inside": int(inside.sum()), "over_risk_chart": int(over_chart.sum())},
+                        "max_risk_error": float(cert["max_risk_error"]),
+                        "patients_inside": int(inside.sum()), "over_risk_chart": int(over_chart.sum()),
+                        "by_total": certificate_by_total(sheet)},
         "stored_achieved": sheet.get("achieved"),
         "histogram": {"unit": "percentage points (sheet risk - model risk)", "edges": edges.tolist(), "counts": counts.tolist()},
         "largest": _largest(sheet, model, scored, parts, model_risk, diff, TOP_PATIENTS),
         "warnings": list(scored.warnings),
         "notes": list(scored.notes) + [f"model: {line}" for line in model_report.lines()],
     })
+
+
+def certificate_by_total(sheet: dict) -> list[dict]:
+    """For every total: the conversion risk and the range the exact model's risk of a patient with that total
+    can lie in whatever the inputs, logistic(offset + scale x total -/+ the certificate's log-odds bound),
+    recomputed from the sheet's scale and certificate."""
+    scale, bound = sheet["scale"], float(sheet["certificate"]["max_logodds_error"])
+    out = []
+    for c in sheet["conversion"]:
+        z = float(scale["offset"]) + float(scale["logodds_per_point"]) * int(c["total"])
+        low, high = logistic(np.array([z - bound, z + bound]))
+        out.append({"total": int(c["total"]), "risk": float(c["risk"]), "model_risk_low": float(low), "model_risk_high": float(high)})
+    return out
 
 
 def _without_nan(value):

@@ -160,14 +160,39 @@ def calibration_drawing(outcomes: dict) -> Drawing:
 # -- the document -----------------------------------------------------------------------------------
 
 
-def _bounds_table(report: dict, s: dict) -> Table:
+PER_PATIENT = ("band_agreement", "percentile_risk_error", "largest_risk_error")
+
+
+def _bounds_table(report: dict, s: dict, lead: bool) -> Table:
+    """Each bound PASS or FAIL, then every figure no bound covers, marked not bounded: the per-patient ones
+    (`lead`, in the order of PER_PATIENT) or all the others."""
+    def pick(items):
+        return [b for n in PER_PATIENT for b in items if b["name"] == n] if lead else [b for b in items if b["name"] not in PER_PATIENT]
     rows = [["check", "figure", "result"]]
     extra = []
-    for i, b in enumerate(report["bounds"], start=1):
+    for i, b in enumerate(pick(report["bounds"]), start=1):
         rows.append([_p(b["what"], s["cell"]), _p(b["shown"], s["cell"]), "PASS" if b["pass"] else "FAIL"])
         extra.append(("TEXTCOLOR", (2, i), (2, i), PASS_COLOUR if b["pass"] else FAIL_COLOUR))
         extra.append(("FONTNAME", (2, i), (2, i), _fonts()[1]))
-    return _table(rows, [95 * mm, 62 * mm, 17 * mm], extra=extra)
+    for f in pick(report.get("not_bounded", [])):
+        rows.append([_p(f["what"], s["cell"]), _p(f["shown"], s["cell"]), _p("not bounded", s["cell"])])
+        extra.append(("TEXTCOLOR", (2, len(rows) - 1), (2, len(rows) - 1), colors.HexColor("#555555")))
+    return _table(rows, [95 * mm, 62 * mm, 22 * mm], extra=extra)
+
+
+def _certificate_table(report: dict) -> Table:
+    """Per total: the risk printed and the range the exact model's risk can take for a patient with that total,
+    whatever their inputs (the certificate, recomputed from the sheet)."""
+    rows = [["total", "sheet risk", "model risk can be anywhere in"] * 2]
+    entries = report["certificate"]["by_total"]
+    half = (len(entries) + 1) // 2
+    for k in range(half):
+        line = []
+        for e in (entries[k], entries[k + half] if k + half < len(entries) else None):
+            line += ["", "", ""] if e is None else [str(e["total"]), _pct(e["risk"], 1),
+                                                     f"{e['model_risk_low'] * 100:.1f}% to {e['model_risk_high'] * 100:.1f}%"]
+        rows.append(line)
+    return _table(rows, [14 * mm, 20 * mm, 55 * mm] * 2)
 
 
 def _figures_table(report: dict) -> Table:
@@ -178,6 +203,7 @@ def _figures_table(report: dict) -> Table:
         ("AUC loss (model − sheet)", "auc_loss", _num),
         ("max |Δrisk|", "max_abs_risk_error", _pct),
         ("99th percentile |Δrisk|", "p99_abs_risk_error", _pct),
+        ("95th percentile |Δrisk|", "p95_abs_risk_error", _pct),
         ("mean |Δrisk|", "mean_abs_risk_error", lambda v: _pct(v, 3)),
         ("share with |Δrisk| over the bound", "share_over_risk_error", _pct),
         ("calibration intercept (model risk on sheet log-odds)", "calibration_intercept", _num),
@@ -250,11 +276,15 @@ def report_pdf_bytes(report: dict, cautions: list[str]) -> bytes:
     story.append(_p(f"Outcome: {outcome['event']}, {outcome['horizon']}; population: {outcome['population']}.", s["body"]))
     story.append(Spacer(1, 3 * mm))
     failed = [b for b in report["bounds"] if not b["pass"]]
-    story.append(_p("ALL CHECKS PASS" if not failed else f"{len(failed)} CHECK{'S' if len(failed) > 1 else ''} FAIL: "
+    story.append(_p("EVERY BOUND SET ON THIS SHEET PASSES" if not failed else f"{len(failed)} CHECK{'S' if len(failed) > 1 else ''} FAIL: "
                     + ", ".join(b["name"] for b in failed), s["verdict_pass" if not failed else "verdict_fail"]))
     for w in report["warnings"]:
         story.append(_p(w, s["warning"]))
-    story += [_p("Bounds set for this sheet", s["h"]), _bounds_table(report, s)]
+    lead = [b for b in report["bounds"] if b["name"] in PER_PATIENT] + [f for f in report.get("not_bounded", []) if f["name"] in PER_PATIENT]
+    if lead:
+        story += [_p("What one patient reads: band, typical and largest risk difference", s["h"]),
+                  _bounds_table(report, s, lead=True)]
+    story += [_p("The other bounds set for this sheet, and the figures it does not bound", s["h"]), _bounds_table(report, s, lead=False)]
     story += [_p("Sheet against the exact model on this cohort", s["h"]),
               _p(f"AUC and Brier score against {report['agreement']['auc_basis']}. Δrisk = risk read from the sheet's "
                  "conversion table − risk from the exact model. Calibration: logistic fit of the model's risk on the "
@@ -266,6 +296,15 @@ def report_pdf_bytes(report: dict, cautions: list[str]) -> bytes:
     if report["against_outcomes"]:
         o = report["against_outcomes"]
         story.append(KeepTogether([_p("Against observed outcomes", s["h"]), _outcomes_table(o), Spacer(1, 2 * mm), calibration_drawing(o)]))
+    if report["certificate"].get("by_total"):
+        c = report["certificate"]
+        story.append(KeepTogether([
+            _p("The certificate, per total (worst case over every combination of inputs)", s["h"]),
+            _p(f"No patient inside the training ranges is further than {c['max_logodds_error']:.2f} log-odds from the exact "
+               f"model, so the model's risk of a patient with a given total lies in the range shown. "
+               + ("This worst case is bounded by the sheet (see the bounds above)." if any(b["name"] == "certificate_size" for b in report["bounds"])
+                  else "The sheet sets no bound on this worst case: it is not bounded, whatever the checks above say."), s["small"]),
+            Spacer(1, 1.5 * mm), _certificate_table(report)]))
     for note in report["notes"]:
         story.append(_p(f"Note: {note}", s["small"]))
     heading = [_p(f"The {len(report['largest'])} patients with the largest disagreement", s["h"]),
@@ -276,14 +315,14 @@ def report_pdf_bytes(report: dict, cautions: list[str]) -> bytes:
     story += [KeepTogether(heading + ([blocks[0]] if blocks else []))] + blocks[1:]
 
     return report_document_bytes(story, cautions, sheet["short_fingerprint"], title=f"Agreement report {sheet['short_fingerprint']}",
-                                 subject=sheet["title"], author="scorecard check",
-                                 invented=bool(sheet.get("invented_data")))
+                                 subject=sheet["title"], author="scorecard check", invented=bool(sheet.get("invented_data")))
 
 
 def report_document_bytes(story: list, cautions: list[str], short_fingerprint: str, title: str, subject: str, author: str,
                           footer: str = "Sheet fingerprint", invented: bool = False) -> bytes:
     """A report's flowables as A4 PDF bytes with the cautions, the fingerprint and 'page x of y' on every page
-    (deterministic: reportlab's invariant mode and fixed metadata). Shared by every report verb."""
+    (deterministic: reportlab's invariant mode and fixed metadata), and the invented-data bands when `invented`.
+    Shared by every report verb."""
     regular, bold = _fonts()
     caution_text = "  ".join(cautions)
 

@@ -89,12 +89,25 @@ def command(sheet_path, model_path, cohort_path, output, json_path, outcome, rep
     atomic_write_bytes(out, report_pdf_bytes(report, sheet.get("cautions") or CAUTIONS), protect=inputs)
     if json_out is not None:
         atomic_write_text(json_out, pretty_text({**report, "cautions": sheet.get("cautions") or CAUTIONS}), protect=inputs)
-    a = report["agreement"]
-    loss = "not computable" if a["auc_loss"] is None else f"{a['auc_loss']:.4f}"
-    if a["auc_loss"] is not None and None not in a["auc_loss_ci"]:
-        loss += f" (95% CI {a['auc_loss_ci'][0]:.4f} to {a['auc_loss_ci'][1]:.4f})"
-    say(f"AUC loss {loss}, max |risk difference| {a['max_abs_risk_error'] * 100:.2f} percentage points; report written to {out}")
+    for line in summary_lines(report):
+        say(line)
+    say(f"report written to {out}")
     failed = [b for b in report["bounds"] if not b["pass"]]
     if failed:
         raise CheckFailed("; ".join(f"{b['name']}: {b['shown']}" for b in failed))
-    say("all checks pass")
+
+
+def summary_lines(report: dict) -> list[str]:
+    """The terminal summary: the per-patient figures first (band agreement, percentile, largest |Δrisk|), then
+    the rest, each PASS or FAIL against the sheet's bound; a figure no bound covers is named as not bounded,
+    never as passing."""
+    lead = ("band_agreement", "percentile_risk_error", "largest_risk_error")
+    judged = [(b["name"], f"{b['what']}: {b['shown']}: {'PASS' if b['pass'] else 'FAIL'}") for b in report["bounds"]]
+    free = [(f["name"], f"{f['what']}: {f['shown']}: not bounded (the sheet makes no promise on it)")
+            for f in report.get("not_bounded", [])]
+    lines = [line for name in lead for n, line in judged + free if n == name]
+    lines += [line for n, line in judged + free if n not in lead]
+    if not any(not b["pass"] for b in report["bounds"]):
+        lines.append(f"every bound set on this sheet passes ({len(report['bounds'])} checks)"
+                     + (f"; {len(free)} figures are not bounded (above)" if free else ""))
+    return lines

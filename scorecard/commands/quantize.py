@@ -13,6 +13,67 @@ from scorecard.tabular import read_csv
 _DEFAULT = Bound()
 
 
+class OptionalFraction(click.ParamType):
+    """A fraction from 0 to 1, or `none` for a bound that is not set (its figure is then reported as not bounded)."""
+
+    name = "FRACTION|none"
+
+    def convert(self, value, param, ctx):
+        if value is None or isinstance(value, float):
+            return value
+        text = str(value).strip().lower()
+        if text in ("none", "off", "no"):
+            return None
+        try:
+            return float(text)
+        except ValueError:
+            self.fail(f"{value!r} is not a fraction; give e.g. 0.05 (5 percentage points) or none", param, ctx)
+
+
+def _shown(value) -> str:
+    return "none" if value is None else f"{value:g}"
+
+
+def summary_lines(doc: dict) -> list[str]:
+    """What the sheet achieves, per-patient figures first, each against its bound or marked not bounded.
+    Spelled out: "points" on a sheet are sheet points, so risk differences are always "percentage points"."""
+    a, b, cert = doc["achieved"], doc["bound"], doc["certificate"]
+    pp = lambda v: f"{v * 100:.1f} percentage points"  # noqa: E731
+
+    def judged(text: str, value, limit, shown: str, at_least: bool = False) -> str:
+        if limit is None:
+            return f"  {text}: not bounded"
+        ok = value >= limit if at_least else value <= limit
+        return f"  {text} ({'at least' if at_least else 'bound'} {shown}): {'meets' if ok else 'MISSES'}"
+
+    def share(limit) -> str:
+        return "" if limit is None else f"{limit:.0%}"
+
+    def points(limit) -> str:
+        return "" if limit is None else f"{limit * 100:g} percentage points"
+
+    lines = [f"sheet: {doc['report']['printed_rows']} printed rows, total points {doc['total']['min']} to {doc['total']['max']}, "
+             f"one point = {doc['scale']['logodds_per_point']:.3g} log-odds",
+             f"achieved on {doc['provenance']['evaluation']}:"]
+    if a.get("band_agreement") is not None:
+        lines.append(judged(f"same risk band as the exact model for {a['band_agreement']:.1%} of patients", a["band_agreement"],
+                            b.get("min_band_agreement"), share(b.get("min_band_agreement")), at_least=True))
+    q = b.get("risk_error_percentile", 95)
+    at_q = a.get("percentile_abs_risk_error", a["p95_abs_risk_error"])
+    lines.append(judged(f"{q:g}th percentile |sheet risk - model risk| {pp(at_q)}", at_q, b.get("max_percentile_risk_error"),
+                        points(b.get("max_percentile_risk_error"))))
+    lines.append(judged(f"largest |sheet risk - model risk| {pp(a['max_abs_risk_error'])}", a["max_abs_risk_error"],
+                        b.get("max_largest_risk_error"), points(b.get("max_largest_risk_error"))))
+    lines.append(judged(f"AUC loss {a['auc_loss']:.4f}", a["auc_loss"], b["max_auc_loss"], f"{b['max_auc_loss']:g}"))
+    lines.append(judged(f"{a['share_over_risk_error']:.1%} of patients misstated by more than {b['max_risk_error'] * 100:g} "
+                        "percentage points", a["share_over_risk_error"], b["risk_error_share"], share(b["risk_error_share"])))
+    lines.append(f"  99th percentile {pp(a['p99_abs_risk_error'])}, mean {pp(a['mean_abs_risk_error'])}: not bounded")
+    lines.append(judged(f"certificate (worst case over every combination of inputs) {cert['max_logodds_error']:.2f} log-odds, "
+                        f"up to {pp(cert['max_risk_error'])} of risk at some total", cert["max_risk_error"],
+                        b.get("max_certificate_risk_error"), points(b.get("max_certificate_risk_error"))))
+    return lines
+
+
 @click.command()
 @click.argument("model_path", metavar="MODEL.json", type=click.Path())
 @click.option("--data", "data_path", metavar="COHORT.csv", type=click.Path(),
@@ -25,6 +86,19 @@ _DEFAULT = Bound()
                    "(a fraction: 0.10 = 10 percentage points).")
 @click.option("--risk-error-share", type=float, default=_DEFAULT.risk_error_share, show_default=True,
               help="Largest allowed share of patients misstated by more than --max-risk-error.")
+@click.option("--min-band-agreement", type=OptionalFraction(), default=_shown(_DEFAULT.min_band_agreement), show_default=True,
+              help="Smallest allowed share of patients whose band on the sheet is the band the exact model gives them "
+                   "(used when --bands is given; none = not bounded).")
+@click.option("--risk-error-percentile", type=click.FloatRange(0, 100, min_open=True), default=_DEFAULT.risk_error_percentile,
+              show_default=True, help="Which percentile of |sheet risk - model risk| --max-percentile-risk-error bounds (95 = p95).")
+@click.option("--max-percentile-risk-error", type=OptionalFraction(), default=_shown(_DEFAULT.max_percentile_risk_error),
+              show_default=True, help="Largest allowed value of that percentile of |sheet risk - model risk| "
+                                      "(0.05 = 5 percentage points; none = not bounded).")
+@click.option("--max-largest-risk-error", type=OptionalFraction(), default=_shown(_DEFAULT.max_largest_risk_error),
+              show_default=True, help="Largest allowed |sheet risk - model risk| of any patient judged on (none = not bounded).")
+@click.option("--max-certificate-risk-error", type=OptionalFraction(), default=_shown(_DEFAULT.max_certificate_risk_error),
+              show_default=True, help="Largest allowed worst case of the certificate (any inputs, any total); none = not "
+                                      "bounded, and the certificate is then reported as such, never as a pass.")
 @click.option("--max-rows", type=int, default=_DEFAULT.max_rows, show_default=True,
               help="Most rows for one measured feature (and per axis of a pair grid).")
 @click.option("--max-total-points", type=int, default=_DEFAULT.max_total_points, show_default=True,
@@ -40,7 +114,8 @@ _DEFAULT = Bound()
 @click.option("--bootstrap", type=click.IntRange(0, 10000), default=200, show_default=True,
               help="Bootstrap resamples for the ΔAUC interval (0 = none).")
 @click.option("-o", "--output", "output", required=True, type=click.Path(), help="Sheet document to write (*.sheet.json).")
-def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_share, max_rows, max_total_points,
+def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_share, min_band_agreement, risk_error_percentile,
+            max_percentile_risk_error, max_largest_risk_error, max_certificate_risk_error, max_rows, max_total_points,
             max_row_error, bands, allow_negative, merge_equal_levels, title, bootstrap, output) -> None:
     """Quantise MODEL.json into integer point tables that meet an accuracy bound.
 
@@ -61,7 +136,10 @@ def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_shar
     """
     out = output_path(output, model_path, *( [data_path] if data_path else []))
     bound = Bound(max_auc_loss=max_auc_loss, max_risk_error=max_risk_error, risk_error_share=risk_error_share,
-                  max_rows=max_rows, max_total_points=max_total_points, max_row_error=max_row_error)
+                  max_rows=max_rows, max_total_points=max_total_points, max_row_error=max_row_error,
+                  min_band_agreement=min_band_agreement, risk_error_percentile=risk_error_percentile,
+                  max_percentile_risk_error=max_percentile_risk_error, max_largest_risk_error=max_largest_risk_error,
+                  max_certificate_risk_error=max_certificate_risk_error)
     bound.check()
     band_list = parse_bands(bands)
     model = load_model(model_path)
@@ -69,16 +147,8 @@ def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_shar
     doc = quantize_model(model, data=data, bound=bound, bands=band_list, allow_negative=allow_negative,
                          merge_equal_levels=merge_equal_levels, bootstrap=bootstrap, title=title, progress=say)
     save_sheet(doc, out, protect=(model_path, data_path) if data_path else (model_path,))
-    a = doc["achieved"]
-    # spelled out: "points" on a sheet are sheet points, so risk differences are always "percentage points"
-    say(f"sheet: {doc['report']['printed_rows']} printed rows, total points {doc['total']['min']} to {doc['total']['max']}, "
-        f"one point = {doc['scale']['logodds_per_point']:.3g} log-odds")
-    say(f"achieved: AUC loss {a['auc_loss']:.4f} (bound {bound.max_auc_loss:g}); "
-        f"{a['share_over_risk_error']:.1%} of patients misstated by more than {bound.max_risk_error * 100:g} percentage points "
-        f"(bound {bound.risk_error_share:.0%}); |sheet risk - model risk|: 99th percentile {a['p99_abs_risk_error'] * 100:.1f}, "
-        f"mean {a['mean_abs_risk_error'] * 100:.1f} percentage points")
-    say(f"certificate: inside the training ranges no patient is further than {doc['certificate']['max_logodds_error']:.2f} "
-        f"log-odds ({doc['certificate']['max_risk_error'] * 100:.1f} percentage points of risk) from the model")
+    for line in summary_lines(doc):
+        say(line)
     extra = doc["report"]["readability"]["extra_error_share"]
     say(f"readable cut-points cost {extra:+.0%} error before rounding (vs cuts anywhere between model bins)")
     for d in doc["dropped_terms"]:

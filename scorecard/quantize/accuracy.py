@@ -71,8 +71,11 @@ def recalibration(p: np.ndarray, logodds: np.ndarray, iterations: int = 50) -> t
     return float(beta[0]), float(beta[1])
 
 
-def quick_figures(model_logodds: np.ndarray, sheet_logodds: np.ndarray, max_risk_error: float, auc_model: float | None = None) -> dict:
-    """The two figures the search checks against the bound: ΔAUC and the share over the risk bound."""
+def quick_figures(model_logodds: np.ndarray, sheet_logodds: np.ndarray, max_risk_error: float, auc_model: float | None = None,
+                  bands: list[dict] | None = None, percentile: float = 95.0) -> dict:
+    """The figures the search judges a sheet by: ΔAUC, the share over the risk bound, the `percentile`-th
+    percentile, mean and largest |Δrisk|, and band agreement (None without bands). Arrays in, so any caller
+    holding per-patient model and sheet log-odds can reuse it."""
     p = logistic(model_logodds)
     q = logistic(sheet_logodds)
     auc_model = expected_auc(p, model_logodds) if auc_model is None else auc_model
@@ -81,7 +84,10 @@ def quick_figures(model_logodds: np.ndarray, sheet_logodds: np.ndarray, max_risk
         "auc_loss": auc_model - expected_auc(p, sheet_logodds),
         "share_over_risk_error": float(np.mean(err > max_risk_error)),
         "p95_abs_risk_error": float(np.quantile(err, 0.95)),
+        "percentile_abs_risk_error": float(np.quantile(err, percentile / 100)),
         "mean_abs_risk_error": float(err.mean()),
+        "max_abs_risk_error": float(err.max()),
+        "band_agreement": float(np.mean(band_index(bands, p) == band_index(bands, q))) if bands else None,
     }
 
 
@@ -91,7 +97,7 @@ def band_index(bands: list[dict], risk: np.ndarray) -> np.ndarray:
 
 
 def full_figures(model_logodds: np.ndarray, sheet_logodds: np.ndarray, max_risk_error: float, bands: list[dict],
-                 bootstrap: int = 200, seed: int = 0) -> dict:
+                 bootstrap: int = 200, seed: int = 0, percentile: float = 95.0) -> dict:
     """Every figure of the sheet document's `achieved` block (risks as fractions)."""
     p = logistic(model_logodds)
     q = logistic(sheet_logodds)
@@ -120,6 +126,7 @@ def full_figures(model_logodds: np.ndarray, sheet_logodds: np.ndarray, max_risk_
         "max_abs_risk_error": float(err.max()),
         "p99_abs_risk_error": float(np.quantile(err, 0.99)),
         "p95_abs_risk_error": float(np.quantile(err, 0.95)),
+        "percentile_abs_risk_error": float(np.quantile(err, percentile / 100)),
         "mean_abs_risk_error": float(err.mean()),
         "share_over_risk_error": float(np.mean(err > max_risk_error)),
         "calibration_intercept": intercept,

@@ -35,8 +35,11 @@ def certificate(piece_errors: dict[str, np.ndarray], offset: float, intercept: f
         z = offset + scale * total
         r = float(logistic(np.array([z]))[0])
         up = float(logistic(np.array([z + bound]))[0]) - r
-        down = r - float(logistic(np.array([z - bound]))[0])
-        by_total.append({"total": total, "max_risk_error": min(1.0, max(up, down) + risk_text_rounding(r))})
+        low = float(logistic(np.array([z - bound]))[0])
+        down = r - low
+        # the model's risk of a patient with this total lies in [low, high] whatever their inputs
+        by_total.append({"total": total, "max_risk_error": min(1.0, max(up, down) + risk_text_rounding(r)),
+                         "model_risk_low": low, "model_risk_high": r + up})
     return {
         "per_term": per_term,
         "offset_error": offset_error,

@@ -84,7 +84,8 @@ def test_bootstrap_interval_is_seeded_and_brackets_the_estimate():
 @pytest.fixture(scope="module")
 def demo():
     model = true_model()
-    sheet = quantize_model(model, bound=Bound(max_auc_loss=0.01, max_risk_error=0.1, risk_error_share=0.05), bootstrap=0)
+    sheet = quantize_model(model, bound=Bound(max_auc_loss=0.01, max_risk_error=0.1, risk_error_share=0.05,
+                                             min_band_agreement=None, max_percentile_risk_error=None, max_largest_risk_error=None), bootstrap=0)
     sheet["fingerprint"] = sheet_fingerprint(sheet)
     cohort = generate_cohort(4000, seed=11)
     frame = pd.read_csv(io.StringIO(cohort_csv_text(cohort)), dtype=str, keep_default_na=False)

@@ -1,6 +1,10 @@
 """Small additive models built by hand for the quantizer tests (invented shapes, demo-like features)."""
 
+import math
+
 import numpy as np
+
+from scorecard.sheet import row_index
 
 
 def _continuous(name, label, unit, decimals, lo, hi, shape, missing="error"):
@@ -43,3 +47,43 @@ def small_model_dict(with_pair: bool = True) -> dict:
         "outcome": {"event": "delirium", "horizon": "5 days", "population": "invented test population"},
         "link": "logit", "intercept": -1.4, "features": features, "terms": terms, "provenance": {"source": "tests"},
     }
+
+
+# tests of other parts of the search set only the population bounds (ΔAUC, share misstated)
+POPULATION_ONLY = {"min_band_agreement": None, "max_percentile_risk_error": None, "max_largest_risk_error": None}
+
+
+# how a nurse reads a sheet document: round half up, find the row, add the points (independent of quantize)
+def sheet_total(doc: dict, patient: dict) -> int:
+    total = 0
+    for term in doc["terms"]:
+        if term["kind"] == "pair":
+            idx = []
+            for axis in term["axes"]:
+                v = patient[axis["feature"]]
+                if v is None or (isinstance(v, float) and math.isnan(v)):
+                    idx = None
+                    break
+                idx.append(axis_row(axis, v))
+            total += term["missing_points"] if idx is None or -1 in idx else term["points"][idx[0]][idx[1]]
+            continue
+        v = patient[term["feature"]]
+        missing = v is None or (isinstance(v, float) and math.isnan(v))
+        if term["kind"] == "continuous":
+            i = row_index(term["rows"], None if missing else v, term["decimals"])
+        elif missing:
+            i = next(k for k, r in enumerate(term["rows"]) if r.get("missing"))
+        elif term["kind"] == "flag":
+            i = next(k for k, r in enumerate(term["rows"]) if r.get("value") == bool(v))
+        else:
+            i = next(k for k, r in enumerate(term["rows"]) if v in r.get("levels", []))
+        total += term["rows"][i]["points"]
+    return total
+
+
+def axis_row(axis, v):
+    if axis["kind"] == "continuous":
+        return row_index(axis["rows"], v, axis["decimals"])
+    if axis["kind"] == "flag":
+        return next(k for k, r in enumerate(axis["rows"]) if r["value"] == bool(v))
+    return next((k for k, r in enumerate(axis["rows"]) if v in r["levels"]), -1)

@@ -6,44 +6,9 @@ import math
 import numpy as np
 import pandas as pd
 
+from quantize_models import POPULATION_ONLY, sheet_total as _sheet_total
 from scorecard.model import predict_logodds
 from scorecard.quantize import Bound, quantize_model
-from scorecard.sheet import row_index
-
-
-def _sheet_total(doc: dict, patient: dict) -> int:
-    total = 0
-    for term in doc["terms"]:
-        if term["kind"] == "pair":
-            idx = []
-            for axis in term["axes"]:
-                v = patient[axis["feature"]]
-                if v is None or (isinstance(v, float) and math.isnan(v)):
-                    idx = None
-                    break
-                idx.append(_axis_row(axis, v))
-            total += term["missing_points"] if idx is None or -1 in idx else term["points"][idx[0]][idx[1]]
-            continue
-        v = patient[term["feature"]]
-        missing = v is None or (isinstance(v, float) and math.isnan(v))
-        if term["kind"] == "continuous":
-            i = row_index(term["rows"], None if missing else v, term["decimals"])
-        elif missing:
-            i = next(k for k, r in enumerate(term["rows"]) if r.get("missing"))
-        elif term["kind"] == "flag":
-            i = next(k for k, r in enumerate(term["rows"]) if r.get("value") == bool(v))
-        else:
-            i = next(k for k, r in enumerate(term["rows"]) if v in r.get("levels", []))
-        total += term["rows"][i]["points"]
-    return total
-
-
-def _axis_row(axis, v):
-    if axis["kind"] == "continuous":
-        return row_index(axis["rows"], v, axis["decimals"])
-    if axis["kind"] == "flag":
-        return next(k for k, r in enumerate(axis["rows"]) if r["value"] == bool(v))
-    return next((k for k, r in enumerate(axis["rows"]) if v in r["levels"]), -1)
 
 
 def _random_patients(rng, n):
@@ -67,7 +32,7 @@ def _random_patients(rng, n):
 
 def test_certificate_holds_for_random_and_boundary_inputs(small_model):
     doc = quantize_model(small_model, bound=Bound(max_auc_loss=0.05, max_risk_error=0.1, risk_error_share=0.3,
-                                                  max_rows=4, max_total_points=20), bootstrap=0)
+                                                  max_rows=4, max_total_points=20, **POPULATION_ONLY), bootstrap=0)
     cert = doc["certificate"]
     rng = np.random.default_rng(7)
     patients = _random_patients(rng, 3000)

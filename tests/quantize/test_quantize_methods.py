@@ -3,7 +3,7 @@
 import numpy as np
 import pytest
 
-from quantize_models import small_model_dict
+from quantize_models import POPULATION_ONLY, small_model_dict
 from scorecard.model import model_from_dict
 from scorecard.quantize import Bound, quantize_model
 from scorecard.quantize.curves import build_curves
@@ -44,7 +44,7 @@ def test_total_points_limit_is_respected():
     model = model_from_dict(small_model_dict())
     for limit in (8, 15):
         doc = quantize_model(model, bound=Bound(max_auc_loss=0.5, max_risk_error=0.5, risk_error_share=1.0,
-                                                max_rows=3, max_total_points=limit), bootstrap=0)
+                                                max_rows=3, max_total_points=limit, **POPULATION_ONLY), bootstrap=0)
         assert doc["total"]["max"] - doc["total"]["min"] <= limit
 
 

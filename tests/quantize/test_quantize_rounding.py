@@ -5,6 +5,7 @@ import itertools
 import numpy as np
 import statsmodels.api as sm
 
+from quantize_models import POPULATION_ONLY
 from scorecard.demo import true_model
 from scorecard.quantize import Bound, quantize_model
 from scorecard.quantize.points import (
@@ -84,7 +85,7 @@ def test_pair_moves_reach_the_exhaustive_optimum_on_a_tiny_problem():
 def test_the_largest_sheet_gets_the_full_rounding_before_the_bound_is_called_out_of_reach():
     # the demo's true model with a tighter row cap: the quick rounding of the largest sheet misses the ΔAUC
     # bound by a hair (0.0101), the full rounding meets it, so the command must not exit 3
-    bound = Bound(max_row_error=0.5)
+    bound = Bound(max_row_error=0.5, **POPULATION_ONLY)
     doc = quantize_model(true_model(), bound=bound, bootstrap=0)
     assert doc["achieved"]["auc_loss"] <= bound.max_auc_loss
     assert doc["achieved"]["share_over_risk_error"] <= bound.risk_error_share
@@ -94,7 +95,7 @@ def test_a_term_given_one_row_besides_not_measured_is_said_to_be_not_needed(smal
     # albumin keeps its own not-measured row; when the row search gives its measured values a single row the
     # term is left off because the bound is met without it, not because its effect rounds to 0
     doc = quantize_model(small_model, bootstrap=0,
-                         bound=Bound(max_auc_loss=0.5, max_risk_error=0.5, risk_error_share=1.0, max_rows=3))
+                         bound=Bound(max_auc_loss=0.5, max_risk_error=0.5, risk_error_share=1.0, max_rows=3, **POPULATION_ONLY))
     reasons = {d["name"]: d["reason"] for d in doc["dropped_terms"]}
     assert doc["report"]["rows_per_term"]["albumin"] == 2  # one range and the not-measured row
     assert reasons["albumin"].startswith("not needed to meet the accuracy bound")
