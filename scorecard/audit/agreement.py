@@ -196,6 +196,10 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
     say("computing the exact model")
     parts, model_report = contributions(model, _parsed_frame(frame, values, model))
     model_lo = model.intercept + parts.to_numpy().sum(axis=1)
+    recalibrated = sheet.get("recalibration")
+    if recalibrated:
+        # a locally recalibrated sheet stands for the model recalibrated the same way (docs/ward-workflow.md)
+        model_lo = recalibrated["model_logodds"]["intercept"] + recalibrated["model_logodds"]["slope"] * model_lo
     model_risk = logistic(model_lo)
     sheet_lo = sheet_logodds(sheet, scored.total)
     diff = scored.risk - model_risk
@@ -298,7 +302,10 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
         "histogram": {"unit": "percentage points (sheet risk - model risk)", "edges": edges.tolist(), "counts": counts.tolist()},
         "largest": _largest(sheet, model, scored, parts, model_risk, diff, TOP_PATIENTS),
         "warnings": list(scored.warnings),
-        "notes": list(scored.notes) + [f"model: {line}" for line in model_report.lines()],
+        "notes": list(scored.notes) + [f"model: {line}" for line in model_report.lines()] + ([
+            f"recalibrated sheet: the model's log-odds are compared as {recalibrated['model_logodds']['intercept']:+.4f} + "
+            f"{recalibrated['model_logodds']['slope']:.4f} x model log-odds, as the sheet states; the stored figures are the "
+            f"original sheet's ({recalibrated['original_fingerprint'][:12]})"] if recalibrated else []),
     })
 
 

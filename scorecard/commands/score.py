@@ -28,10 +28,12 @@ def command(sheet_path: str, cohort_path: str, output: str, model_path: str | No
 
     \b
     For each block of the sheet:
-      - a measurement is rounded half up to the decimals printed for it (36.45 at one decimal is 36.5),
-        then it belongs to the printed row with lower <= value < upper;
+      - a measurement is rounded half up to the decimals printed for it, exactly as written (36.45 at one
+        decimal is 36.5, 128.4999997 at none is 128), or cut down where its table says 'completed'
+        (79.6 completed years is 79); then it belongs to the printed row with lower <= value < upper;
       - a category finds the row listing it, a yes/no item its Yes or No row, an empty cell the
-        "not measured" row (0 points when the sheet has none);
+        "not measured" row; where a table has none the sheet says measure first, and a patient without
+        that measurement is refused (row and column named), as `--model` refuses them;
       - a pair grid is read at the row of the first item and the column of the second.
     The points are added and the total is looked up in the conversion table.
 

@@ -29,7 +29,7 @@ from scorecard.render.tables import (
     total_block,
 )
 from scorecard.render.text import markup, sheet_has_negative_points
-from scorecard.sheet.printed import number_text, units
+from scorecard.sheet.printed import MEASURE_FIRST_RULE, number_text, units
 
 
 class _SectionStart(Flowable):
@@ -96,6 +96,10 @@ class _Furniture:
             f"<b>Outcome:</b> {markup(outcome['event'])} \u00b7 <b>Horizon:</b> {markup(outcome['horizon'])} \u00b7 "
             f"<b>For:</b> {markup(outcome['population'])}", styles.small)
         self.ident = f"Fingerprint {short_fingerprint} \u00b7 model {model['name']} version {model['version']}"
+        lineage = sheet.get("recalibration")
+        if lineage:  # scorecard recalibrate: the version this one was recalibrated from, and on what
+            self.ident += (f" \u00b7 recalibrated from {lineage['original_fingerprint'][:12]} on {lineage['n']:,} patients "
+                           f"of {lineage['data']['file']}")
         self.printed_label = "Printed on:"
         self.cautions = Paragraph(markup(cautions_line(sheet, short_fingerprint)), styles.small)
         s = styles.min_pt
@@ -191,7 +195,8 @@ def _story(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: s
                 story.append(instructions_block(sheet, styles, layout.compact))
             elif part == "terms" and "instructions" not in section.parts:
                 story.append(Paragraph(markup(sheet["rounding_rule"]) + " Write the points of the patient's row in "
-                                       "the box beside each table's heading.", styles.body))
+                                       "the box beside each table's heading. " + markup(MEASURE_FIRST_RULE),
+                                       styles.body))
                 story.append(Spacer(1, styles.body_pt * 0.5))
                 story += [term_block(term, styles, signed, width) for term in sheet["terms"]]
             elif part == "terms":

@@ -12,6 +12,7 @@ from scorecard.errors import UserError
 from scorecard.pdf_plumbing import text_width
 from scorecard.render.styles import Styles
 from scorecard.render.text import MINUS, markup, points_text, term_heading
+from scorecard.sheet.printed import MEASURE_FIRST_RULE, pair_missing_text
 
 RULE = colors.Color(0.55, 0.55, 0.55)
 TINT = colors.Color(0.92, 0.92, 0.92)
@@ -140,8 +141,9 @@ def pair_block(term: dict, styles: Styles, signed: bool, width: float) -> Flowab
     for i, row in enumerate(axis0["rows"]):
         data.append([Paragraph(markup(row["text"]), styles.body)]
                     + [Paragraph(points_text(p, signed), styles.points_center) for p in term["points"][i]])
-    missing = points_text(term.get("missing_points", 0), signed)
-    data.append([Paragraph(f"If either is not measured: <b>{markup(missing)}</b>", styles.body)] + [""] * n_cols)
+    words, missing = pair_missing_text(term)
+    tail = f" <b>{markup(points_text(missing, signed))}</b>" if missing is not None else ""
+    data.append([Paragraph(markup(words) + tail, styles.body)] + [""] * n_cols)
     last = len(data) - 1
     col_widths = [first_w] + [cell_w] * n_cols
     table = NamedTable(data, colWidths=col_widths, hAlign="LEFT")
@@ -197,7 +199,8 @@ def _paragraphs(lines: list[str], style, what: str, title: str, styles: Styles, 
 def instructions_block(sheet: dict, styles: Styles, compact: bool = False) -> Flowable:
     steps = [
         f"1. {markup(sheet['rounding_rule'])}",
-        "2. In each table find the patient's row and write its points in the box beside the table's heading.",
+        "2. In each table find the patient's row and write its points in the box beside the table's heading. "
+        + markup(MEASURE_FIRST_RULE),
         "3. Add the boxes and write the sum in the TOTAL POINTS box.",
         "4. Find the total in the conversion table and read the risk.",
     ]
@@ -228,7 +231,7 @@ def ranges_block(sheet: dict, styles: Styles, training_ranges: list[str], compac
     if training_ranges:
         lines.append("The model was not trained beyond these ranges, so points for values outside them are less "
                      "certain: " + "; ".join(markup(t) for t in training_ranges) + ".")
-    lines.append("Not measured: use the \u2018not measured\u2019 row. A table without that row needs the measurement.")
+    lines.append(f"Not measured: use the \u2018not measured\u2019 row. {MEASURE_FIRST_RULE}")
     if sheet.get("dropped_terms"):
         dropped = "; ".join(markup(f"{dropped_label(sheet, d)} ({d.get('printed') or d['reason']})")
                             for d in sheet["dropped_terms"])
