@@ -3,12 +3,14 @@
 from __future__ import annotations
 
 import json
+import textwrap
 import math
 
 import click
 import numpy as np
 import pandas as pd
 
+from scorecard.cautions import cautions
 from scorecard.commands._common import FeatureValue
 from scorecard.errors import UserError
 from scorecard.model import explain, load_model
@@ -84,9 +86,8 @@ def table_text(model: AdditiveModel, result: dict, where: str) -> str:
         f"{'total log-odds':<{w_term + w_val + 2}}  {result['logodds']:>+9.3f}",
         f"{'risk':<{w_term + w_val + 2}}  {100 * result['risk']:>8.1f}%",
         "",
-        "Decision support only; it does not replace clinical judgement. Valid only for the population and outcome",
-        "stated. Associations, not causes. Follow local protocols and licensed clinicians' judgement.",
-        f"Check the model fingerprint against the approved version: {model.fingerprint}",
+        *textwrap.wrap(" ".join(cautions("this explanation", "The contributions show")), 110),
+        f"Model fingerprint: {model.fingerprint}",
     ]
     return "\n".join(lines)
 
