@@ -14,7 +14,7 @@ from scorecard.errors import CheckFailed, UserError
 
 # the order a newcomer meets the verbs in `scorecard --help`: along the pipeline
 PIPELINE_ORDER = ["demo", "fit", "import", "predict", "review", "edit", "explain", "quantize", "render", "score", "check", "verify",
-                  "compare", "recalibrate"]
+                  "compare", "recalibrate", "exercise", "mark"]
 
 
 class PipelineGroup(click.Group):
