@@ -16,6 +16,7 @@ from scorecard.errors import UserError
 from scorecard.model import AdditiveModel, contributions, logistic
 from scorecard.sheet import short_fingerprint
 from scorecard.tabular import flag_column, source_of
+from scorecard.suggest import did_you_mean
 
 REPORT_TAG = "scorecard-check-report"
 TOP_PATIENTS = 20
@@ -57,7 +58,8 @@ def outcome_values(frame: pd.DataFrame, column: str | None) -> np.ndarray | None
     if column is None:
         return None
     if column not in frame.columns:
-        raise UserError(f"{source_of(frame)}: outcome column {column!r} is not in the file; check --outcome")
+        raise UserError(f"{source_of(frame)}: outcome column {column!r} is not in the file"
+                        f"{did_you_mean(column, list(frame.columns))}; check --outcome")
     return flag_column(frame, column)
 
 

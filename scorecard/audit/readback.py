@@ -21,7 +21,7 @@ from dataclasses import dataclass
 
 from scorecard.audit.pdf_tables import HEX12, PrintedPage, PrintedTable, Row, Word, read_pdf, reading_order
 from scorecard.errors import UserError
-from scorecard.sheet.printed import band_of, pair_missing_text
+from scorecard.sheet.printed import band_of, pair_missing_text, row_label
 
 MINUS_SIGNS = ("\u2212", "-", "\u2013")
 
@@ -134,7 +134,7 @@ class _Checker:
                 continue
             page, row = printed[k]
             text, points = _split_points(row)
-            self.text(page, block, f"{name} text", text, expected["text"])
+            self.text(page, block, f"{name} text", text, row_label(term, expected))
             self.number(page, block, f"{name} ({_norm(expected['text'])}) points", points, expected["points"])
         for page, row in printed[len(term["rows"]):]:
             self.mismatches.append(Mismatch(page, block, "extra row", row.text(), "(no such row on the sheet)"))

@@ -16,6 +16,7 @@ from scorecard.errors import UserError
 from scorecard.model import explain, load_model
 from scorecard.model.document import AdditiveModel
 from scorecard.tabular import is_missing_text, read_csv
+from scorecard.suggest import did_you_mean
 
 
 def values_frame(model: AdditiveModel, pairs: tuple[tuple[str, str], ...]) -> pd.DataFrame:
@@ -25,7 +26,8 @@ def values_frame(model: AdditiveModel, pairs: tuple[tuple[str, str], ...]) -> pd
     for name, value in pairs:
         pair = f"{name}={value}"
         if name not in known:
-            raise UserError(f"--values {pair}: feature {name!r} is not in the model; known features: {', '.join(sorted(known))}")
+            raise UserError(f"--values {pair}: feature {name!r} is not in the model{did_you_mean(name, known)}; "
+                            f"known features: {', '.join(sorted(known))}")
         if name in given:
             raise UserError(f"--values {pair}: feature {name!r} is given twice")
         given[name] = value

@@ -120,14 +120,16 @@ def command(data_path, outcome, features, exclude, categorical, weights_column, 
     source = str(data_path)
     columns = list(frame.columns)
     if outcome not in columns:
-        raise UserError(f"{source}: outcome column {outcome!r} is not in the file; columns: {', '.join(columns)}")
+        raise UserError(f"{source}: outcome column {outcome!r} is not in the file{did_you_mean(outcome, columns)}; "
+                        f"columns: {', '.join(columns)}")
     chosen, excluded, as_categories = _names(features), _names(exclude), _names(categorical)
     for option, listed in (("--features", chosen), ("--exclude", excluded), ("--categorical", as_categories)):
         unknown = [c for c in listed if c not in columns]
         if unknown:
-            raise UserError(f"{source}: {option} names column {unknown[0]!r}, which is not in the file; columns: {', '.join(columns)}")
+            raise UserError(f"{source}: {option} names column {unknown[0]!r}, which is not in the file"
+                            f"{did_you_mean(unknown[0], columns)}; columns: {', '.join(columns)}")
     if weights_column and weights_column not in columns:
-        raise UserError(f"{source}: --weights column {weights_column!r} is not in the file")
+        raise UserError(f"{source}: --weights column {weights_column!r} is not in the file{did_you_mean(weights_column, columns)}")
     if outcome in chosen:
         raise UserError(f"{source}: --features lists the outcome column {outcome!r}; a model cannot use its own outcome")
     if not chosen:

@@ -13,6 +13,7 @@ from scorecard.jsondoc import atomic_write_text
 from scorecard.model import load_model, predict_logodds, logistic
 from scorecard.sheet import load_sheet
 from scorecard.tabular import read_csv
+from scorecard.suggest import did_you_mean
 
 
 @click.command()
@@ -51,7 +52,7 @@ def command(sheet_path: str, cohort_path: str, output: str, model_path: str | No
     cohort = read_csv(cohort_path)
     for name in keep:
         if name not in cohort.columns:
-            raise UserError(f"{cohort_path}: --keep column {name!r} is not in the file")
+            raise UserError(f"{cohort_path}: --keep column {name!r} is not in the file{did_you_mean(name, list(cohort.columns))}")
     model_risk = None
     if model_path:
         model = load_model(model_path)

@@ -447,9 +447,22 @@ def _zero_edit(model, term_name: str) -> dict | None:
 
 
 def _term_label(curve) -> str:
-    """What a reader knows a term by: its feature's label, or both labels for a pair."""
-    features = getattr(curve, "features", None) or [curve.feature]
-    return " and ".join(f.label for f in features)
+    """What a reader knows a term by: its feature's label; a pair is named as what it is, the combined effect
+    of its two features beyond each alone (so a left-off pair never reads as if the features were left off)."""
+    features = getattr(curve, "features", None)
+    if features:
+        return f"the combined effect of {features[0].label} and {features[1].label}, beyond each alone"
+    return curve.feature.label
+
+
+def _single_row_note(curve, lay, pts, scale: float) -> str | None:
+    """Why a measured feature prints one row for any measured value: its whole measured effect is under one
+    point, or one row already meets the accuracy bound."""
+    measured = np.unique(lay.row_of_piece[:curve.n_main])
+    if len(measured) != 1:
+        return None
+    effect = float(np.ptp(curve.scores[:curve.n_main])) / scale
+    return "its effect is under one point" if effect < 1 else "no split is needed for the sheet's accuracy"
 
 
 def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equal_levels: bool = False,
@@ -465,6 +478,9 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
             if effect == 0 and zeroed is not None:
                 reason = f"set to zero at review by {zeroed.get('by', 'an editor')}: {zeroed.get('reason') or 'no reason given'}"
                 printed = "set to zero at review; see the model's edit history"
+                feature = getattr(curve, "feature", None)
+                if feature is not None and feature.role == "care_process":
+                    printed = "a care-process marker, set to zero at review so it cannot change anyone's points"
             elif effect == 0:
                 reason = "it has no effect in the model (every score is 0)"
                 printed = "no effect in the model"
@@ -489,6 +505,9 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
             terms.append(curve.sheet_term(lay, pts.tolist(), merge_equal=merge_equal_levels))
         else:
             terms.append(curve.sheet_term(lay, pts.tolist()))
+            note = _single_row_note(curve, lay, pts, scale) if terms[-1]["kind"] == "continuous" else None
+            if note:
+                terms[-1]["single_row_note"] = note
     total_min = int(sum(min(_term_points(t)) for t in terms))
     total_max = int(sum(max(_term_points(t)) for t in terms))
     conversion = []

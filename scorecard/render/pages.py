@@ -25,6 +25,7 @@ from scorecard.render.tables import (
     cautions_line,
     instructions_block,
     ranges_block,
+    record_block,
     term_block,
     total_block,
 )
@@ -92,9 +93,10 @@ class _Furniture:
         outcome = sheet["outcome"]
         model = sheet["model"]
         self.title = Paragraph(markup(sheet["title"]), styles.title)
+        when = f" \u00b7 <b>Score:</b> {markup(outcome['score_at'])}" if outcome.get("score_at") else ""
         self.outcome = Paragraph(
             f"<b>Outcome:</b> {markup(outcome['event'])} \u00b7 <b>Horizon:</b> {markup(outcome['horizon'])} \u00b7 "
-            f"<b>For:</b> {markup(outcome['population'])}", styles.small)
+            f"<b>For:</b> {markup(outcome['population'])}{when}", styles.small)
         self.ident = f"Fingerprint {short_fingerprint} \u00b7 model {model['name']} version {model['version']}"
         lineage = sheet.get("recalibration")
         if lineage:  # scorecard recalibrate: the version this one was recalibrated from, and on what
@@ -194,15 +196,18 @@ def _story(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: s
             if part == "instructions":
                 story.append(instructions_block(sheet, styles, layout.compact))
             elif part == "terms" and "instructions" not in section.parts:
-                story.append(Paragraph(markup(sheet["rounding_rule"]) + " Write the points of the patient's row in "
-                                       "the box beside each table's heading. " + markup(MEASURE_FIRST_RULE),
+                how = (" Note the points of the patient's row in each table." if layout.compact else
+                       " Write the points of the patient's row in the box beside each table's heading.")
+                story.append(Paragraph(markup(sheet["rounding_rule"]) + how + " " + markup(MEASURE_FIRST_RULE),
                                        styles.body))
                 story.append(Spacer(1, styles.body_pt * 0.5))
                 story += [term_block(term, styles, signed, width) for term in sheet["terms"]]
             elif part == "terms":
                 story += [term_block(term, styles, signed, width) for term in sheet["terms"]]
             elif part == "total":
-                story.append(total_block(styles, width))
+                story.append(total_block(styles, width, layout.compact))
+            elif part == "record":
+                story.append(record_block(sheet, styles, width))
             elif part == "ranges":
                 story.append(ranges_block(sheet, styles, training_range_texts(sheet), layout.compact))
             elif part == "conversion_table":

@@ -17,12 +17,14 @@ from scorecard.errors import UserError
 from scorecard.model.document import AdditiveModel
 from scorecard.model.predict import logistic, predict_logodds
 from scorecard.tabular import flag_column, source_of
+from scorecard.suggest import did_you_mean
 
 
 def observed_outcome(cohort: pd.DataFrame, column: str) -> np.ndarray:
     """0/1 outcome with NaN where not recorded; a column with a single class cannot measure AUC."""
     if column not in cohort.columns:
-        raise UserError(f"{source_of(cohort)}: outcome column {column!r} is not in the file; name it with --outcome")
+        raise UserError(f"{source_of(cohort)}: outcome column {column!r} is not in the file"
+                        f"{did_you_mean(column, list(cohort.columns))}; name it with --outcome")
     y = flag_column(cohort, column)
     known = y[~np.isnan(y)]
     if known.size == 0 or known.min() == known.max():

@@ -141,6 +141,22 @@ def unit_text(block: dict) -> str:
     return unit
 
 
+OTHER_NOTE = "any not listed above"
+OTHER_EXPLAINED = ("Other: a category its table does not list (for example a new kind of residence) scores the "
+                   "\u2018Other\u2019 row; check the spelling first.")
+
+
+def row_label(term: dict, row: dict) -> str:
+    """The text printed for a row of a one-feature table: its `text`, and for the single measured row of a
+    continuous table the sheet's reason for it in brackets ('any measured value (its effect is under one point)')."""
+    note = term.get("single_row_note")
+    if note and term["kind"] == "continuous" and not row.get("missing"):
+        return f"{row['text']} ({note})"
+    if row.get("other"):
+        return f"{row['text']} ({OTHER_NOTE})"
+    return row["text"]
+
+
 def pair_missing_text(term: dict) -> tuple[str, int | None]:
     """The last line of a pair grid and the points it gives ('If either is not measured: ' + points, or the
     measure-first action for the axes marked so); points None when no patient can take that line."""
