@@ -25,6 +25,10 @@ HISTOGRAM_BINS = 41
 _SLACK = 1e-9
 
 
+# The sheet stores offset, log-odds per point and risks at 11 significant digits (jsondoc's canonical numbers),
+# so a recomputed risk differs from the stated one by up to ~2e-10; a wrong conversion row differs by far more.
+CONVERSION_TOLERANCE = 1e-9
+
 def _rows_per_block(term: dict) -> list[int]:
     """Printed ranges of a measured item (the not-measured row not counted); one count per measured pair axis.
     Categories and yes/no items print one row per level and are not limited by the bound."""
@@ -260,7 +264,7 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
         _bound("model", "the model is the one the sheet was built from (fingerprint)", model.fingerprint,
                sheet["model"]["fingerprint"], model_matches, "same fingerprint" if model_matches else "DIFFERENT model (overridden)"),
         _bound("conversion", "conversion risks equal logistic(offset + log-odds per point x total)", conversion_error,
-               1e-12, conversion_error <= 1e-12, f"largest difference {conversion_error:.1e}"),
+               CONVERSION_TOLERANCE, conversion_error <= CONVERSION_TOLERANCE, f"largest difference {conversion_error:.1e}"),
         _bound("auc_loss", f"AUC loss (model - sheet, {basis}) at most the bound", agreement["auc_loss"],
                bound["max_auc_loss"], agreement["auc_loss"] <= bound["max_auc_loss"] + _SLACK,
                f"{agreement['auc_loss']:.4f} (95% CI {ci[0]:.4f} to {ci[1]:.4f}) vs {bound['max_auc_loss']:.4f}"),

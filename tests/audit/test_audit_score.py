@@ -113,7 +113,7 @@ def test_total_and_risk_follow_the_sheets_own_arithmetic():
     assert np.array_equal(scored.total, by_hand)
     # outside reference: scipy's expit is the logistic function the sheet document defines the risk with
     scale = sheet["scale"]
-    assert np.allclose(scored.risk, expit(scale["offset"] + scale["logodds_per_point"] * scored.total), rtol=0, atol=1e-12)
+    assert np.allclose(scored.risk, expit(scale["offset"] + scale["logodds_per_point"] * scored.total), rtol=0, atol=1e-9)  # risks stored at 11 digits (jsondoc)
 
 
 def test_continuous_rows_agree_with_the_shared_printed_rule():

@@ -117,7 +117,7 @@ def test_the_new_sheet_keeps_rows_and_points_and_records_lineage(setting, tmp_pa
     a, b = rec["intercept"], rec["slope"]
     for old, c in zip(sheet["conversion"], new["conversion"]):
         z = a + b * (sheet["scale"]["offset"] + sheet["scale"]["logodds_per_point"] * old["total"])
-        assert c["risk"] == pytest.approx(1 / (1 + np.exp(-z)), rel=1e-12)
+        assert c["risk"] == pytest.approx(1 / (1 + np.exp(-z)), rel=1e-9)  # sheet numbers carry 11 digits (jsondoc)
     # the check compares the sheet with the model recalibrated as the sheet states: the certificate still holds
     unit.drop(columns=["delirium"]).to_csv(tmp_path / "plain.csv", index=False)
     r = runner.invoke(main, ["check", str(tmp_path / "local.json"), "--model", str(tmp_path / "m.json"), "--data", str(tmp_path / "plain.csv"),

@@ -380,7 +380,8 @@ def test_layouts_are_found_as_installed_package_data(tmp_path):
 
 
 # The demo sheet as `scorecard quantize` wrote it from the demo's true model (`scorecard demo -o d`,
-# `scorecard quantize d/true.model.json -o demo.sheet.json`): 12 terms plus a 6 x 6 pair grid.
+# `scorecard quantize d/true.model.json -o demo.sheet.json`): 12 terms plus a 6 x 6 pair grid. Its numbers were
+# put in the canonical form (jsondoc) by load_sheet(check_fingerprint=False) + save_sheet when that form came.
 DEMO_SHEET = Path(__file__).parent / "data" / "demo.sheet.json"
 
 
