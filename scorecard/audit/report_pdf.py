@@ -247,7 +247,7 @@ def _slips_block(slips: dict, s: dict) -> KeepTogether:
     rows.append(line("total off by one (either way)", slips["total_off_by_one"]))
     widths = [56 * mm, 16 * mm, 20 * mm, 17 * mm, 17 * mm, 16 * mm] + ([38 * mm] if bands else [])
     n = len(rows)
-    extra = [("FONTNAME", (0, n - 2), (-1, n - 1), _fonts()[1])]
+    extra = [("FONTNAME", (0, n - 2), (-1, n - 1), register_fonts()[1])]
     return KeepTogether([_p("Slips at the bedside: reading the neighbouring row, or a total off by one", s["h"]),
                          _p("Each slip on its own, for every patient: the row just above or below the right one (in a grid, "
                             "the neighbouring cells; the not-measured row is not a neighbour) read instead, or the total one "
