@@ -11,10 +11,14 @@ import click
 
 from scorecard import __version__
 from scorecard.errors import CheckFailed, UserError
+from scorecard.suggest import did_you_mean
+
+# other spellings a user may type: British "quantise" (the help speaks of quantising) for `quantize`
+ALIASES = {"quantise": "quantize"}
 
 # the order a newcomer meets the verbs in `scorecard --help`: along the pipeline
 PIPELINE_ORDER = ["demo", "fit", "import", "predict", "review", "edit", "explain", "quantize", "render", "score", "check", "verify",
-                  "compare"]
+                  "compare", "recalibrate", "exercise", "mark", "export"]
 
 
 class PipelineGroup(click.Group):
@@ -31,10 +35,19 @@ class PipelineGroup(click.Group):
         return sorted(verbs, key=lambda v: (PIPELINE_ORDER.index(v) if v in PIPELINE_ORDER else 99, v))
 
     def get_command(self, ctx: click.Context, name: str) -> click.Command | None:
+        name = ALIASES.get(name, name)
         for module_name in self._modules():
             if module_name.replace("_", "-").removesuffix("-cmd") == name:
                 return importlib.import_module(f"scorecard.commands.{module_name}").command
         return None
+
+    def resolve_command(self, ctx: click.Context, args: list[str]):
+        """An unknown verb is one line naming the closest verbs (difflib), not click's bare 'No such command'."""
+        name = args[0] if args else ""
+        if name and not name.startswith("-") and self.get_command(ctx, name) is None:
+            verbs = self.list_commands(ctx)
+            raise click.UsageError(f"no verb {name!r}{did_you_mean(name, verbs)} (the verbs: {', '.join(verbs)})", ctx)
+        return super().resolve_command(ctx, args)
 
     def invoke(self, ctx: click.Context):
         try:

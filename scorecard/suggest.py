@@ -4,10 +4,10 @@ from __future__ import annotations
 
 import difflib
 
-CUTOFF = 0.6  # difflib's own default similarity: close enough to be a typo, far enough to avoid wild guesses
+CUTOFF = 0.7  # above difflib's default 0.6, which offers "sodium" for "delirum": only near spellings
 
 
-def close_matches(word: str, known, n: int = 3) -> list[str]:
+def close_matches(word: str, known, n: int = 2) -> list[str]:
     """The known names most like `word`, best first (case is ignored when comparing)."""
     known = [str(k) for k in known]
     by_lower = {}
@@ -17,7 +17,7 @@ def close_matches(word: str, known, n: int = 3) -> list[str]:
     return [by_lower[f] for f in found]
 
 
-def did_you_mean(word: str, known, n: int = 3) -> str:
+def did_you_mean(word: str, known, n: int = 2) -> str:
     """'; did you mean 'delirium'?' (or '... 'a' or 'b'?'), or '' when nothing is close."""
     found = close_matches(word, known, n)
     if not found:

@@ -12,6 +12,7 @@ import numpy as np
 import pandas as pd
 
 from scorecard.errors import UserError
+from scorecard.suggest import did_you_mean
 
 MISSING_TOKENS = frozenset({"", "na", "n/a", "nan", "null", "none", "missing", "not measured", "."})
 FLAG_TRUE = frozenset({"1", "1.0", "true", "yes", "y", "t"})
@@ -87,7 +88,8 @@ def require_columns(frame: pd.DataFrame, names: list[str], what: str = "the mode
     if missing:
         raise UserError(
             f"{source_of(frame)}: column {missing[0]!r} needed by {what} is missing"
-            f"{f' (and {len(missing) - 1} more)' if len(missing) > 1 else ''}; add it (empty cells mean not measured)"
+            f"{f' (and {len(missing) - 1} more)' if len(missing) > 1 else ''}"
+            f"{did_you_mean(missing[0], [c for c in frame.columns if c not in names])}; add it (empty cells mean not measured)"
         )
 
 

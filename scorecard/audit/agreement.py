@@ -11,11 +11,13 @@ import numpy as np
 import pandas as pd
 
 from scorecard.audit import statistics
+from scorecard.audit.slips import slip_figures
 from scorecard.audit.paper import ScoredCohort, band_index, parse_cohort, score_cohort, sheet_logodds
 from scorecard.errors import UserError
 from scorecard.model import AdditiveModel, contributions, logistic
 from scorecard.sheet import short_fingerprint
 from scorecard.tabular import flag_column, source_of
+from scorecard.suggest import did_you_mean
 
 REPORT_TAG = "scorecard-check-report"
 TOP_PATIENTS = 20
@@ -23,6 +25,10 @@ HISTOGRAM_BINS = 41
 # a computed figure equal to its bound up to float noise passes
 _SLACK = 1e-9
 
+
+# The sheet stores offset, log-odds per point and risks at 11 significant digits (jsondoc's canonical numbers),
+# so a recomputed risk differs from the stated one by up to ~2e-10; a wrong conversion row differs by far more.
+CONVERSION_TOLERANCE = 1e-9
 
 def _rows_per_block(term: dict) -> list[int]:
     """Printed ranges of a measured item (the not-measured row not counted); one count per measured pair axis.
@@ -57,7 +63,8 @@ def outcome_values(frame: pd.DataFrame, column: str | None) -> np.ndarray | None
     if column is None:
         return None
     if column not in frame.columns:
-        raise UserError(f"{source_of(frame)}: outcome column {column!r} is not in the file; check --outcome")
+        raise UserError(f"{source_of(frame)}: outcome column {column!r} is not in the file"
+                        f"{did_you_mean(column, list(frame.columns))}; check --outcome")
     return flag_column(frame, column)
 
 
@@ -196,6 +203,10 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
     say("computing the exact model")
     parts, model_report = contributions(model, _parsed_frame(frame, values, model))
     model_lo = model.intercept + parts.to_numpy().sum(axis=1)
+    recalibrated = sheet.get("recalibration")
+    if recalibrated:
+        # a locally recalibrated sheet stands for the model recalibrated the same way (docs/ward-workflow.md)
+        model_lo = recalibrated["model_logodds"]["intercept"] + recalibrated["model_logodds"]["slope"] * model_lo
     model_risk = logistic(model_lo)
     sheet_lo = sheet_logodds(sheet, scored.total)
     diff = scored.risk - model_risk
@@ -254,7 +265,7 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
         _bound("model", "the model is the one the sheet was built from (fingerprint)", model.fingerprint,
                sheet["model"]["fingerprint"], model_matches, "same fingerprint" if model_matches else "DIFFERENT model (overridden)"),
         _bound("conversion", "conversion risks equal logistic(offset + log-odds per point x total)", conversion_error,
-               1e-12, conversion_error <= 1e-12, f"largest difference {conversion_error:.1e}"),
+               CONVERSION_TOLERANCE, conversion_error <= CONVERSION_TOLERANCE, f"largest difference {conversion_error:.1e}"),
         _bound("auc_loss", f"AUC loss (model - sheet, {basis}) at most the bound", agreement["auc_loss"],
                bound["max_auc_loss"], agreement["auc_loss"] <= bound["max_auc_loss"] + _SLACK,
                f"{agreement['auc_loss']:.4f} (95% CI {ci[0]:.4f} to {ci[1]:.4f}) vs {bound['max_auc_loss']:.4f}"),
@@ -296,9 +307,13 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
                         "by_total": certificate_by_total(sheet)},
         "stored_achieved": sheet.get("achieved"),
         "histogram": {"unit": "percentage points (sheet risk - model risk)", "edges": edges.tolist(), "counts": counts.tolist()},
+        "slips": slip_figures(sheet, scored),
         "largest": _largest(sheet, model, scored, parts, model_risk, diff, TOP_PATIENTS),
         "warnings": list(scored.warnings),
-        "notes": list(scored.notes) + [f"model: {line}" for line in model_report.lines()],
+        "notes": list(scored.notes) + [f"model: {line}" for line in model_report.lines()] + ([
+            f"recalibrated sheet: the model's log-odds are compared as {recalibrated['model_logodds']['intercept']:+.4f} + "
+            f"{recalibrated['model_logodds']['slope']:.4f} x model log-odds, as the sheet states; the stored figures are the "
+            f"original sheet's ({recalibrated['original_fingerprint'][:12]})"] if recalibrated else []),
     })
 
 

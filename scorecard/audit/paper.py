@@ -3,7 +3,10 @@
 Everything here is recomputed from the sheet document alone (never from the quantizer's internals), so the
 audit can catch a quantizer or renderer that drifts from what is printed:
 
-- a measurement is rounded half up to the decimals printed for its block (`round_half_up_units`);
+- a measurement is rounded half up to the decimals printed for its block, or cut down to completed units
+  where the block says so (`round_half_up_units`, exact at ties);
+- a block without a "not measured" row says to measure first: a patient without that measurement is refused
+  with the row and column, as the exact model refuses them;
 - it then belongs to the printed row with lower <= value < upper (compared in whole display units, so a cut
   such as 37.5 is an integer comparison, never a float one);
 - a level is found in the row listing it; a flag in its Yes/No row; "not measured" in its own row;
@@ -16,37 +19,53 @@ choice knows its printed text and points, so the whole cohort is scored with arr
 
 from __future__ import annotations
 
+import math
 from dataclasses import dataclass, field
+from fractions import Fraction
 
 import numpy as np
 import pandas as pd
 
 from scorecard.errors import UserError
+from scorecard.sheet.printed import band_indices
 from scorecard.tabular import category_column, flag_column, numeric_column, require_columns, source_of
 
-NO_ROW_TEXT = "not measured (no row on the sheet: 0 points)"
 NOT_LISTED_TEXT = "not listed (no row on the sheet: 0 points)"
 
-# A tie written in decimal (2.675 at 2 places) is stored in binary as 267.4999999999999716 after scaling;
-# values within this many relative machine epsilons of a tie are treated as the tie. This is exact for any
-# measurement written with at most ~12 significant digits (see tests/audit/test_paper_rounding.py).
-_TIE_EPS = 64 * np.finfo(float).eps
+COMPLETED = "completed"  # the sheet's reading rule for a block recorded in completed units
+MEASURE_FIRST = "measure first"
+# Binary arithmetic decides a value clearly away from a tie (a whole unit, for completed units); closer than
+# this many display units (relative above 1) it is decided exactly, from the decimal the value was written as.
+_NEAR = 1e-6
 
 
-def round_half_up_units(values: np.ndarray, decimals: int) -> np.ndarray:
-    """Each measurement rounded half up (towards +infinity on a tie) to `decimals` places, in whole units
-    of 10**-decimals, as floats (NaN stays NaN).
+def _exact_units(value: float, decimals: int, completed: bool) -> int:
+    """One measurement read exactly: the decimal it was written as (the float's shortest repr) as a fraction,
+    scaled to display units, then floor(u + 1/2) (half up) or floor(u) (completed units)."""
+    u = Fraction(repr(float(value))) * 10**decimals
+    return math.floor(u) if completed else math.floor(u + Fraction(1, 2))
 
-    Computes floor(x * 10**decimals + 0.5) where x is the decimal number the measurement was written as:
-    the binary error of the scaling is a few units in the last place, so a scaled value that lies within
-    `_TIE_EPS` (relative) of a tie is taken to be the tie. The rule is the one printed on every sheet
-    (docs/sheet-document.md) and the way a person rounds on paper (common practice: 36.45 -> 36.5).
-    """
+
+def round_half_up_units(values: np.ndarray, decimals: int, reading: str | None = None) -> np.ndarray:
+    """Each measurement read as the sheet says, in whole units of 10**-decimals, as floats (NaN stays NaN):
+    rounded half up (a tie goes towards +infinity: 36.45 -> 36.5, 128.4999997 -> 128, -2.5 -> -2), or, for a
+    block read in completed units, cut down to the printed decimals (79.6 years -> 79).
+
+    This is the audit's own implementation, in rational arithmetic (`fractions`), independent of the
+    sheet module's decimal one; a property test proves they agree at and next to every printed tie."""
+    completed = reading == COMPLETED
     x = np.asarray(values, dtype=float)
-    z = x * (10.0**decimals) + 0.5
-    nearest = np.rint(z)
-    tie = np.abs(z - nearest) <= _TIE_EPS * np.maximum(1.0, np.abs(z))
-    return np.where(tie, nearest, np.floor(z))
+    scaled = x * (10.0**decimals)
+    ok = np.isfinite(scaled)
+    z = np.where(ok, scaled, 0.0)
+    tie_at = z if completed else z + 0.5
+    out = np.floor(tie_at)
+    near = ok & (np.abs(tie_at - np.rint(tie_at)) <= _NEAR * np.maximum(1.0, np.abs(z)))
+    if decimals == 0:  # a whole number is written as itself: nothing to decide (the common case: age in years)
+        near &= np.floor(z) != z
+    for i in np.flatnonzero(near):
+        out.flat[i] = _exact_units(x.flat[i], decimals, completed)
+    return np.where(ok, out, x)
 
 
 def _cut_units(value: float, decimals: int) -> float:
@@ -143,7 +162,8 @@ def _printed_levels(sheet: dict, feature: str) -> list[str]:
 # -- one block per kind ------------------------------------------------------------------------------
 
 
-def _continuous_choice(rows: list[dict], decimals: int, x: np.ndarray, where: str) -> tuple[np.ndarray, int | None]:
+def _continuous_choice(rows: list[dict], decimals: int, x: np.ndarray, where: str,
+                       reading: str | None = None) -> tuple[np.ndarray, int | None]:
     """Index (into `rows`) of each patient's row; NaN gets the missing row, or -1 when there is none."""
     ranged = [i for i, r in enumerate(rows) if not r.get("missing")]
     if not ranged:
@@ -151,7 +171,7 @@ def _continuous_choice(rows: list[dict], decimals: int, x: np.ndarray, where: st
     lows = [rows[i]["lower"] for i in ranged]
     ranged = [i for _, i in sorted(zip([-np.inf if v is None else v for v in lows], ranged))]
     cuts = np.array([_cut_units(rows[i]["lower"], decimals) for i in ranged[1:]], dtype=float)
-    v = round_half_up_units(x, decimals)
+    v = round_half_up_units(x, decimals, reading)
     pos = np.searchsorted(cuts, np.where(np.isnan(v), 0.0, v), side="right")
     idx = np.asarray(ranged, dtype=np.int64)[pos]
     missing_row = next((i for i, r in enumerate(rows) if r.get("missing")), None)
@@ -201,7 +221,7 @@ def _single_term(term: dict, x: np.ndarray, source: str, report: ScoredCohort) -
     points = [int(r["points"]) for r in rows]
     name = term["feature"]
     if term["kind"] == "continuous":
-        idx, _ = _continuous_choice(rows, int(term["decimals"]), x, f"term {term['name']!r}")
+        idx, _ = _continuous_choice(rows, int(term["decimals"]), x, f"term {term['name']!r}", term.get("reading"))
     elif term["kind"] == "flag":
         idx = _flag_choice(rows, x)
     else:
@@ -228,8 +248,7 @@ def _single_term(term: dict, x: np.ndarray, source: str, report: ScoredCohort) -
                 report.notes.append(f"{name}: levels on no row of the sheet, scored 0 points: {listed}")
             idx = _with_no_row(texts, points, idx, -2, NOT_LISTED_TEXT)
     if (idx == -1).any():
-        report.notes.append(f"{name}: {int((idx == -1).sum())} not measured and the sheet has no not-measured row (0 points)")
-    idx = _with_no_row(texts, points, idx, -1, NO_ROW_TEXT)
+        _refuse_not_measured(source, int(np.flatnonzero(idx == -1)[0]), name, "its table has no 'not measured' row")
     return TermChoices(term["name"], term["label"], [name], texts, np.asarray(points, dtype=np.int64), idx)
 
 
@@ -237,7 +256,7 @@ def _axis_choice(axis: dict, x: np.ndarray) -> np.ndarray:
     """Index of each patient's axis row; -1 when not measured or on no row (the grid's not-measured points)."""
     rows = axis["rows"]
     if axis["kind"] == "continuous":
-        idx, _ = _continuous_choice(rows, int(axis["decimals"]), x, f"pair axis {axis['feature']!r}")
+        idx, _ = _continuous_choice(rows, int(axis["decimals"]), x, f"pair axis {axis['feature']!r}", axis.get("reading"))
         return idx
     if axis["kind"] == "flag":
         return _flag_choice(rows, x)
@@ -245,8 +264,24 @@ def _axis_choice(axis: dict, x: np.ndarray) -> np.ndarray:
     return np.where(idx < 0, -1, idx)
 
 
-def _pair_term(term: dict, values: dict[str, np.ndarray]) -> TermChoices:
+def _refuse_not_measured(source: str, row: int, name: str, why: str) -> None:
+    """The printed rule for a measurement the sheet cannot do without: measure it first (as the model does)."""
+    raise UserError(
+        f"{source}: row {row + 1}, column {name!r}: not measured, and the sheet says to {MEASURE_FIRST} ({why}); "
+        "add the measurement, or leave the patient out"
+    )
+
+
+def _pair_term(term: dict, values: dict[str, np.ndarray], source: str) -> TermChoices:
     a0, a1 = term["axes"]
+    for axis in term["axes"]:
+        # an axis marked measure_first (or every axis of an older grid printed without a not-measured option)
+        if axis.get("measure_first") or not term.get("missing_allowed", True):
+            x = values[axis["feature"]]
+            absent = np.array([v is None for v in x]) if x.dtype == object else np.isnan(x)
+            if absent.any():
+                _refuse_not_measured(source, int(np.flatnonzero(absent)[0]), axis["feature"],
+                                     f"the grid {term['label']!r} has no 'not measured' option for it")
     i = _axis_choice(a0, values[a0["feature"]])
     j = _axis_choice(a1, values[a1["feature"]])
     grid = np.asarray(term["points"], dtype=np.int64)
@@ -276,12 +311,9 @@ def conversion_arrays(sheet: dict) -> tuple[int, np.ndarray, np.ndarray]:
 
 
 def band_index(sheet: dict, risk: np.ndarray) -> np.ndarray | None:
-    """Band of each risk: previous upper_risk <= risk < upper_risk (docs/sheet-document.md)."""
+    """Band of each risk by the sheet's band rule (`scorecard.sheet.printed.band_indices`); None without bands."""
     bands = sheet.get("bands") or []
-    if not bands:
-        return None
-    uppers = np.array([np.inf if b["upper_risk"] is None else float(b["upper_risk"]) for b in bands])
-    return np.minimum(np.searchsorted(uppers, risk, side="right"), len(bands) - 1)
+    return band_indices(bands, risk) if bands else None
 
 
 def units_warnings(sheet: dict, values: dict[str, np.ndarray], share: float = 0.5) -> tuple[list[str], np.ndarray]:
@@ -325,7 +357,7 @@ def score_cohort(sheet: dict, frame: pd.DataFrame, values: dict[str, np.ndarray]
     total = np.zeros(len(frame), dtype=np.int64)
     for term in sheet["terms"]:
         if term["kind"] == "pair":
-            choices = _pair_term(term, values)
+            choices = _pair_term(term, values, source)
         else:
             choices = _single_term(term, values[term["feature"]], source, scored)
         scored.terms.append(choices)

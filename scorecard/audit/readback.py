@@ -21,6 +21,7 @@ from dataclasses import dataclass
 
 from scorecard.audit.pdf_tables import HEX12, PrintedPage, PrintedTable, Row, Word, read_pdf, reading_order
 from scorecard.errors import UserError
+from scorecard.sheet.printed import band_of, pair_missing_text, row_label
 
 MINUS_SIGNS = ("\u2212", "-", "\u2013")
 
@@ -69,7 +70,9 @@ def _heading_matches(text: str, term: dict) -> bool:
     text = _norm(text)
     if term["kind"] == "pair":
         return text == label or text.startswith(label + ":")
-    unit = term.get("unit")
+    unit = term.get("unit") or ""
+    if term.get("reading") == "completed":  # a block read in completed units says so in its heading
+        unit = f"completed {unit or 'units'}"
     return text == label or (bool(unit) and text == f"{label} ({_norm(unit)})")
 
 
@@ -131,7 +134,7 @@ class _Checker:
                 continue
             page, row = printed[k]
             text, points = _split_points(row)
-            self.text(page, block, f"{name} text", text, expected["text"])
+            self.text(page, block, f"{name} text", text, row_label(term, expected))
             self.number(page, block, f"{name} ({_norm(expected['text'])}) points", points, expected["points"])
         for page, row in printed[len(term["rows"]):]:
             self.mismatches.append(Mismatch(page, block, "extra row", row.text(), "(no such row on the sheet)"))
@@ -169,12 +172,17 @@ class _Checker:
                 self.mismatches.append(Mismatch(page, block, f"{name} extra cells", " | ".join(values[len(term['points'][i]):]), "(none)"))
         for page, row in grid[len(axis0["rows"]):]:
             self.mismatches.append(Mismatch(page, block, "extra grid row", row.text(), "(no such row on the sheet)"))
+        words, points_expected = pair_missing_text(term)
         if tail:
             page, row = tail[0]
-            _, points = _split_points(row)
-            self.number(page, block, "not measured points", points, term["missing_points"])
+            if points_expected is None:
+                self.text(page, block, "not measured line", row.text(), words)
+            else:
+                text, points = _split_points(row)
+                self.text(page, block, "not measured line", text, words)
+                self.number(page, block, "not measured points", points, points_expected)
         else:
-            self.mismatches.append(Mismatch(page, block, "not measured row", "(missing)", str(term["missing_points"])))
+            self.mismatches.append(Mismatch(page, block, "not measured row", "(missing)", words))
         for page, row in tail[1:]:
             self.mismatches.append(Mismatch(page, block, "extra row", row.text(), "(no such row on the sheet)"))
 
@@ -215,7 +223,7 @@ class _Checker:
             self.mismatches.append(Mismatch(None, block, "table", "(no conversion table found)", "Total | Risk table"))
             return
         for k, row in enumerate(self.sheet["conversion"]):
-            expected_band = bands[_band_index(bands, row["risk"])]["name"] if bands else None
+            expected_band = bands[band_of(bands, row["risk"])]["name"] if bands else None
             name = f"total {row['total']}"
             if k >= len(entries):
                 self.mismatches.append(Mismatch(entries[-1][0], block, name, "(missing)", f"{row['total']} {row['text']}"))
@@ -234,7 +242,7 @@ class _Checker:
         if not bands:
             return
         block = "band table"
-        members = [_band_index(bands, c["risk"]) for c in self.sheet["conversion"]]
+        members = [band_of(bands, c["risk"]) for c in self.sheet["conversion"]]
         for page in self.pages:
             for table in page.tables:
                 for i, row in enumerate(table.rows):
@@ -308,11 +316,12 @@ class _Checker:
                 self.mismatches.append(Mismatch(None, "text", name, "(not found)", text))
 
     # -- fingerprint ----------------------------------------------------------------------------------
-    def fingerprints(self, short: str) -> None:
+    def fingerprints(self, short: str, lineage: str | None = None) -> None:
+        """`lineage`: the short fingerprint a recalibrated sheet names as its origin (printed, and allowed)."""
         for page in self.pages:
             found = set(HEX12.findall(page.text))
             self.cells += 1
-            others = sorted(found - {short})
+            others = sorted(found - {short, lineage})
             if others:
                 self.mismatches.append(Mismatch(page.number, "fingerprint", "another sheet version", ", ".join(others), short))
             elif short not in found:
@@ -331,13 +340,6 @@ def _is_conversion_header(row: Row) -> bool:
     return bool(heads) and all(h in ("Total Risk Band", "Total Risk") for h in heads)
 
 
-def _band_index(bands: list[dict], risk: float) -> int:
-    """previous upper_risk <= risk < upper_risk; the last band is open (docs/sheet-document.md)."""
-    for i, b in enumerate(bands):
-        if b["upper_risk"] is None or risk < b["upper_risk"]:
-            return i
-    return len(bands) - 1
-
 
 def verify_pages(sheet: dict, pages: list[PrintedPage], source: str = "PDF") -> VerifyResult:
     from scorecard.sheet import short_fingerprint
@@ -349,7 +351,8 @@ def verify_pages(sheet: dict, pages: list[PrintedPage], source: str = "PDF") -> 
         raise UserError(f"{source}: does not look like a printed points sheet (no points table and no conversion table found); "
                         "give the PDF written by `scorecard render`")
     check = _Checker(sheet, pages)
-    check.fingerprints(short)
+    lineage = sheet.get("recalibration")
+    check.fingerprints(short, lineage["original_fingerprint"][:12] if lineage else None)
     for term in sheet["terms"]:
         if term["kind"] == "pair":
             check.pair_term(term)

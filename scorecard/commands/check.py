@@ -16,6 +16,7 @@ from scorecard.jsondoc import atomic_write_bytes, atomic_write_text, pretty_text
 from scorecard.model import load_model
 from scorecard.sheet import CAUTIONS, load_sheet
 from scorecard.tabular import read_csv, require_columns
+from scorecard.suggest import did_you_mean
 
 
 def guess_outcome_column(sheet: dict, columns: list[str]) -> str | None:
@@ -80,7 +81,8 @@ def command(sheet_path, model_path, cohort_path, output, json_path, outcome, rep
         if outcome:
             say(f"note: using column {outcome!r} as the observed outcome (named in the sheet's outcome); change it with --outcome")
     elif outcome not in cohort.columns:
-        raise UserError(f"{cohort_path}: outcome column {outcome!r} (from --outcome) is not in the file")
+        raise UserError(f"{cohort_path}: outcome column {outcome!r} (from --outcome) is not in the file"
+                        f"{did_you_mean(outcome, list(cohort.columns))}")
     report = check_agreement(sheet, model, cohort, outcome=outcome, replicates=replicates, seed=seed,
                              model_matches=matches, progress=say if len(cohort) > 50_000 else None)
     for line in report["warnings"]:

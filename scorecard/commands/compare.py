@@ -8,6 +8,7 @@ from scorecard.commands._common import output_path, say
 from scorecard.compare import cohort_changes, model_changes, sheet_changes
 from scorecard.compare.report_pdf import compare_pdf_bytes
 from scorecard.errors import UserError
+from scorecard.invented import is_invented
 from scorecard.jsondoc import atomic_write_bytes, atomic_write_text, pretty_text, read_json_file
 from scorecard.model import load_model
 from scorecard.sheet import CAUTIONS, load_sheet
@@ -65,6 +66,7 @@ def command(old_path: str, new_path: str, cohort_path: str | None, output: str |
         raise UserError(f"{new_path}: is a {kinds[1]} document but {old_path} is a {kinds[0]}; compare two sheets or two models")
     if kinds[0] == "sheet":
         old, new = load_sheet(old_path), load_sheet(new_path)
+        invented = is_invented(old) or is_invented(new)
         report = sheet_changes(old, new)
         cautions = new.get("cautions") or CAUTIONS
         if cohort_path:
@@ -74,9 +76,12 @@ def command(old_path: str, new_path: str, cohort_path: str | None, output: str |
     else:
         if cohort_path:
             raise UserError("--data: a cohort is compared on two sheets; for two models compare their shapes only (drop --data)")
-        report = model_changes(load_model(old_path), load_model(new_path))
+        old_model, new_model = load_model(old_path), load_model(new_path)
+        invented = is_invented(old_model) or is_invented(new_model)
+        report = model_changes(old_model, new_model)
         cautions = CAUTIONS
     report["paths"] = {"old": old_path, "new": new_path}
+    report["invented"] = invented  # either version made from invented data marks every page (scorecard.invented)
     report["cautions"] = list(cautions)
     if out is not None:
         atomic_write_bytes(out, compare_pdf_bytes(report), protect=inputs)

@@ -62,10 +62,13 @@ def write_true_model(folder: Path, interaction: bool) -> Path:
 CARE_PROCESS_FLAG = "geriatric_review"
 CARE_PROCESS_REASON = (
     "geriatric_review is a care-process marker: it looks protective only because of how care was given, and "
-    "must not lower anyone's points. Hours to surgery beyond 96 and more than 12 regular medicines rest on "
-    "fewer than 30 patients each (review flags): held at their last well-supported value"
+    "must not lower anyone's points"
 )
-SPARSE_TAILS_HELD_ABOVE = ("hours_to_surgery=96", "medicines=12")
+SPARSE_TAIL_REASON = (
+    "hours to surgery beyond 96 and more than 12 regular medicines rest on fewer than 30 patients each (review "
+    "flags): held at their last well-supported value"
+)
+SPARSE_TAILS_HELD_ABOVE = (("hours_to_surgery", 96.0), ("medicines", 12.0))  # as `edit --hold-above` parses them
 
 
 # levels in a clinical order (own home, with family, care home: rising dependence), not by name
@@ -80,11 +83,11 @@ def fit_model(ctx: click.Context, folder: Path, cohort: Path) -> Path:
     ctx.invoke(
         fit, data_path=str(cohort), outcome=OUTCOME, exclude=("patient_id",), name="Delirium after hip fracture (demo)",
         event=OUTCOME_TEXT["event"], horizon=OUTCOME_TEXT["horizon"], population=OUTCOME_TEXT["population"],
-        labels=tuple(f"{n}={label}" for n, label, *_ in FEATURE_INFO),
-        units=tuple(f"{n}={unit}" for n, _, unit, *_ in FEATURE_INFO if unit),
-        decimals=tuple(f"{n}={d}" for n, _, _, d, kind, *_ in FEATURE_INFO if kind == "continuous"),
+        labels=tuple((n, label) for n, label, *_ in FEATURE_INFO),
+        units=tuple((n, unit) for n, _, unit, *_ in FEATURE_INFO if unit),
+        decimals=tuple((n, d) for n, _, _, d, kind, *_ in FEATURE_INFO if kind == "continuous"),
         score_at=OUTCOME_TEXT["score_at"], completed=COMPLETED_UNITS,
-        orders=tuple(f"{n}={','.join(levels)}" for n, levels in CLINICAL_ORDER.items()), invented=True,
+        orders=tuple((n, list(levels)) for n, levels in CLINICAL_ORDER.items()), invented=True,
         output=str(path),
     )
     return path
@@ -96,7 +99,7 @@ def review_model(ctx: click.Context, folder: Path, fitted: Path, cohort: Path) -
     from scorecard.commands.review import command as review
 
     declared = folder / "declared.model.json"
-    ctx.invoke(edit, model_path=str(fitted), declarations=(f"{CARE_PROCESS_FLAG}=care_process",),
+    ctx.invoke(edit, model_path=str(fitted), declarations=((CARE_PROCESS_FLAG, "care_process"),),
                reason="the older-people's team review is a care process, not a patient measurement",
                editor="scorecard demo", output=str(declared))
     ctx.invoke(review, model_path=str(declared), cohort_path=str(cohort), output=str(folder / "review.pdf"),
@@ -109,8 +112,12 @@ def edit_model(ctx: click.Context, folder: Path, declared: Path, cohort: Path) -
     sparse tails), and record why and what it cost."""
     from scorecard.commands.edit import command as edit
 
+    # one edit per decision, so each change carries only its own reason (the sheet prints it for a left-off term)
+    held = folder / "held.model.json"
+    ctx.invoke(edit, model_path=str(declared), holds_above=SPARSE_TAILS_HELD_ABOVE, reason=SPARSE_TAIL_REASON,
+               editor="scorecard demo", cohort_path=str(cohort), outcome=OUTCOME, output=str(held))
     edited = folder / "edited.model.json"
-    ctx.invoke(edit, model_path=str(declared), removals=(CARE_PROCESS_FLAG,), holds_above=SPARSE_TAILS_HELD_ABOVE, reason=CARE_PROCESS_REASON,
+    ctx.invoke(edit, model_path=str(held), removals=(CARE_PROCESS_FLAG,), reason=CARE_PROCESS_REASON,
                editor="scorecard demo", cohort_path=str(cohort), outcome=OUTCOME, output=str(edited))
     return edited
 
@@ -175,7 +182,8 @@ def command(ctx: click.Context, output: str, rows: int, seed: int, without_pair:
       fitted.model.json              `scorecard fit` on cohort.csv
       declared.model.json            the review flag declared a care-process marker (`scorecard edit`)
       review.pdf, review-previews/   every shape with its band and density, and the flags
-      edited.model.json              the care-process effect removed and sparse tails held, with the cost
+      held.model.json                sparse tails held at their last well-supported value (`scorecard edit`)
+      edited.model.json              the care-process effect removed as well, each edit with its cost
       sheet.json                     integer point tables under the accuracy bound (`scorecard quantize`)
       sheet.pdf, sheet-previews/     the print-ready ward sheet and nomogram (`scorecard render`)
       check-report.pdf/.json         agreement of paper and software on the audit cohort (`scorecard check`)

@@ -9,6 +9,7 @@ from scorecard.errors import UserError
 from scorecard.jsondoc import atomic_write_text
 from scorecard.model import contributions, load_model, logistic
 from scorecard.tabular import read_csv
+from scorecard.suggest import did_you_mean
 
 
 @click.command()
@@ -33,7 +34,7 @@ def command(model_path: str, cohort_path: str, output: str, with_parts: bool, ke
     cohort = read_csv(cohort_path)
     for name in keep:
         if name not in cohort.columns:
-            raise UserError(f"{cohort_path}: --keep column {name!r} is not in the file")
+            raise UserError(f"{cohort_path}: --keep column {name!r} is not in the file{did_you_mean(name, list(cohort.columns))}")
     parts, report = contributions(model, cohort)
     logodds = model.intercept + parts.to_numpy().sum(axis=1)
     table = cohort[list(keep)].copy()

@@ -13,6 +13,7 @@ from scorecard.jsondoc import atomic_write_text
 from scorecard.model import load_model, predict_logodds, logistic
 from scorecard.sheet import load_sheet
 from scorecard.tabular import read_csv
+from scorecard.suggest import did_you_mean
 
 
 @click.command()
@@ -28,10 +29,12 @@ def command(sheet_path: str, cohort_path: str, output: str, model_path: str | No
 
     \b
     For each block of the sheet:
-      - a measurement is rounded half up to the decimals printed for it (36.45 at one decimal is 36.5),
-        then it belongs to the printed row with lower <= value < upper;
+      - a measurement is rounded half up to the decimals printed for it, exactly as written (36.45 at one
+        decimal is 36.5, 128.4999997 at none is 128), or cut down where its table says 'completed'
+        (79.6 completed years is 79); then it belongs to the printed row with lower <= value < upper;
       - a category finds the row listing it, a yes/no item its Yes or No row, an empty cell the
-        "not measured" row (0 points when the sheet has none);
+        "not measured" row; where a table has none the sheet says measure first, and a patient without
+        that measurement is refused (row and column named), as `--model` refuses them;
       - a pair grid is read at the row of the first item and the column of the second.
     The points are added and the total is looked up in the conversion table.
 
@@ -49,7 +52,7 @@ def command(sheet_path: str, cohort_path: str, output: str, model_path: str | No
     cohort = read_csv(cohort_path)
     for name in keep:
         if name not in cohort.columns:
-            raise UserError(f"{cohort_path}: --keep column {name!r} is not in the file")
+            raise UserError(f"{cohort_path}: --keep column {name!r} is not in the file{did_you_mean(name, list(cohort.columns))}")
     model_risk = None
     if model_path:
         model = load_model(model_path)

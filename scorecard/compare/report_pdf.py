@@ -136,4 +136,4 @@ def compare_pdf_bytes(report: dict) -> bytes:
         fp = report["new"]["fingerprint"][:12]
     title = f"Changes {report['old'].get('short_fingerprint', report['old']['fingerprint'][:12])} to {fp}"
     return report_document_bytes(story, report["cautions"], fp, title=title, subject=title, author="scorecard compare",
-                                 footer=f"New {what} fingerprint")
+                                 footer=f"New {what} fingerprint", invented=bool(report.get("invented")))

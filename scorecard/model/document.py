@@ -17,6 +17,7 @@ import jsonschema
 
 from scorecard.errors import UserError
 from scorecard.jsondoc import field_path, schema_error_line, schema_validator, atomic_write_text, fingerprint, normalise, pretty_text, read_json_file
+from scorecard.suggest import did_you_mean
 
 FORMAT_VERSION = 1
 DOCUMENT_TAG = "scorecard-model"
@@ -86,7 +87,7 @@ class AdditiveModel:
             if t.name == name:
                 return t
         known = ", ".join(t.name for t in self.terms)
-        raise UserError(f"term {name!r} is not in the model; known terms: {known}")
+        raise UserError(f"term {name!r} is not in the model{did_you_mean(name, [t.name for t in self.terms])}; known terms: {known}")
 
     @property
     def used_features(self) -> list[str]:

@@ -30,6 +30,20 @@ def certificate(piece_errors: dict[str, np.ndarray], offset: float, intercept: f
         mids += (hi + lo) / 2
     offset_error = abs(offset - intercept + mids)
     bound = offset_error + sum(per_term.values())
+    by_total = risk_error_by_total(offset, scale, bound, total_min, total_max)
+    return {
+        "per_term": per_term,
+        "offset_error": offset_error,
+        "conversion_rounding": 0.0,
+        "max_logodds_error": bound,
+        "max_risk_error": max(e["max_risk_error"] for e in by_total),
+        "risk_error_by_total": by_total,
+    }
+
+
+def risk_error_by_total(offset: float, scale: float, bound: float, total_min: int, total_max: int) -> list[dict]:
+    """At each total, the largest risk error a log-odds error of `bound` can cause, plus the printed text's
+    rounding (also used when a recalibrated sheet's certificate is restated on its new scale)."""
     by_total = []
     for total in range(total_min, total_max + 1):
         z = offset + scale * total
@@ -40,11 +54,4 @@ def certificate(piece_errors: dict[str, np.ndarray], offset: float, intercept: f
         # the model's risk of a patient with this total lies in [low, high] whatever their inputs
         by_total.append({"total": total, "max_risk_error": min(1.0, max(up, down) + risk_text_rounding(r)),
                          "model_risk_low": low, "model_risk_high": r + up})
-    return {
-        "per_term": per_term,
-        "offset_error": offset_error,
-        "conversion_rounding": 0.0,
-        "max_logodds_error": bound,
-        "max_risk_error": max(e["max_risk_error"] for e in by_total),
-        "risk_error_by_total": by_total,
-    }
+    return by_total

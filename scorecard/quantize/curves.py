@@ -20,7 +20,7 @@ from scorecard.model.document import Feature, Term
 from scorecard.model.predict import axis_bins, feature_values, level_bins, step_bins
 from scorecard.quantize.nice import candidate_cuts, cut_boundary
 from scorecard.quantize.segment import best_segmentations, rows_of_pieces, segment_table, smallest_cap
-from scorecard.sheet.printed import NOT_MEASURED_TEXT, flag_text, range_text, round_half_up_array
+from scorecard.sheet.printed import COMPLETED, NOT_MEASURED_TEXT, ROUNDED, flag_text, range_text, read_units_array
 
 EPS_WEIGHT = 1e-6  # share of the mean weight given to every piece, so unpopulated pieces still get a value
 MAX_LINEAR_PIECES = 400
@@ -60,7 +60,8 @@ def _axis_pieces(feature: Feature, edges, decimals: int, max_candidates: int):
     lo = float(rng.get("min", edges[0] if len(edges) else 0.0))
     hi = float(rng.get("max", edges[-1] if len(edges) else 1.0))
     cuts = candidate_cuts(lo, hi, decimals, max_candidates)
-    cut_pos = cut_boundary(cuts, decimals)
+    reading = feature.reading or ROUNDED
+    cut_pos = cut_boundary(cuts, decimals, reading)
     boundaries = np.unique(np.concatenate([edges, cut_pos]))
     n_pieces = len(boundaries) + 1
     piece_bin = np.concatenate([[0], np.searchsorted(edges, boundaries, side="right")])
@@ -72,13 +73,14 @@ def _axis_pieces(feature: Feature, edges, decimals: int, max_candidates: int):
         "edges": edges, "cuts": cuts, "cut_pos": cut_pos, "boundaries": boundaries, "n_pieces": n_pieces,
         "piece_bin": piece_bin, "allowed": allowed, "edge_allowed": np.unique(edge_allowed),
         "piece_cuts": piece_cuts, "decimals": decimals, "training_range": {"min": lo, "max": hi},
+        "reading": reading,
     }
 
 
 def _continuous_patient_pieces(ax: dict, x: np.ndarray) -> np.ndarray:
     """Piece of each measured value: model bin from the raw value, printed side from the rounded value."""
     b = step_bins(ax["edges"], x)
-    units = round_half_up_array(x, ax["decimals"])
+    units = read_units_array(x, ax["decimals"], ax["reading"])
     c = np.searchsorted(ax["cuts"].astype(float), np.where(np.isnan(units), 0.0, units), side="right")
     table = np.full((len(ax["edges"]) + 1, len(ax["cuts"]) + 1), -1, dtype=np.int64)
     table[ax["piece_bin"], ax["piece_cuts"]] = np.arange(ax["n_pieces"])
@@ -159,7 +161,7 @@ class ContinuousCurve(Curve):
         d = feature.decimals
         lo_u, hi_u = math.ceil(knots[0] * 10**d), math.floor(knots[-1] * 10**d)
         step = max(1, math.ceil((hi_u - lo_u + 1) / MAX_LINEAR_PIECES))
-        grid = cut_boundary(np.arange(lo_u, hi_u + 1, step), d)
+        grid = cut_boundary(np.arange(lo_u, hi_u + 1, step), d, feature.reading or ROUNDED)
         edges = np.unique(np.concatenate([knots, grid]))
         self.axis = _axis_pieces(feature, list(edges), d, max_candidates)
         b = self.axis["boundaries"]
@@ -213,10 +215,13 @@ class ContinuousCurve(Curve):
         _, special = self.special_rows(0)
         for k, row in enumerate(special):
             rows.append({**row, "points": int(points[n_ranged + k])})
-        return {
+        out = {
             "name": self.name, "kind": "continuous", "label": self.feature.label, "feature": self.feature.name,
             "unit": self.feature.unit or "", "decimals": d, "training_range": self.axis["training_range"], "rows": rows,
         }
+        if self.axis["reading"] == COMPLETED:
+            out["reading"] = COMPLETED
+        return out
 
 
 class LevelCurve(Curve):
@@ -397,12 +402,17 @@ class PairCurve(Curve):
                         for r in range(len(bounds) - 1)]
                 axes.append({"feature": feature.name, "kind": "continuous", "unit": feature.unit or "", "decimals": d,
                              "training_range": ax["training_range"], "rows": rows})
+                if ax["reading"] == COMPLETED:
+                    axes[-1]["reading"] = COMPLETED
             elif ax["kind"] == "flag":
                 axes.append({"feature": feature.name, "kind": "flag",
                              "rows": [{"value": v, "text": flag_text(v)} for v in (False, True)]})
             else:
                 axes.append({"feature": feature.name, "kind": "categorical",
                              "rows": [{"levels": [lv], "text": _level_text(lv)} for lv in ax["levels"]]})
+        for axis, feature in zip(axes, self.features):
+            if feature.missing == "error":  # the model refuses the patient: the sheet says measure it first
+                axis["measure_first"] = True
         n0, n1 = len(axes[0]["rows"]), len(axes[1]["rows"])
         grid = [[int(points[r * n1 + c]) for c in range(n1)] for r in range(n0)]
         missing_points = int(points[n0 * n1]) if self.missing_allowed else min(min(row) for row in grid)

@@ -13,6 +13,8 @@ import math
 
 import numpy as np
 
+from scorecard.sheet.printed import COMPLETED, ROUNDED
+
 MAX_CANDIDATES = 60
 
 
@@ -41,8 +43,10 @@ def candidate_cuts(lo: float, hi: float, decimals: int, max_candidates: int = MA
     return cuts[cuts > lo_u]
 
 
-def cut_boundary(cut_units: np.ndarray | int, decimals: int) -> np.ndarray:
+def cut_boundary(cut_units: np.ndarray | int, decimals: int, reading: str = ROUNDED) -> np.ndarray:
     """Where a printed cut falls on the measured scale: values from (c - 0.5) display units round half up to
-    c or more, so they belong to the upper row. Division (not multiplication) keeps the float the nearest
-    one to the decimal value, the same float a CSV reader produces for it."""
-    return (np.asarray(cut_units, dtype=float) - 0.5) / 10**decimals
+    c or more, so they belong to the upper row; read in completed units, values from c itself. Division (not
+    multiplication) keeps the float the nearest one to the decimal value, the same float a CSV reader
+    produces for it."""
+    shift = 0.0 if reading == COMPLETED else 0.5
+    return (np.asarray(cut_units, dtype=float) - shift) / 10**decimals

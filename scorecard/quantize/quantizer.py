@@ -615,9 +615,22 @@ def _zero_edit(model, term_name: str) -> dict | None:
 
 
 def _term_label(curve) -> str:
-    """What a reader knows a term by: its feature's label, or both labels for a pair."""
-    features = getattr(curve, "features", None) or [curve.feature]
-    return " and ".join(f.label for f in features)
+    """What a reader knows a term by: its feature's label; a pair is named as what it is, the combined effect
+    of its two features beyond each alone (so a left-off pair never reads as if the features were left off)."""
+    features = getattr(curve, "features", None)
+    if features:
+        return f"the combined effect of {features[0].label} and {features[1].label}, beyond each alone"
+    return curve.feature.label
+
+
+def _single_row_note(curve, lay, pts, scale: float) -> str | None:
+    """Why a measured feature prints one row for any measured value: its whole measured effect is under one
+    point, or one row already meets the accuracy bound."""
+    measured = np.unique(lay.row_of_piece[:curve.n_main])
+    if len(measured) != 1:
+        return None
+    effect = float(np.ptp(curve.scores[:curve.n_main])) / scale
+    return "its effect is under one point" if effect < 1 else "no split is needed for the sheet's accuracy"
 
 
 def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equal_levels: bool = False,
@@ -633,6 +646,9 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
             if effect == 0 and zeroed is not None:
                 reason = f"set to zero at review by {zeroed.get('by', 'an editor')}: {zeroed.get('reason') or 'no reason given'}"
                 printed = "set to zero at review; see the model's edit history"
+                feature = getattr(curve, "feature", None)
+                if feature is not None and feature.role == "care_process":
+                    printed = "a care-process marker, set to zero at review so it cannot change anyone's points"
             elif effect == 0:
                 reason = "it has no effect in the model (every score is 0)"
                 printed = "no effect in the model"
@@ -657,6 +673,9 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
             terms.append(curve.sheet_term(lay, pts.tolist(), merge_equal=merge_equal_levels))
         else:
             terms.append(curve.sheet_term(lay, pts.tolist()))
+            note = _single_row_note(curve, lay, pts, scale) if terms[-1]["kind"] == "continuous" else None
+            if note:
+                terms[-1]["single_row_note"] = note
     total_min = int(sum(min(_term_points(t)) for t in terms))
     total_max = int(sum(max(_term_points(t)) for t in terms))
     conversion = []
@@ -787,4 +806,20 @@ def quantize_model(model: AdditiveModel, data: pd.DataFrame | None = None, bound
             say(f"measuring the chosen sheet ({bootstrap} bootstrap resamples for the ΔAUC interval)")
         settings = {"max_row_error": bound.max_row_error, "allow_negative": allow_negative,
                     "merge_equal_levels": merge_equal_levels, "bootstrap": bootstrap, "held_out": problem.confirm is not None}
-        return build_sheet(problem, cand, bands or [], merge_equal_levels, bootstrap, title, settings)
+        doc = build_sheet(problem, cand, bands or [], merge_equal_levels, bootstrap, title, settings)
+        doc["report"]["slips"] = _slips(doc, problem)
+        return doc
+
+
+def _slips(doc: dict, problem: Problem) -> dict | None:
+    """Slip robustness of the chosen sheet on the patients it was judged on (`scorecard.audit.slips`, the same
+    figure `check` reports): the chosen sheet scored as the paper does, one bedside slip at a time."""
+    from scorecard.audit.paper import score_cohort
+    from scorecard.audit.slips import slip_figures
+
+    frame = (problem.confirm or problem.population).frame  # the patients the sheet's figures are reported on
+    try:
+        scored = score_cohort(doc, frame.astype(str).replace({"nan": "", "None": ""}))
+    except UserError:
+        return None  # a population the paper cannot score (e.g. a missing value the sheet refuses): no figure
+    return slip_figures(doc, scored)

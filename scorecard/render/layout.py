@@ -34,6 +34,7 @@ PARTS = {
     "instructions": "how to score: the steps and the rounding rule",
     "terms": "one points table per term (pair terms as a grid), each with a write-in box",
     "total": "the total-points box",
+    "record": "write-in fields recording the scoring: patient, date and time, scored by, total, band, action taken",
     "ranges": "what to do outside the printed ranges, the training ranges, terms left off the sheet",
     "conversion_table": "every reachable total with its risk (and band)",
     "conversion_curve": "the same conversion plotted as a curve",

@@ -10,14 +10,14 @@ import io
 from dataclasses import dataclass, field, replace
 
 from reportlab.lib import colors
-from reportlab.pdfgen.canvas import Canvas
-from reportlab.platypus import BaseDocTemplate, Flowable, Frame, NextPageTemplate, PageBreak, PageTemplate, Paragraph, Spacer
+from reportlab.platypus import (BaseDocTemplate, Flowable, Frame, KeepTogether, NextPageTemplate, PageBreak, PageTemplate,
+                                Paragraph, Spacer)
 
 from scorecard import __version__
 from scorecard.errors import UserError
 from scorecard.render.conversion import bands_block, conversion_curve_block, conversion_table_block
 from scorecard.invented import band_height, draw_band, is_invented
-from scorecard.render.fonts import BOLD, REGULAR, text_width
+from scorecard.pdf_plumbing import BOLD, REGULAR, page_x_of_y_canvas, text_width, wrap_words
 from scorecard.render.layout import PageLayout
 from scorecard.render.nomogram import nomogram_block
 from scorecard.render.styles import Styles, styles_for
@@ -26,11 +26,12 @@ from scorecard.render.tables import (
     cautions_line,
     instructions_block,
     ranges_block,
+    record_block,
     term_block,
     total_block,
 )
 from scorecard.render.text import markup, sheet_has_negative_points
-from scorecard.sheet.printed import number_text, units
+from scorecard.sheet.printed import MEASURE_FIRST_RULE, number_text, units
 
 
 class _SectionStart(Flowable):
@@ -93,10 +94,15 @@ class _Furniture:
         outcome = sheet["outcome"]
         model = sheet["model"]
         self.title = Paragraph(markup(sheet["title"]), styles.title)
+        when = f" \u00b7 <b>Score:</b> {markup(outcome['score_at'])}" if outcome.get("score_at") else ""
         self.outcome = Paragraph(
             f"<b>Outcome:</b> {markup(outcome['event'])} \u00b7 <b>Horizon:</b> {markup(outcome['horizon'])} \u00b7 "
-            f"<b>For:</b> {markup(outcome['population'])}", styles.small)
+            f"<b>For:</b> {markup(outcome['population'])}{when}", styles.small)
         self.ident = f"Fingerprint {short_fingerprint} \u00b7 model {model['name']} version {model['version']}"
+        lineage = sheet.get("recalibration")
+        if lineage:  # scorecard recalibrate: the version this one was recalibrated from, and on what
+            self.ident += (f" \u00b7 recalibrated from {lineage['original_fingerprint'][:12]} on {lineage['n']:,} patients "
+                           f"of {lineage['data']['file']}")
         self.printed_label = "Printed on:"
         self.cautions = Paragraph(markup(cautions_line(sheet, short_fingerprint)), styles.small)
         s = styles.min_pt
@@ -111,7 +117,7 @@ class _Furniture:
         _, self.cautions_h = self.cautions.wrap(self.inner_w, height)
         self.page_label_w = text_width("Page 888 of 888", s)
         ident_room = self.inner_w - self.page_label_w - s
-        self.ident_lines = _split_words(self.ident, s, ident_room)
+        self.ident_lines = wrap_words(self.ident, s, ident_room)
         self.print_w = text_width(self.printed_label, s) + 26 * s / 3
         # identity, print-date field and page number share one line when they fit, else the field goes below
         self.one_line = len(self.ident_lines) == 1 and (
@@ -163,41 +169,15 @@ class _Furniture:
         self.page_number_at = (right, base)
 
 
-def _split_words(text: str, size: float, width: float) -> list[str]:
-    lines, current = [], ""
-    for word in text.split(" "):
-        trial = f"{current} {word}".strip()
-        if current and text_width(trial, size) > width:
-            lines.append(current)
-            current = word
-        else:
-            current = trial
-    return lines + [current]
-
-
 def _canvas_class(furniture: _Furniture):
-    """A canvas that holds its pages back until the end so every page can say 'page x of y'."""
+    """A canvas that stamps 'Page x of y' where the page furniture left room for it."""
 
-    class NumberedCanvas(Canvas):
-        def __init__(self, *args, **kwargs):
-            super().__init__(*args, **kwargs)
-            self._held = []
+    def stamp(canvas, page: int, total: int) -> None:
+        right, base = furniture.page_number_at
+        canvas.setFont(REGULAR, furniture.styles.min_pt)
+        canvas.drawRightString(right, base, f"Page {page} of {total}")
 
-        def showPage(self):
-            self._held.append(dict(self.__dict__))
-            self._startPage()
-
-        def save(self):
-            count = len(self._held)
-            for state in self._held:
-                self.__dict__.update(state)
-                right, base = furniture.page_number_at
-                self.setFont(REGULAR, furniture.styles.min_pt)
-                self.drawRightString(right, base, f"Page {self._pageNumber} of {count}")
-                Canvas.showPage(self)
-            Canvas.save(self)
-
-    return NumberedCanvas
+    return page_x_of_y_canvas(stamp)
 
 
 def _story(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: str, furniture: _Furniture,
@@ -213,21 +193,34 @@ def _story(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: s
             story += [Paragraph("This side is left blank on purpose (two-sided printing).", styles.body),
                       PageBreak()]
         story.append(_SectionStart(index))
+        skip_conversion = False
         for part in section.parts:
             if part == "instructions":
                 story.append(instructions_block(sheet, styles, layout.compact))
             elif part == "terms" and "instructions" not in section.parts:
-                story.append(Paragraph(markup(sheet["rounding_rule"]) + " Write the points of the patient's row in "
-                                       "the box beside each table's heading.", styles.body))
+                how = (" Note the points of the patient's row in each table." if layout.compact else
+                       " Write the points of the patient's row in the box beside each table's heading.")
+                story.append(Paragraph(markup(sheet["rounding_rule"]) + how + " " + markup(MEASURE_FIRST_RULE),
+                                       styles.body))
                 story.append(Spacer(1, styles.body_pt * 0.5))
                 story += [term_block(term, styles, signed, width) for term in sheet["terms"]]
             elif part == "terms":
                 story += [term_block(term, styles, signed, width) for term in sheet["terms"]]
             elif part == "total":
-                story.append(total_block(styles, width))
+                story.append(total_block(styles, width, layout.compact))
+                if _next_part(section, part) == "conversion_table":
+                    # the total is read off in the table right after it: keep the box on the page the table
+                    # starts on, so the reader never turns a page between adding up and reading the risk
+                    story[-1] = KeepTogether([story[-1]] + conversion_table_block(sheet, styles, layout.compact)[:1])
+                    skip_conversion = True
+            elif part == "record":
+                story.append(record_block(sheet, styles, width))
             elif part == "ranges":
                 story.append(ranges_block(sheet, styles, training_range_texts(sheet), layout.compact))
             elif part == "conversion_table":
+                if skip_conversion:
+                    skip_conversion = False
+                    continue
                 story += conversion_table_block(sheet, styles, layout.compact)
             elif part == "conversion_curve":
                 story += conversion_curve_block(sheet, styles)
@@ -239,6 +232,12 @@ def _story(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: s
             elif part == "nomogram":
                 story += nomogram_block(sheet, styles, signed, furniture.body_top - furniture.body_bottom)
     return story
+
+
+def _next_part(section, part: str) -> str | None:
+    parts = list(section.parts)
+    at = parts.index(part)
+    return parts[at + 1] if at + 1 < len(parts) else None
 
 
 def _build(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: str, blank_before: set[int]) -> tuple[bytes, _Placement]:

@@ -9,9 +9,10 @@ from reportlab.lib import colors
 from reportlab.platypus import Flowable, KeepTogether, Paragraph, Spacer, Table, TableStyle
 
 from scorecard.errors import UserError
-from scorecard.render.fonts import text_width
+from scorecard.pdf_plumbing import text_width
 from scorecard.render.styles import Styles
 from scorecard.render.text import MINUS, markup, points_text, term_heading
+from scorecard.sheet.printed import MEASURE_FIRST_RULE, OTHER_EXPLAINED, pair_missing_text, row_label
 
 RULE = colors.Color(0.55, 0.55, 0.55)
 TINT = colors.Color(0.92, 0.92, 0.92)
@@ -80,7 +81,7 @@ def term_block(term: dict, styles: Styles, signed: bool, width: float) -> Flowab
     box_w = points_w - 2 * PAD
     data = [[Paragraph(markup(term_heading(term)), styles.heading), WriteInBox(box_w, _box_height(styles))]]
     for row in term["rows"]:
-        data.append([Paragraph(markup(row["text"]), styles.body), Paragraph(points_text(row["points"], signed), styles.points)])
+        data.append([Paragraph(markup(row_label(term, row)), styles.body), Paragraph(points_text(row["points"], signed), styles.points)])
     table = NamedTable(data, colWidths=[text_w, points_w], repeatRows=1, hAlign="LEFT")
     commands = [
         ("VALIGN", (0, 0), (-1, -1), "MIDDLE"),
@@ -140,8 +141,9 @@ def pair_block(term: dict, styles: Styles, signed: bool, width: float) -> Flowab
     for i, row in enumerate(axis0["rows"]):
         data.append([Paragraph(markup(row["text"]), styles.body)]
                     + [Paragraph(points_text(p, signed), styles.points_center) for p in term["points"][i]])
-    missing = points_text(term.get("missing_points", 0), signed)
-    data.append([Paragraph(f"If either is not measured: <b>{markup(missing)}</b>", styles.body)] + [""] * n_cols)
+    words, missing = pair_missing_text(term)
+    tail = f" <b>{markup(points_text(missing, signed))}</b>" if missing is not None else ""
+    data.append([Paragraph(markup(words) + tail, styles.body)] + [""] * n_cols)
     last = len(data) - 1
     col_widths = [first_w] + [cell_w] * n_cols
     table = NamedTable(data, colWidths=col_widths, hAlign="LEFT")
@@ -165,11 +167,13 @@ def pair_block(term: dict, styles: Styles, signed: bool, width: float) -> Flowab
     return Tracked([table, Spacer(1, styles.body_pt * 0.6)], what=term_heading(term))
 
 
-def total_block(styles: Styles, width: float) -> Flowable:
-    """The box for the sum of the term boxes, and where to read the risk."""
+def total_block(styles: Styles, width: float, compact: bool = False) -> Flowable:
+    """The box for the sum of the term boxes, and where to read the risk. A card (compact) is kept and reused,
+    so it asks for the sum of the rows found, not of boxes written on it."""
     points_w = points_column_width(styles)
     box = WriteInBox(points_w + styles.body_pt, styles.body_pt * 2.6, line_width=2)
-    data = [[Paragraph("<b>TOTAL POINTS</b> (add the boxes of every table)", styles.heading), box],
+    how = "add the points of the rows found" if compact else "add the boxes of every table"
+    data = [[Paragraph(f"<b>TOTAL POINTS</b> ({how})", styles.heading), box],
             [Paragraph("Read the risk for this total in the conversion table.", styles.body), ""]]
     table = Table(data, colWidths=[width - box.width - 2 * PAD - 2, box.width + 2 * PAD + 2], hAlign="LEFT")
     table.setStyle(TableStyle([
@@ -181,6 +185,33 @@ def total_block(styles: Styles, width: float) -> Flowable:
         ("BACKGROUND", (0, 0), (0, -1), TINT),
     ]))
     return Tracked([table, Spacer(1, styles.body_pt * 0.6)], what="the total box")
+
+
+RECORD_FIELDS = ("Patient identifier", "Date and time scored", "Scored by (name, role)", "Total points")
+
+
+def record_block(sheet: dict, styles: Styles, width: float) -> Flowable:
+    """Where the scoring is recorded, so the sheet kept in the notes says who scored whom, when, and what
+    was done: patient, date and time, scorer, total, band (ringed) and the action taken under local protocol."""
+    label_w = max(text_width(f, styles.body_pt) for f in RECORD_FIELDS + ("Action taken",)) + 2 * PAD + 4
+    line_h = styles.body_pt * 2.1
+    rows = [[Paragraph(markup(f), styles.body), ""] for f in RECORD_FIELDS]
+    bands = [b["name"] for b in sheet.get("bands") or []]
+    if bands:
+        rows.append([Paragraph("Band (ring one)", styles.body), Paragraph(markup("   /   ".join(bands)), styles.body)])
+    rows += [[Paragraph("Action taken", styles.body), ""], ["", ""]]
+    title = [[Paragraph("<b>RECORD OF THIS SCORING</b> (keep with the patient's notes)", styles.heading), ""]]
+    table = Table(title + rows, colWidths=[label_w, width - label_w], rowHeights=[None] + [line_h] * len(rows), hAlign="LEFT")
+    table.setStyle(TableStyle([
+        ("SPAN", (0, 0), (-1, 0)),
+        ("VALIGN", (0, 0), (-1, -1), "BOTTOM"),
+        ("LEFTPADDING", (0, 0), (-1, -1), PAD), ("RIGHTPADDING", (0, 0), (-1, -1), PAD),
+        ("BACKGROUND", (0, 0), (-1, 0), TINT),
+        ("LINEBELOW", (1, 1), (1, -1), 0.5, colors.black),  # the write-in lines
+        ("LINEBELOW", (0, -1), (0, -1), 0.5, colors.black),
+        ("BOX", (0, 0), (-1, -1), 1.0, colors.black),
+    ]))
+    return Tracked([table, Spacer(1, styles.body_pt * 0.6)], what="the record fields")
 
 
 def _paragraphs(lines: list[str], style, what: str, title: str, styles: Styles, compact: bool = False) -> Flowable:
@@ -197,10 +228,17 @@ def _paragraphs(lines: list[str], style, what: str, title: str, styles: Styles, 
 def instructions_block(sheet: dict, styles: Styles, compact: bool = False) -> Flowable:
     steps = [
         f"1. {markup(sheet['rounding_rule'])}",
-        "2. In each table find the patient's row and write its points in the box beside the table's heading.",
-        "3. Add the boxes and write the sum in the TOTAL POINTS box.",
-        "4. Find the total in the conversion table and read the risk.",
+        ("2. In each table find the patient's row and note its points. " if compact else
+         "2. In each table find the patient's row and write its points in the box beside the table's heading. ")
+        + markup(MEASURE_FIRST_RULE),
+        "3. Add the points and write the sum in the TOTAL POINTS box." if not compact else
+        "3. Add the points: that is the total.",
+        "4. Find the total in the conversion table and read the risk." + (
+            " Record the total, band and action in the patient's notes." if compact else
+            " Fill in the record of this scoring."),
     ]
+    if sheet["outcome"].get("score_at"):
+        steps.insert(0, f"When to score: {markup(sheet['outcome']['score_at'])}.")
     return _paragraphs(steps, styles.body, "the scoring steps", "How to score", styles, compact)
 
 
@@ -228,7 +266,9 @@ def ranges_block(sheet: dict, styles: Styles, training_ranges: list[str], compac
     if training_ranges:
         lines.append("The model was not trained beyond these ranges, so points for values outside them are less "
                      "certain: " + "; ".join(markup(t) for t in training_ranges) + ".")
-    lines.append("Not measured: use the \u2018not measured\u2019 row. A table without that row needs the measurement.")
+    lines.append(f"Not measured: use the \u2018not measured\u2019 row. {MEASURE_FIRST_RULE}")
+    if any(r.get("other") for t in sheet["terms"] if t["kind"] == "categorical" for r in t["rows"]):
+        lines.append(markup(OTHER_EXPLAINED))
     if sheet.get("dropped_terms"):
         dropped = "; ".join(markup(f"{dropped_label(sheet, d)} ({d.get('printed') or d['reason']})")
                             for d in sheet["dropped_terms"])

@@ -7,6 +7,8 @@ from __future__ import annotations
 
 from xml.sax.saxutils import escape
 
+from scorecard.sheet.printed import unit_text
+
 MINUS = "\u2212"  # a real minus sign: a hyphen can vanish on a photocopy or read as a dash
 TIMES = "\u00d7"
 
@@ -46,5 +48,5 @@ def term_heading(term: dict) -> str:
     """Block heading: the label, with the unit in brackets for a measured term."""
     if term["kind"] == "pair":
         return term.get("label") or f" {TIMES} ".join(term["labels"])
-    unit = term.get("unit")
+    unit = unit_text(term)
     return f"{term['label']} ({unit})" if unit else term["label"]

@@ -12,40 +12,24 @@ import numpy as np
 import pandas as pd
 from sklearn.metrics import roc_auc_score
 
+from scorecard.discrimination import expected_auc
 from scorecard.errors import UserError
 from scorecard.model.document import AdditiveModel
 from scorecard.model.predict import logistic, predict_logodds
 from scorecard.tabular import flag_column, source_of
+from scorecard.suggest import did_you_mean
 
 
 def observed_outcome(cohort: pd.DataFrame, column: str) -> np.ndarray:
     """0/1 outcome with NaN where not recorded; a column with a single class cannot measure AUC."""
     if column not in cohort.columns:
-        raise UserError(f"{source_of(cohort)}: outcome column {column!r} is not in the file; name it with --outcome")
+        raise UserError(f"{source_of(cohort)}: outcome column {column!r} is not in the file"
+                        f"{did_you_mean(column, list(cohort.columns))}; name it with --outcome")
     y = flag_column(cohort, column)
     known = y[~np.isnan(y)]
     if known.size == 0 or known.min() == known.max():
         raise UserError(f"{source_of(cohort)}: outcome column {column!r} needs both events and non-events to measure AUC")
     return y
-
-
-def expected_auc(scores: np.ndarray, risks: np.ndarray) -> float:
-    """Model-based concordance: the AUC of `scores` expected when patient i has the event with probability risks[i].
-
-    Over all pairs of different patients (i, j): sum p_i (1 - p_j) [s_i > s_j] + 1/2 [s_i = s_j], divided by
-    sum p_i (1 - p_j) (van Klaveren et al., Statistics in Medicine, 2016). Ties are grouped, so it runs in
-    O(n log n).
-    """
-    s = np.asarray(scores, dtype=float)
-    p = np.asarray(risks, dtype=float)
-    values, group = np.unique(s, return_inverse=True)
-    events = np.bincount(group, weights=p, minlength=len(values))
-    non_events = np.bincount(group, weights=1.0 - p, minlength=len(values))
-    self_pairs = np.bincount(group, weights=p * (1.0 - p), minlength=len(values))
-    below = np.cumsum(non_events) - non_events  # non-event weight of strictly lower scores
-    numerator = float((events * below).sum() + 0.5 * (events * non_events - self_pairs).sum())
-    denominator = float(p.sum() * (1.0 - p).sum() - (p * (1.0 - p)).sum())
-    return numerator / denominator
 
 
 def edit_cost(before: AdditiveModel, after: AdditiveModel, cohort: pd.DataFrame, outcome: np.ndarray | None) -> dict:
@@ -73,8 +57,8 @@ def edit_cost(before: AdditiveModel, after: AdditiveModel, cohort: pd.DataFrame,
             calibration_in_the_large_after=observed - risk_after[keep].mean(),
         )
     else:
-        auc_before = expected_auc(lo_before, risk_before)
-        auc_after = expected_auc(lo_after, risk_before)
+        auc_before = expected_auc(risk_before, lo_before)
+        auc_after = expected_auc(risk_before, lo_after)
         figures.update(
             against="the unedited model's risks",
             auc_before=auc_before,

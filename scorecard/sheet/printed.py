@@ -1,8 +1,9 @@
 """What is printed on a sheet, and how a measurement finds its row: the exact rules every stage shares.
 
-`quantize` writes row texts and conversion texts with these functions, `render` prints what they produced,
-and the audit verbs score patients with `row_index` / `row_indices` - so the paper and the software cannot
-drift apart. All arithmetic on printed values is done in whole units of 10**-decimals (integers), so a
+`quantize` writes row texts and conversion texts with these functions and finds each patient's row with
+`read_units_array`; `render` prints what they produced. The audit (`scorecard/audit/paper.py`) keeps its own,
+independent implementation of the reading rule, and a property test proves the two agree at and next to
+every printed tie (tests/audit/test_reading_rule.py). All arithmetic on printed values is done in whole units of 10**-decimals (integers), so a
 cut-point such as 37.5 is never a float comparison.
 """
 
@@ -13,11 +14,17 @@ from decimal import ROUND_FLOOR, ROUND_HALF_UP, Decimal
 
 import numpy as np
 
+ROUNDED, COMPLETED = "rounded", "completed"  # the two reading rules (docs/sheet-document.md)
 ROUNDING_RULE = (
-    "Round each measurement half up to the decimals printed for it (for example 69.5 counts as 70), "
-    "then find its row."
+    "Round each measurement to the decimals printed for it; a value exactly half way goes up (69.5 counts as "
+    "70, 69.49 as 69, 36.45 as 36.5); a table marked \u2018completed\u2019 counts only completed units (79.6 "
+    "years counts as 79). Then find its row."
 )
 NOT_MEASURED_TEXT = "not measured"
+MEASURE_FIRST = "measure first"
+# printed with the tables: the action for a table without a "not measured" row (the model refuses such a patient)
+MEASURE_FIRST_RULE = "A table without a \u2018not measured\u2019 row needs its measurement: measure first, then score."
+TIE_WINDOW = 1e-6  # in display units (relative above 1): a value this close to a tie is decided in decimal
 DASH = "\u2013"  # en dash, as in 70–79
 LE = "\u2264"
 GE = "\u2265"
@@ -62,25 +69,107 @@ def range_text(lower: float | None, upper: float | None, decimals: int) -> str:
     return f"{number_text(lo, decimals)}{DASH}{number_text(hi, decimals)}"
 
 
-def round_half_up(value: float, decimals: int) -> int:
-    """The measurement rounded half up (towards +infinity on a tie) at `decimals` places, in display units.
+def read_units(value: float, decimals: int, reading: str = ROUNDED) -> int:
+    """A measurement as the sheet reads it, in whole display units of 10**-decimals: the exact rule.
 
-    Decimal arithmetic on the shortest repr of the float, so 2.675 at 2 decimals gives 268 as a person
-    writing it down would, not 267 as binary floating point would.
+    The value is taken as the decimal number it was written as (the shortest repr of the float, which is what
+    a CSV cell or a chart entry says), in decimal arithmetic, never binary floating point:
+    - `rounded` (the default): round half up - a value exactly half way goes up, towards +infinity
+      (69.5 -> 70, 2.675 at 2 decimals -> 2.68, 128.4999997 -> 128, -2.5 -> -2);
+    - `completed`: completed units - cut down to the printed decimals (age 79.6 in completed years -> 79).
     """
     scaled = Decimal(repr(float(value))).scaleb(decimals)
+    if reading == COMPLETED:
+        return int(scaled.to_integral_value(rounding=ROUND_FLOOR))
     return int((scaled + Decimal("0.5")).to_integral_value(rounding=ROUND_FLOOR))
 
 
-def round_half_up_array(values: np.ndarray, decimals: int) -> np.ndarray:
-    """Vectorised `round_half_up` (float array, NaN stays NaN), in display units as floats.
+def round_half_up(value: float, decimals: int) -> int:
+    """`read_units` with the default reading (round half up)."""
+    return read_units(value, decimals, ROUNDED)
 
-    The scaled values are first rounded to 6 places to wash out binary noise (2.675 * 100 = 267.49999...),
-    which agrees with the Decimal rule for any measurement recorded with at most decimals + 6 places.
-    """
+
+def read_units_array(values: np.ndarray, decimals: int, reading: str = ROUNDED) -> np.ndarray:
+    """Vectorised `read_units` (float array; NaN and infinities stay as they are), in display units as floats.
+
+    Binary arithmetic decides every value that is clearly away from a tie (from a whole unit for `completed`);
+    a value within a millionth of a unit of one is decided by `read_units` itself, in decimal. The binary
+    error of scaling is below 1e-15 of the value, so both paths give the same answer wherever the fast one is
+    taken."""
     x = np.asarray(values, dtype=float)
-    scaled = np.round(x * 10.0**decimals, 6)
-    return np.floor(scaled + 0.5)
+    z = x * 10.0**decimals
+    finite = np.isfinite(z)
+    zf = np.where(finite, z, 0.0)
+    if reading == COMPLETED:
+        out = np.floor(zf)
+        near = np.abs(zf - np.rint(zf)) <= TIE_WINDOW * np.maximum(1.0, np.abs(zf))
+    else:
+        out = np.floor(zf + 0.5)
+        near = np.abs(zf - np.floor(zf) - 0.5) <= TIE_WINDOW * np.maximum(1.0, np.abs(zf))
+    if decimals == 0:
+        near &= zf != np.floor(zf)  # a whole number is already in whole units, whatever the rule
+    for i in np.flatnonzero(near & finite):
+        out.flat[i] = read_units(x.flat[i], decimals, reading)
+    return np.where(finite, out, x)
+
+
+def round_half_up_array(values: np.ndarray, decimals: int) -> np.ndarray:
+    """`read_units_array` with the default reading (round half up)."""
+    return read_units_array(values, decimals, ROUNDED)
+
+
+def reading_of(block: dict) -> str:
+    """The reading rule of a continuous term or pair axis of a sheet (or a model feature as a dict)."""
+    return block.get("reading") or ROUNDED
+
+
+def completed_example(block: dict) -> str:
+    """'79.6 counts as 79' for a completed-units block: a value a little past a whole unit inside its range."""
+    d = int(block.get("decimals", 0))
+    rng = block.get("training_range") or {}
+    mid = (float(rng.get("min", 0)) + float(rng.get("max", 0))) / 2
+    whole = int(Decimal(repr(mid)).scaleb(d).to_integral_value(rounding=ROUND_FLOOR))
+    past = number_text(whole, d) + "6" if d else f"{whole}.6"
+    return f"{past} counts as {number_text(whole, d)}"
+
+
+def unit_text(block: dict) -> str:
+    """The bracket of a table heading: the unit, as 'completed years' for a block read in completed units."""
+    unit = block.get("unit") or ""
+    if reading_of(block) == COMPLETED:
+        return f"completed {unit or 'units'}"
+    return unit
+
+
+OTHER_NOTE = "any not listed above"
+OTHER_EXPLAINED = ("Other: a category its table does not list (for example a new kind of residence) scores the "
+                   "\u2018Other\u2019 row; check the spelling first.")
+
+
+def row_label(term: dict, row: dict) -> str:
+    """The text printed for a row of a one-feature table: its `text`, and for the single measured row of a
+    continuous table the sheet's reason for it in brackets ('any measured value (its effect is under one point)')."""
+    note = term.get("single_row_note")
+    if note and term["kind"] == "continuous" and not row.get("missing"):
+        return f"{row['text']} ({note})"
+    if row.get("other"):
+        return f"{row['text']} ({OTHER_NOTE})"
+    return row["text"]
+
+
+def pair_missing_text(term: dict) -> tuple[str, int | None]:
+    """The last line of a pair grid and the points it gives ('If either is not measured: ' + points, or the
+    measure-first action for the axes marked so); points None when no patient can take that line."""
+    allowed = term.get("missing_allowed", True)
+    first = [bool(a.get("measure_first")) or not allowed for a in term["axes"]]
+    points = int(term.get("missing_points", 0))
+    if all(first):
+        return f"If either is not measured: {MEASURE_FIRST}, then score", None
+    if not any(first):
+        return "If either is not measured:", points
+    free = term["labels"][first.index(False)]
+    strict = term["labels"][first.index(True)]
+    return f"{strict}: {MEASURE_FIRST}. If {free} is not measured:", points
 
 
 def row_bounds_units(rows: list[dict], decimals: int) -> tuple[np.ndarray, np.ndarray]:
@@ -91,13 +180,13 @@ def row_bounds_units(rows: list[dict], decimals: int) -> tuple[np.ndarray, np.nd
     return lo, hi
 
 
-def row_index(rows: list[dict], value: float | None, decimals: int) -> int:
-    """Index in `rows` of the row a measurement belongs to: round half up to `decimals`, then
+def row_index(rows: list[dict], value: float | None, decimals: int, reading: str = ROUNDED) -> int:
+    """Index in `rows` of the row a measurement belongs to: read it (`read_units`) at `decimals`, then
     lower <= value < upper. A missing value (None or NaN) gives the index of the not-measured row,
-    or -1 when the sheet has none (the feature must be measured)."""
+    or -1 when the sheet has none (the feature must be measured first)."""
     if value is None or (isinstance(value, float) and math.isnan(value)):
         return next((i for i, r in enumerate(rows) if r.get("missing")), -1)
-    v = round_half_up(value, decimals)
+    v = read_units(value, decimals, reading)
     for i, r in enumerate(rows):
         if r.get("missing"):
             continue
@@ -106,12 +195,12 @@ def row_index(rows: list[dict], value: float | None, decimals: int) -> int:
     raise ValueError(f"value {value} falls in no row; the rows do not cover the line")
 
 
-def row_indices(rows: list[dict], values: np.ndarray, decimals: int) -> np.ndarray:
+def row_indices(rows: list[dict], values: np.ndarray, decimals: int, reading: str = ROUNDED) -> np.ndarray:
     """Vectorised `row_index` for a float array (NaN = not measured -> the missing row, or -1)."""
     x = np.asarray(values, dtype=float)
     lo, _ = row_bounds_units(rows, decimals)
     ranged_at = [i for i, r in enumerate(rows) if not r.get("missing")]
-    v = round_half_up_array(x, decimals)
+    v = read_units_array(x, decimals, reading)
     # rows are contiguous and ordered, so the row is the last one whose lower bound is <= v
     pos = np.searchsorted(lo, np.where(np.isnan(v), 0.0, v), side="right") - 1
     out = np.asarray(ranged_at, dtype=np.int64)[np.clip(pos, 0, len(ranged_at) - 1)]
@@ -147,12 +236,16 @@ def risk_text_rounding(risk: float) -> float:
     return 0.0005 if (pct < 9.95 or pct >= 99.5) else 0.005
 
 
+def band_indices(bands: list[dict], risks) -> np.ndarray:
+    """Index of the risk band of each risk: previous upper_risk <= risk < upper_risk; the last band is open
+    (null). The one band rule of quantize, render and the audit (docs/sheet-document.md)."""
+    uppers = np.array([np.inf if b["upper_risk"] is None else float(b["upper_risk"]) for b in bands])
+    return np.minimum(np.searchsorted(uppers, np.asarray(risks, dtype=float), side="right"), len(bands) - 1)
+
+
 def band_of(bands: list[dict], risk: float) -> int:
-    """Index of the risk band: previous upper_risk <= risk < upper_risk; the last band is open (null)."""
-    for i, b in enumerate(bands):
-        if b["upper_risk"] is None or risk < b["upper_risk"]:
-            return i
-    return len(bands) - 1
+    """`band_indices` of one risk."""
+    return int(band_indices(bands, [risk])[0])
 
 
 def flag_text(value: bool) -> str:

@@ -75,17 +75,23 @@ def test_temperature_lands_in_the_printed_row(value, row):
 def test_categories_flags_and_the_pair_grid():
     rows = [
         {**BASE, "residence": "care_home", "prior_delirium": "yes", "age": 85, "cognition": 3},
-        {**BASE, "residence": "", "prior_delirium": "", "age": 79, "cognition": 3},
+        {**BASE, "residence": "", "prior_delirium": "0", "age": 79, "cognition": 3},
         {**BASE, "residence": "mars", "prior_delirium": "1", "age": 80, "cognition": ""},
     ]
     scored = score_cohort(sheet_dict(), frame(rows))
     assert choice(scored, "residence") == ["Care home", "not measured", "not measured"]  # unseen -> policy 'missing'
-    assert choice(scored, "prior_delirium")[0] == "Yes"
-    assert choice(scored, "prior_delirium")[1].startswith("not measured")  # the sheet has no row: 0 points
+    assert choice(scored, "prior_delirium") == ["Yes", "No", "Yes"]
     assert choice(scored, "age:cognition") == ["≥ 80 / ≤ 3", "≤ 79 / ≤ 3", "not measured"]
     pair = next(t for t in scored.terms if t.name == "age:cognition")
     assert pair.patient_points().tolist() == [3, 0, 0]
     assert any("mars" in note for note in scored.notes)
+
+
+def test_a_table_without_a_not_measured_row_says_measure_first_and_score_refuses():
+    # the printed rule (render prints "not measured: measure first, then score") is followed, as the model does
+    rows = [BASE, {**BASE, "prior_delirium": ""}]
+    with pytest.raises(UserError, match=r"row 2, column 'prior_delirium': not measured, and the sheet says to measure first"):
+        score_cohort(sheet_dict(), frame(rows))
 
 
 def test_unseen_level_with_policy_error_names_row_and_column():
@@ -107,7 +113,7 @@ def test_total_and_risk_follow_the_sheets_own_arithmetic():
     assert np.array_equal(scored.total, by_hand)
     # outside reference: scipy's expit is the logistic function the sheet document defines the risk with
     scale = sheet["scale"]
-    assert np.allclose(scored.risk, expit(scale["offset"] + scale["logodds_per_point"] * scored.total), rtol=0, atol=1e-12)
+    assert np.allclose(scored.risk, expit(scale["offset"] + scale["logodds_per_point"] * scored.total), rtol=0, atol=1e-9)  # risks stored at 11 digits (jsondoc)
 
 
 def test_continuous_rows_agree_with_the_shared_printed_rule():
@@ -147,7 +153,7 @@ def files(tmp_path):
     (tmp_path / "model.json").write_text(pretty_text(model_dict()))
     (tmp_path / "cohort.csv").write_text(
         "id,age,temperature,cognition,residence,prior_delirium\n"
-        "a,69.5,36.45,3,home,yes\nb,79.4,,8,care_home,no\nc,101,38.49,,hospital,\n")
+        "a,69.5,36.45,3,home,yes\nb,79.4,,8,care_home,no\nc,101,38.49,,hospital,no\n")
     return tmp_path
 
 

@@ -87,7 +87,7 @@ def _cohort(n=400, seed=5) -> pd.DataFrame:
         "temperature": np.round(rng.uniform(35.0, 40.0, n), 2).astype(str),
         "cognition": rng.integers(0, 11, n).astype(str),
         "residence": rng.choice(["home", "care_home", "hospital", ""], n),
-        "prior_delirium": rng.choice(["0", "1", ""], n),
+        "prior_delirium": rng.choice(["0", "1"], n),  # the sheet has no not-measured row for it: it must be measured
     })
     frame.attrs["source"] = "invented.csv"
     return frame

@@ -76,7 +76,8 @@ def test_terms_are_centred_under_the_population(cohort):
         total, weighted = counts.sum(), (scores * counts).sum()
         if term.missing_score is not None:
             total, weighted = total + term.missing_count, weighted + term.missing_score * term.missing_count
-        assert abs(weighted / total) < 1e-12, term.name  # exact population (the expected counts)
+        # exact population (the expected counts); the document's 11-digit numbers (jsondoc) leave ~1e-12
+        assert abs(weighted / total) < 1e-10, term.name
     # and on a sample of 100,000 patients, each term's mean is near 0 (Monte Carlo error only)
     parts, _ = contributions(model, cohort)
     for name in parts.columns:
@@ -89,7 +90,7 @@ def test_pair_is_purified_as_a_fitter_reports_it():
     grid, weights = np.asarray(pair.scores), np.asarray(pair.counts)
     rows = (grid * weights).sum(axis=1) / weights.sum(axis=1)
     cols = (grid * weights).sum(axis=0) / weights.sum(axis=0)
-    assert np.abs(rows).max() < 1e-12 and np.abs(cols).max() < 1e-12
+    assert np.abs(rows).max() < 1e-10 and np.abs(cols).max() < 1e-10  # 11-digit document numbers (jsondoc)
     # low cognition matters more at high age: the purified grid still has a positive age x (10 - screen) trend
     assert grid[-1, 0] - grid[-1, -1] > grid[0, 0] - grid[0, -1]
 

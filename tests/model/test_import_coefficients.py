@@ -72,7 +72,7 @@ def test_continuous_terms_are_flat_beyond_their_stated_range(statsmodels_fit, tm
     probe["mean_texture"] = [hi, hi + 10]
     parts, report = contributions(model, probe)
     b = result.params["mean_texture"]
-    assert parts["mean_texture"].tolist() == pytest.approx([b * hi, b * hi], rel=1e-12)
+    assert parts["mean_texture"].tolist() == pytest.approx([b * hi, b * hi], rel=1e-10)  # 11-digit document numbers (jsondoc)
     assert report.out_of_range == {"mean_texture": 1}
 
 

@@ -112,10 +112,10 @@ def test_column_transformer_with_one_hot_flag_and_dropped_column(breast_cancer):
     coef = estimator[-1].coef_[0]
     names = list(estimator[0].get_feature_names_out())
     medium, small = coef[names.index("levels__size_medium")], coef[names.index("levels__size_small")]
-    assert size.scores[1] - size.scores[0] == pytest.approx(medium, abs=1e-12)
-    assert size.scores[2] - size.scores[0] == pytest.approx(small, abs=1e-12)
+    assert size.scores[1] - size.scores[0] == pytest.approx(medium, abs=1e-9)  # 11-digit document numbers (jsondoc)
+    assert size.scores[2] - size.scores[0] == pytest.approx(small, abs=1e-9)
     flag = model.term("concave")
-    assert flag.scores[1] - flag.scores[0] == pytest.approx(coef[names.index("flag__concave")], abs=1e-12)
+    assert flag.scores[1] - flag.scores[0] == pytest.approx(coef[names.index("flag__concave")], abs=1e-9)
 
 
 def test_plain_logistic_regression_on_an_array(breast_cancer):

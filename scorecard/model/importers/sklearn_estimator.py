@@ -36,6 +36,7 @@ from sklearn.preprocessing import (
     StandardScaler,
 )
 
+from scorecard.jsondoc import canonical_float
 from scorecard.errors import UserError
 from scorecard.model.document import AdditiveModel, Feature, Term, model_from_dict
 from scorecard.model.importers.common import centre_terms, importer_stamp, outcome_block, safe_feature_name
@@ -307,6 +308,9 @@ def _read_partial(frame, column, fname, kind, reference, base, decide, grid_poin
         values = col.to_numpy(dtype=float)
         lo, hi = float(values.min()), float(values.max())
         grid = np.union1d(np.unique(values), np.linspace(lo, hi, grid_points)) if hi > lo else np.array([lo, lo + 1.0])
+        # read the estimator at knots the document can hold exactly (its canonical numbers), so two knots a
+        # few digits apart never merge when the model is saved
+        grid = np.unique([canonical_float(float(v)) for v in grid])
         settings = pd.Series(grid)
     elif kind == "flag":
         settings = pd.Series([False, True] if pd.api.types.is_bool_dtype(col) else [0, 1]).astype(col.dtype)
