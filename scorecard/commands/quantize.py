@@ -85,12 +85,12 @@ def frontier_lines(doc: dict) -> list[str]:
         return []
     where = rows[0]["measured_on"]
     out = [f"alternative sheets (measured on {where}; * = meets every bound set, + = beyond --max-total-points):",
-           "  rows  points   ΔAUC   band   p95 pp  largest pp  mean pp"]
+           "  rows  total points  ΔAUC   band    p95  largest  mean (the last three in percentage points)"]
     for f in rows:
         band = "  –  " if f["band_agreement"] is None else f"{f['band_agreement']:.3f}"
         mark = ("*" if f["meets_bound"] else " ") + (" " if f["within_limits"] else "+")
-        out.append(f"{mark}{f['printed_rows']:4d}  {f['total_points']:6d}  {f['auc_loss']:.4f}  {band}  {f['p95_abs_risk_error'] * 100:6.1f}"
-                   f"  {f['max_abs_risk_error'] * 100:10.1f}  {f['mean_abs_risk_error'] * 100:7.2f}")
+        out.append(f"{mark}{f['printed_rows']:4d}  {f['total_points']:12d}  {f['auc_loss']:.4f}  {band}  {f['p95_abs_risk_error'] * 100:5.1f}"
+                   f"  {f['max_abs_risk_error'] * 100:7.1f}  {f['mean_abs_risk_error'] * 100:5.2f}")
     return out
 
 
@@ -179,15 +179,19 @@ def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_shar
             output) -> None:
     """Quantise MODEL.json into integer point tables that meet an accuracy bound.
 
-    Finds the simplest sheet (fewest printed rows, then the smallest range of total points) whose ΔAUC is at
-    most --max-auc-loss and on which at most --risk-error-share of patients have their risk misstated by
-    more than --max-risk-error. Cut-points are readable values at each feature's printed precision; rows
-    are chosen by dynamic programming on risk-weighted error, row values refitted jointly, points rounded
-    and improved by single-row moves. The sheet document holds every printed row, the conversion from
-    each total to risk, the figures achieved, the worst-case certificate and the sheet fingerprint.
+    Finds the simplest sheet (fewest printed rows, then the smallest range of total points) that meets every
+    bound set: band agreement, a percentile and the largest |sheet risk - model risk| per patient, ΔAUC and
+    the share misstated by more than --max-risk-error. Rows are given where they lower the per-patient error
+    most (backfitting: each term re-segmented by dynamic programming against what the other terms leave),
+    at readable cut-points; points are rounded and improved by row moves. With --data a third of the cohort
+    is held out and the sheet must meet the bound there too; the figures stored and printed are the held-out
+    ones. Prints a frontier of alternative sheets. The sheet document holds every printed row, the
+    conversion from each total to risk (with the spread of model risk per total), the figures achieved, the
+    worst-case certificate and the sheet fingerprint.
 
     Exit 3 when no sheet within --max-rows and --max-total-points meets the bound (the message gives the
-    best achievable figures and what to relax); exit 2 for bad options or files. See docs/quantization.md.
+    best achievable figures, what to relax and the nearest passing sheet, which --write-nearest writes);
+    exit 2 for bad options or files. See docs/quantization.md.
 
     \b
     Examples:

@@ -1,13 +1,16 @@
 """From an additive model to a sheet document: the search for the simplest sheet that meets the bound.
 
-1. pieces and options: every term's curve is split into pieces and segmented optimally for 1..max_rows rows
-   at readable cuts (`curves`, `segment`, `nice`);
-2. allocation: a row budget is spread over the terms (`allocate`);
-3. refit: all row values are refitted jointly (`refit`);
+1. pieces: every term's curve is split into pieces, cut only at readable values (`curves`, `nice`);
+2. allocation for the per-patient error: from one row per term, rows are added where they lower the whole
+   sheet's weighted per-patient error most, each term re-segmented by the exact DP (`segment`) against the
+   partial residual the other terms leave (`backfit`); this gives a path of ever larger sheets;
+3. refit: all row values of a sheet are refitted jointly (`refit`);
 4. scale and points: a points scale and integer points, improved beyond independent rounding (`points`);
-5. check: ΔAUC and the share of patients misstated by more than the risk bound (`figures`).
-The smallest row budget that passes is found by bisection, then the smallest total-points range for it;
-the figures are measured in full, the certificate computed (`certificate`) and the document assembled.
+5. judge: every bound set (`Bound.misses` on `accuracy.quick_figures`), on the patients the sheet is chosen
+   on and on a held-out part (`split_populations`).
+The smallest sheet on the path that passes is found by bisection, then the smallest total-points range for
+it; the figures are measured in full on the held-out part, the certificate computed (`certificate`), the
+spread per total and per band added, the frontier of alternatives recorded and the document assembled.
 """
 
 from __future__ import annotations

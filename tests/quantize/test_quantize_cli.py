@@ -144,6 +144,11 @@ def test_infeasible_bound_exits_3_with_best_figures(model_file, tmp_path):
     (["--bands", "low<20,moderate<5,high"], "--bands"),
     (["--bands", "low<abc,high"], "--bands"),
     (["--max-rows", "many"], "many"),
+    (["--min-band-agreement", "1.5"], "--min-band-agreement"),
+    (["--min-band-agreement", "most"], "most"),
+    (["--max-percentile-risk-error", "0"], "--max-percentile-risk-error"),
+    (["--max-largest-risk-error", "-0.2"], "--max-largest-risk-error"),
+    (["--risk-error-percentile", "120"], "--risk-error-percentile"),
 ])
 def test_bad_options_exit_2(model_file, tmp_path, args, message):
     res = run(model_file, *args, "-o", tmp_path / "s.sheet.json")
