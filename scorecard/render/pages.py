@@ -113,8 +113,7 @@ class _Furniture:
         when = f" \u00b7 <b>Score:</b> {markup(outcome['score_at'])}" if outcome.get("score_at") else ""
         si = si_units_on(sheet) if tuple(sorted(layout.page_size)) in US_PAPER else []
         if si:  # a US ward reads °F, g/dL, mg/dL: say plainly that these tables are not in those units
-            when += (f" \u00b7 <b>Units: SI</b> ({markup(', '.join(si))}); convert US units before scoring, or print "
-                     "a sheet made with quantize --display-unit")
+            when += f" \u00b7 <b>Units: SI</b> ({markup(', '.join(si))}), not US units"
         self.outcome = Paragraph(
             f"<b>Outcome:</b> {markup(outcome['event'])} \u00b7 <b>Horizon:</b> {markup(outcome['horizon'])} \u00b7 "
             f"<b>For:</b> {markup(outcome['population'])}{when}", styles.small)
