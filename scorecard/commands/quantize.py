@@ -7,7 +7,7 @@ from dataclasses import replace
 import click
 
 from scorecard.commands._common import output_path, say
-from scorecard.errors import CheckFailed
+from scorecard.errors import CheckFailed, UserError
 from scorecard.jsondoc import atomic_write_bytes
 from scorecard.model import load_model
 from scorecard.quantize import Bound, parse_bands, quantize_model
@@ -128,6 +128,62 @@ def frontier_png_bytes(doc: dict) -> bytes:
     return buffer.getvalue()
 
 
+def display_model(model, data, display_units: tuple[str, ...], molar_masses: tuple[str, ...]):
+    """The model (and the cohort's columns) in the display units asked for, and each feature's conversion."""
+    from scorecard.model.units import conversion, convert_values, in_display_unit
+    from scorecard.suggest import did_you_mean
+    from scorecard.tabular import numeric_column
+
+    known = [f.name for f in model.features if f.kind == "continuous"]
+    masses = {}
+    for item in molar_masses:
+        name, eq, value = item.partition("=")
+        try:
+            masses[name.strip()] = float(value)
+        except ValueError:
+            raise UserError(f"--molar-mass {item}: write FEATURE=G_PER_MOL, e.g. --molar-mass glucose=180.16") from None
+        if not eq or not masses[name.strip()] > 0:
+            raise UserError(f"--molar-mass {item}: write FEATURE=G_PER_MOL with a positive number, e.g. glucose=180.16")
+    conversions = {}
+    for item in display_units:
+        name, eq, unit = item.partition("=")
+        name, unit = name.strip(), unit.strip()
+        unit, colon, places = unit.partition(":")
+        if not eq or not name or not unit:
+            raise UserError(f"--display-unit {item}: write FEATURE=UNIT or FEATURE=UNIT:DECIMALS, e.g. temperature=degF")
+        if name not in known:
+            raise UserError(f"--display-unit {item}: {name!r} is not a measured feature of the model"
+                            f"{did_you_mean(name, known)}; measured features: {', '.join(known)}")
+        decimals = None
+        if colon:
+            if not places.strip().isdigit() or int(places) > 6:
+                raise UserError(f"--display-unit {item}: decimals must be a whole number from 0 to 6, e.g. haemoglobin=g/dL:1")
+            decimals = int(places)
+        feature = model.feature(name)
+        if not feature.unit:
+            raise UserError(f"--display-unit {item}: the model gives {name!r} no unit to convert from; set it at fit (--unit)")
+        conv = conversion(feature.unit, unit, masses.get(name), where=f"--display-unit {item}")
+        model = in_display_unit(model, name, conv, decimals)
+        conversions[name] = {k: conv[k] for k in ("from_unit", "scale", "offset")}
+        conversions[name]["from_unit"] = feature.unit
+        if data is not None and name in data.columns:
+            data = data.copy()
+            data[name] = convert_values(numeric_column(data, name), conv)
+    return model, data, conversions
+
+
+def in_model_units(doc: dict, model, conversions: dict) -> dict:
+    """The sheet belongs to the model as written; its tables say how a value reaches their display unit."""
+    if conversions:
+        doc["model"] = {"name": model.name, "version": model.version, "fingerprint": model.fingerprint}
+        for term in doc["terms"]:
+            blocks = term["axes"] if term["kind"] == "pair" else [term]
+            for block in blocks:
+                if block.get("feature") in conversions and block["kind"] == "continuous":
+                    block["display_conversion"] = conversions[block["feature"]]
+    return doc
+
+
 @click.command()
 @click.argument("model_path", metavar="MODEL.json", type=click.Path())
 @click.option("--data", "data_path", metavar="COHORT.csv", type=click.Path(),
@@ -172,10 +228,17 @@ def frontier_png_bytes(doc: dict) -> bytes:
 @click.option("--write-nearest", "nearest_path", metavar="FILE.json", type=click.Path(),
               help="When no sheet within the limits meets the bound (exit 3), write the nearest sheet that does "
                    "(more total points) to this file; it still exits 3, since the limits asked for were not met.")
+@click.option("--display-unit", "display_units", multiple=True, metavar="FEATURE=UNIT[:DECIMALS]",
+              help="Print FEATURE in the ward's own unit, e.g. temperature=degF, haemoglobin=g/dL:1; cut-points are "
+                   "found in that unit and score converts the cohort's values exactly before reading them "
+                   "(factors from pint; repeatable).")
+@click.option("--molar-mass", "molar_masses", multiple=True, metavar="FEATURE=G_PER_MOL",
+              help="Molar mass for a concentration shown as mass, e.g. glucose=180.16 for mmol/L -> mg/dL.")
 @click.option("-o", "--output", "output", required=True, type=click.Path(), help="Sheet document to write (*.sheet.json).")
 def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_share, min_band_agreement, risk_error_percentile,
             max_percentile_risk_error, max_largest_risk_error, max_certificate_risk_error, max_rows, max_total_points,
             max_row_error, bands, allow_negative, merge_equal_levels, title, bootstrap, frontier_png, nearest_path,
+            display_units, molar_masses,
             output) -> None:
     """Quantise MODEL.json into integer point tables that meet an accuracy bound.
 
@@ -208,24 +271,28 @@ def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_shar
     band_list = parse_bands(bands)
     model = load_model(model_path)
     data = read_csv(data_path) if data_path else None
+    shown, data, conversions = display_model(model, data, display_units, molar_masses)
     protect = (model_path, data_path) if data_path else (model_path,)
     near = output_path(nearest_path, *protect, option="--write-nearest") if nearest_path else None
     png = output_path(frontier_png, *protect, option="--frontier-plot") if frontier_png else None
     options = dict(data=data, bands=band_list, allow_negative=allow_negative, merge_equal_levels=merge_equal_levels,
                    bootstrap=bootstrap, title=title)
     try:
-        doc = quantize_model(model, bound=bound, progress=say, **options)
+        doc = in_model_units(quantize_model(shown, bound=bound, progress=say, **options), model, conversions)
     except CheckFailed as failed:
         nearest = getattr(failed, "nearest", None)
         if near is not None and nearest is not None:
             relaxed = replace(bound, max_total_points=int(nearest["total_points"]))
-            other = quantize_model(model, bound=relaxed, progress=None, **options)
+            other = in_model_units(quantize_model(shown, bound=relaxed, progress=None, **options), model, conversions)
             save_sheet(other, near, protect=protect)
             say(f"wrote the nearest sheet that meets the bound ({other['report']['printed_rows']} rows, total points "
                 f"{other['total']['min']} to {other['total']['max']}) to {near} (fingerprint {short_fingerprint(other)})")
         elif near is not None:
             say("no nearer sheet meets the bound within 100 total points; nothing written to --write-nearest")
         raise
+    for name, conv in conversions.items():
+        say(f"{name}: printed in {shown.feature(name).unit} (= {conv['scale']} x {conv['from_unit']} + {conv['offset']}); "
+            "cut-points found in that unit")
     save_sheet(doc, out, protect=protect)
     for line in summary_lines(doc):
         say(line)
