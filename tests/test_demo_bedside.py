@@ -81,13 +81,16 @@ def test_the_ward_sheet_records_the_scoring_and_says_when_to_score(demo, tmp_pat
         pdf = tmp_path / f"{layout}.pdf"
         result = CliRunner().invoke(main, ["render", str(out / "sheet.json"), "--layout", layout, "-o", str(pdf)])
         assert result.exit_code == 0, result.output
-        first = " ".join(_page_texts(pdf)[0].split())
+        pages = [" ".join(t.split()) for t in _page_texts(pdf)]
+        # on ward-letter a sheet printing every one of its 12 items fills the front, and the record follows on
+        # page 2 (issue 10's per-patient search prints more small items; see /work/notes/issue-10.md)
+        first = pages[0] if layout == "ward-a4" else next((t for t in pages if "RECORD OF THIS SCORING" in t), pages[0])
         for field in ("RECORD OF THIS SCORING", "Patient identifier", "Date and time scored", "Scored by",
                       "Total points", "Band (ring one) low / moderate / high", "Action taken"):
             assert field in first, (layout, field)
-        assert "Score: once the operation is scheduled" in first
+        assert "Score: once the operation is scheduled" in pages[0]
         if layout == "ward-letter":
-            assert "Age (completed years)" in first
+            assert "Age (completed years)" in pages[0]
 
 
 def test_levels_in_clinical_order_other_explained_and_left_off_terms_with_their_own_reason(demo):
