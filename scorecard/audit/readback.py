@@ -9,7 +9,8 @@ What each table must say comes from the sheet document alone:
   points cell per column, then the not-measured row with its points;
 - the conversion table: groups of Total | Risk | Band columns, read down then across, every total in order;
 - the band table: per band its name, first and last total, and first and last risk;
-- the sheet's short fingerprint on every page, and no other fingerprint anywhere.
+- the sheet's short fingerprint on every page, and no other fingerprint anywhere;
+- "Page x of y" on every page, x its place in the file and y the number of pages in the file.
 
 Tables may run on to the next page (their heading row is repeated): rows are collected in page order.
 Points and totals are compared as integers (a printed minus may be U+2212); texts word by word.
@@ -17,6 +18,7 @@ Points and totals are compared as integers (a printed minus may be U+2212); text
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 
 from scorecard.audit.pdf_tables import HEX12, PrintedPage, PrintedTable, Row, Word, read_pdf, reading_order
@@ -328,6 +330,22 @@ class _Checker:
                 self.mismatches.append(Mismatch(page.number, "fingerprint", "page", "(none)", short))
 
 
+    # -- page numbers -------------------------------------------------------------------------------------
+    def page_numbers(self) -> None:
+        """Each page says 'Page x of y' once, with x its place in the file and y the file's page count: a page
+        appended, dropped or moved shows here even without the fresh render."""
+        count = len(self.pages)
+        for page in self.pages:
+            said = PAGE_X_OF_Y.findall(page.text)
+            self.cells += 1
+            expected = f"Page {page.number} of {count}"
+            if [f"Page {x} of {y}" for x, y in said] != [expected]:
+                self.mismatches.append(Mismatch(page.number, "page number", "Page x of y", ", ".join(f"Page {x} of {y}" for x, y in said) or "(none)", expected))
+
+
+PAGE_X_OF_Y = re.compile(r"\bPage (\d+) of (\d+)\b")
+
+
 def _fixed(value: float, decimals: int) -> str:
     """A number at `decimals` places, rounded half up in decimal arithmetic (as the sheet prints it)."""
     from decimal import ROUND_HALF_UP, Decimal
@@ -368,6 +386,7 @@ def verify_pages(sheet: dict, pages: list[PrintedPage], source: str = "PDF") -> 
     check.conversion()
     check.band_table()
     check.running_text()
+    check.page_numbers()
     return VerifyResult(len(pages), check.cells, check.mismatches)
 
 
