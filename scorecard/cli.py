@@ -18,7 +18,7 @@ ALIASES = {"quantise": "quantize"}
 
 # the order a newcomer meets the verbs in `scorecard --help`: along the pipeline
 PIPELINE_ORDER = ["demo", "fit", "import", "predict", "review", "edit", "explain", "quantize", "render", "score", "check", "verify",
-                  "compare", "recalibrate", "exercise", "mark"]
+                  "compare", "recalibrate", "exercise", "mark", "export"]
 
 
 class PipelineGroup(click.Group):

@@ -115,3 +115,17 @@ def test_a_left_off_pair_is_named_as_the_combined_effect_of_its_two_features():
 
     pair = SimpleNamespace(features=[SimpleNamespace(label="Age"), SimpleNamespace(label="Cognitive screen")])
     assert _term_label(pair) == "the combined effect of Age and Cognitive screen, beyond each alone"
+
+
+def test_large_print_keeps_the_total_box_and_the_conversion_table_together(demo, tmp_path):
+    out, _ = demo
+    pdf = tmp_path / "large.pdf"
+    result = CliRunner().invoke(main, ["render", str(out / "sheet.json"), "--layout", "large-print-a4", "-o", str(pdf)])
+    assert result.exit_code == 0, result.output
+    texts = _page_texts(pdf)
+    box = [i + 1 for i, t in enumerate(texts) if "TOTAL POINTS (" in t]
+    table = [i + 1 for i, t in enumerate(texts) if "Total points \u2192 risk" in t]
+    assert len(box) == 1 and table
+    # the same page, or facing pages of a bound copy (an even left page and the odd right page after it)
+    assert table[0] == box[0] or (box[0] % 2 == 0 and table[0] == box[0] + 1)
+    assert min(t for t in texts if "Nomogram" in t)  # the nomogram still follows

@@ -10,36 +10,38 @@ measured". A piece whose row or points differ is a change to teach.
 from __future__ import annotations
 
 from scorecard.sheet import NOT_MEASURED_TEXT, band_of, flag_text, range_text, row_index, short_fingerprint
-from scorecard.sheet.printed import number_text, units
+from scorecard.sheet.printed import COMPLETED, number_text, reading_of, units
 
 NO_ROW = "(no row)"
 
 
-def _effective_cut(lower: float, decimals: int, finest: int) -> int:
-    """Where a row's printed lower bound falls for values written at `finest` decimals: a coarser sheet rounds
-    half up first, so its cut 36 at 0 decimals starts at 35.5 (common practice: half-up rounding)."""
+def _effective_cut(lower: float, block: dict, finest: int) -> int:
+    """Where a row's printed lower bound falls for values written at `finest` decimals: a coarser sheet read
+    half up starts its row 36 (0 decimals) at 35.5 (common practice: half-up rounding); one read in completed
+    units starts it at 36 itself (docs/sheet-document.md, the reading rule)."""
+    decimals = int(block["decimals"])
     cut = units(lower, finest)
-    if decimals < finest:
+    if decimals < finest and reading_of(block) != COMPLETED:
         cut -= 5 * 10 ** (finest - decimals - 1)
     return cut
 
 
-def _row_at(rows: list[dict], decimals: int, value_units: int, finest: int) -> int:
-    return row_index(rows, float(number_text(value_units, finest)), decimals)
+def _row_at(block: dict, value_units: int, finest: int) -> int:
+    return row_index(block["rows"], float(number_text(value_units, finest)), int(block["decimals"]), reading_of(block))
 
 
 def continuous_pieces(old: dict | None, new: dict | None) -> list[dict]:
     """Pieces of a continuous block; `old`/`new` are {rows, decimals} (None when the block is absent)."""
     blocks = [b for b in (old, new) if b is not None]
     finest = max(int(b["decimals"]) for b in blocks)
-    cuts = sorted({_effective_cut(r["lower"], int(b["decimals"]), finest)
+    cuts = sorted({_effective_cut(r["lower"], b, finest)
                    for b in blocks for r in b["rows"] if not r.get("missing") and r.get("lower") is not None})
     edges = [None] + cuts + [None]
     spans: list[list] = []  # [lower units, upper units, old row, new row]; neighbours on the same rows merge
     for lo, hi in zip(edges[:-1], edges[1:]):
         probe = lo if lo is not None else (0 if hi is None else hi - 1)
-        old_row = _pick(old, lambda b: _row_at(b["rows"], int(b["decimals"]), probe, finest))
-        new_row = _pick(new, lambda b: _row_at(b["rows"], int(b["decimals"]), probe, finest))
+        old_row = _pick(old, lambda b: _row_at(b, probe, finest))
+        new_row = _pick(new, lambda b: _row_at(b, probe, finest))
         if spans and spans[-1][2] == old_row and spans[-1][3] == new_row:
             spans[-1][1] = hi
         else:
@@ -113,7 +115,8 @@ def _row_texts(block: dict) -> list[str]:
 def _term_change(old: dict, new: dict) -> dict:
     """Everything that differs in one term printed on both versions."""
     changes: list[str] = []
-    for key, what in (("label", "heading"), ("unit", "unit"), ("decimals", "printed decimals"), ("unseen", "unlisted levels go to")):
+    for key, what in (("label", "heading"), ("unit", "unit"), ("decimals", "printed decimals"), ("reading", "reading rule"),
+                      ("unseen", "unlisted levels go to")):
         if old.get(key) != new.get(key):
             changes.append(f"{what}: {old.get(key)!r} -> {new.get(key)!r}")
     if old["kind"] == "pair":

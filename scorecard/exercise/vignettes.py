@@ -2,7 +2,8 @@
 
 For every measured item the sheet needs, a list of *targets* is made: one value inside each printed row (and
 each row of a pair axis), then the cases a nurse gets wrong: each printed cut itself and the last printed value
-below it (boundaries), a value written with one more decimal than printed that rounds half up across a cut,
+below it (boundaries), a value written with one more decimal than printed, next to a cut (half up: 79.5 -> 80;
+completed units: 79.6 -> 79),
 "not measured" where the sheet has a row for it, a value outside the training range, and a level no row lists
 where the sheet has an "Other" row. Targets are dealt to the vignettes in a seeded random order, one per item
 per vignette, so together the vignettes use every printed row at least once; the remaining places get ordinary
@@ -17,7 +18,7 @@ import numpy as np
 
 from scorecard.audit.paper import sheet_features
 from scorecard.errors import UserError
-from scorecard.sheet.printed import number_text, units
+from scorecard.sheet.printed import COMPLETED, number_text, reading_of, units
 
 UNLISTED_LEVEL = "something else"  # a level no row lists: scored on the sheet's "Other" row
 
@@ -59,9 +60,11 @@ def _continuous_targets(blocks: list[dict], rng: np.random.Generator) -> list[Ta
             targets.append(Target(number_text(cut - 1, bd), "boundary"))
     cuts = [units(r["lower"], int(main["decimals"])) for r in main["rows"] if not r.get("missing") and r["lower"] is not None]
     if cuts:
-        # one more decimal than printed, exactly half a printed unit below a cut: rounds half up into the upper row
+        # one more decimal than printed, just below a cut: read half up, x.5 goes up into the upper row (79.5
+        # counts as 80); read in completed units, x.6 stays in the lower row (79.6 years counts as 79)
         cut = cuts[int(rng.integers(0, len(cuts)))]
-        targets.append(Target(number_text(cut * 10 - 5, d + 1), "more decimals"))
+        tenths = 4 if reading_of(main) == COMPLETED else 5
+        targets.append(Target(number_text(cut * 10 - tenths, d + 1), "more decimals"))
     span = max(rng_hi - rng_lo, 10)
     outside = rng_hi + max(1, span // 10) if rng.random() < 0.5 else rng_lo - max(1, span // 10)
     targets.append(Target(number_text(outside, d), "out of range"))

@@ -11,7 +11,8 @@ from dataclasses import dataclass, field, replace
 
 from reportlab.lib import colors
 from reportlab.pdfgen.canvas import Canvas
-from reportlab.platypus import BaseDocTemplate, Flowable, Frame, NextPageTemplate, PageBreak, PageTemplate, Paragraph, Spacer
+from reportlab.platypus import (BaseDocTemplate, Flowable, Frame, KeepTogether, NextPageTemplate, PageBreak, PageTemplate,
+                                Paragraph, Spacer)
 
 from scorecard import __version__
 from scorecard.errors import UserError
@@ -219,6 +220,7 @@ def _story(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: s
             story += [Paragraph("This side is left blank on purpose (two-sided printing).", styles.body),
                       PageBreak()]
         story.append(_SectionStart(index))
+        skip_conversion = False
         for part in section.parts:
             if part == "instructions":
                 story.append(instructions_block(sheet, styles, layout.compact))
@@ -233,11 +235,19 @@ def _story(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: s
                 story += [term_block(term, styles, signed, width) for term in sheet["terms"]]
             elif part == "total":
                 story.append(total_block(styles, width, layout.compact))
+                if _next_part(section, part) == "conversion_table":
+                    # the total is read off in the table right after it: keep the box on the page the table
+                    # starts on, so the reader never turns a page between adding up and reading the risk
+                    story[-1] = KeepTogether([story[-1]] + conversion_table_block(sheet, styles, layout.compact)[:1])
+                    skip_conversion = True
             elif part == "record":
                 story.append(record_block(sheet, styles, width))
             elif part == "ranges":
                 story.append(ranges_block(sheet, styles, training_range_texts(sheet), layout.compact))
             elif part == "conversion_table":
+                if skip_conversion:
+                    skip_conversion = False
+                    continue
                 story += conversion_table_block(sheet, styles, layout.compact)
             elif part == "conversion_curve":
                 story += conversion_curve_block(sheet, styles)
@@ -249,6 +259,12 @@ def _story(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: s
             elif part == "nomogram":
                 story += nomogram_block(sheet, styles, signed, furniture.body_top - furniture.body_bottom)
     return story
+
+
+def _next_part(section, part: str) -> str | None:
+    parts = list(section.parts)
+    at = parts.index(part)
+    return parts[at + 1] if at + 1 < len(parts) else None
 
 
 def _build(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: str, blank_before: set[int]) -> tuple[bytes, _Placement]:

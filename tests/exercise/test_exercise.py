@@ -9,7 +9,7 @@ from __future__ import annotations
 
 import json
 import math
-from decimal import ROUND_HALF_UP, Decimal
+from decimal import ROUND_FLOOR, ROUND_HALF_UP, Decimal
 
 import pandas as pd
 import pytest
@@ -60,9 +60,13 @@ def test_vignettes_use_every_printed_row_and_the_hard_cases(made):
             if v[f].case == "more decimals":
                 term = next(t for t in sheet["terms"] if t.get("feature") == f)
                 written = Decimal(v[f].text)
-                # outside reference: Python's decimal ROUND_HALF_UP at the printed decimals lands on a printed cut
-                rounded = written.quantize(Decimal(1).scaleb(-term["decimals"]), rounding=ROUND_HALF_UP)
-                assert rounded != written and any(r.get("lower") is not None and Decimal(repr(r["lower"])) == rounded for r in term["rows"])
+                # outside reference: Python's decimal module reads the value by the sheet's rule (half up, or
+                # completed units = floor); it lands on a printed cut or on the last printed value below one
+                rule = ROUND_FLOOR if term.get("reading") == "completed" else ROUND_HALF_UP
+                read = written.quantize(Decimal(1).scaleb(-term["decimals"]), rounding=rule)
+                step = Decimal(1).scaleb(-term["decimals"])
+                cuts = {Decimal(repr(r["lower"])) for r in term["rows"] if r.get("lower") is not None}
+                assert read != written and (read in cuts or read + step in cuts)
             if v[f].case == "out of range":
                 term = next(t for t in sheet["terms"] if t.get("feature") == f)
                 x = float(v[f].text)

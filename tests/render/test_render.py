@@ -411,7 +411,7 @@ def test_the_cautions_box_shares_its_page_and_no_page_holds_it_alone(sheet, layo
     with_box = [p[4] for p in pages if "Before you use this sheet" in p[4]]
     assert len(with_box) == 1
     # the box sits with the total box or the conversion, never on a page of its own (a nurse skips such a page)
-    assert ("TOTAL POINTS" in with_box[0] or "RECORD OF THIS SCORING" in with_box[0]
+    assert ("TOTAL POINTS" in with_box[0] or "RECORD OF THIS SCORING" in with_box[0] or "Outside the printed ranges" in with_box[0]
             or "Total points \u2192 risk" in with_box[0] or "Risk bands" in with_box[0])
 
 
