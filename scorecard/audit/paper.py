@@ -27,6 +27,7 @@ import numpy as np
 import pandas as pd
 
 from scorecard.errors import UserError
+from scorecard.sheet.printed import band_indices
 from scorecard.tabular import category_column, flag_column, numeric_column, require_columns, source_of
 
 NOT_LISTED_TEXT = "not listed (no row on the sheet: 0 points)"
@@ -310,12 +311,9 @@ def conversion_arrays(sheet: dict) -> tuple[int, np.ndarray, np.ndarray]:
 
 
 def band_index(sheet: dict, risk: np.ndarray) -> np.ndarray | None:
-    """Band of each risk: previous upper_risk <= risk < upper_risk (docs/sheet-document.md)."""
+    """Band of each risk by the sheet's band rule (`scorecard.sheet.printed.band_indices`); None without bands."""
     bands = sheet.get("bands") or []
-    if not bands:
-        return None
-    uppers = np.array([np.inf if b["upper_risk"] is None else float(b["upper_risk"]) for b in bands])
-    return np.minimum(np.searchsorted(uppers, risk, side="right"), len(bands) - 1)
+    return band_indices(bands, risk) if bands else None
 
 
 def units_warnings(sheet: dict, values: dict[str, np.ndarray], share: float = 0.5) -> tuple[list[str], np.ndarray]:

@@ -23,7 +23,7 @@ from dataclasses import dataclass
 
 from scorecard.audit.pdf_tables import HEX12, PrintedPage, PrintedTable, Row, Word, read_pdf, reading_order
 from scorecard.errors import UserError
-from scorecard.sheet.printed import pair_missing_text, row_label
+from scorecard.sheet.printed import band_of, pair_missing_text, row_label
 
 MINUS_SIGNS = ("\u2212", "-", "\u2013")
 
@@ -225,7 +225,7 @@ class _Checker:
             self.mismatches.append(Mismatch(None, block, "table", "(no conversion table found)", "Total | Risk table"))
             return
         for k, row in enumerate(self.sheet["conversion"]):
-            expected_band = bands[_band_index(bands, row["risk"])]["name"] if bands else None
+            expected_band = bands[band_of(bands, row["risk"])]["name"] if bands else None
             name = f"total {row['total']}"
             if k >= len(entries):
                 self.mismatches.append(Mismatch(entries[-1][0], block, name, "(missing)", f"{row['total']} {row['text']}"))
@@ -244,7 +244,7 @@ class _Checker:
         if not bands:
             return
         block = "band table"
-        members = [_band_index(bands, c["risk"]) for c in self.sheet["conversion"]]
+        members = [band_of(bands, c["risk"]) for c in self.sheet["conversion"]]
         for page in self.pages:
             for table in page.tables:
                 for i, row in enumerate(table.rows):
@@ -357,13 +357,6 @@ def _is_conversion_header(row: Row) -> bool:
     heads = [" ".join(w.text for w in c) for c in row.cells()]
     return bool(heads) and all(h in ("Total Risk Band", "Total Risk") for h in heads)
 
-
-def _band_index(bands: list[dict], risk: float) -> int:
-    """previous upper_risk <= risk < upper_risk; the last band is open (docs/sheet-document.md)."""
-    for i, b in enumerate(bands):
-        if b["upper_risk"] is None or risk < b["upper_risk"]:
-            return i
-    return len(bands) - 1
 
 
 def verify_pages(sheet: dict, pages: list[PrintedPage], source: str = "PDF") -> VerifyResult:

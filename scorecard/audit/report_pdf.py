@@ -8,8 +8,6 @@ on the figures alone: the PDF is written with reportlab's invariant mode and fix
 from __future__ import annotations
 
 import io
-from functools import lru_cache
-from pathlib import Path
 
 from reportlab.graphics.shapes import Circle, Drawing, Line, PolyLine, Rect, String
 from reportlab.lib import colors
@@ -17,31 +15,19 @@ from reportlab.lib.enums import TA_LEFT
 from reportlab.lib.pagesizes import A4
 from reportlab.lib.styles import ParagraphStyle
 from reportlab.lib.units import mm
-from reportlab.pdfbase import pdfmetrics
-from reportlab.pdfbase.ttfonts import TTFont
-from reportlab.pdfgen.canvas import Canvas
 from reportlab.platypus import KeepTogether, Paragraph, SimpleDocTemplate, Spacer, Table, TableStyle
 from xml.sax.saxutils import escape
 
 from scorecard.invented import draw_band
+from scorecard.pdf_plumbing import page_x_of_y_canvas, register_fonts, wrap_words
 
-FONT, BOLD = "ScorecardAuditSans", "ScorecardAuditSans-Bold"
 PASS_COLOUR, FAIL_COLOUR = colors.HexColor("#1b6e20"), colors.HexColor("#b00020")
 
 
-@lru_cache(maxsize=1)
-def _fonts() -> tuple[str, str]:
-    """DejaVu Sans from the files matplotlib ships (prints ≤ ≥ – × −; no system fonts needed)."""
-    import matplotlib
-
-    folder = Path(matplotlib.get_data_path()) / "fonts" / "ttf"
-    pdfmetrics.registerFont(TTFont(FONT, str(folder / "DejaVuSans.ttf")))
-    pdfmetrics.registerFont(TTFont(BOLD, str(folder / "DejaVuSans-Bold.ttf")))
-    return FONT, BOLD
 
 
 def _styles() -> dict[str, ParagraphStyle]:
-    regular, bold = _fonts()
+    regular, bold = register_fonts()
     return {
         "title": ParagraphStyle("title", fontName=bold, fontSize=15, leading=19, spaceAfter=4),
         "h": ParagraphStyle("h", fontName=bold, fontSize=11, leading=14, spaceBefore=8, spaceAfter=3),
@@ -67,7 +53,7 @@ def _pct(value, places: int = 2) -> str:
 
 
 def _table(rows: list[list], widths: list[float], header: bool = True, extra: list | None = None) -> Table:
-    regular, bold = _fonts()
+    regular, bold = register_fonts()
     style = [
         ("FONTNAME", (0, 0), (-1, -1), regular),
         ("FONTSIZE", (0, 0), (-1, -1), 7.5),
@@ -88,7 +74,7 @@ def _table(rows: list[list], widths: list[float], header: bool = True, extra: li
 
 
 def _axes(drawing: Drawing, x0, y0, w, h, xlabel: str, ylabel: str, xticks, yticks, xmap, ymap) -> None:
-    regular, _ = _fonts()
+    regular, _ = register_fonts()
     drawing.add(Line(x0, y0, x0 + w, y0, strokeWidth=0.6))
     drawing.add(Line(x0, y0, x0, y0 + h, strokeWidth=0.6))
     for v, label in xticks:
@@ -134,7 +120,7 @@ def histogram_drawing(hist: dict) -> Drawing:
 
 def calibration_drawing(outcomes: dict) -> Drawing:
     """Observed event rate against mean predicted risk in tenths of predicted risk, model and sheet."""
-    regular, _ = _fonts()
+    regular, _ = register_fonts()
     d = Drawing(170 * mm, 80 * mm)
     x0, y0, size = 45, 32, 80 * mm - 45
     top = max(max(g[k] for g in outcomes[w]["calibration_table"] for k in ("predicted", "observed")) for w in ("model", "sheet"))
@@ -173,7 +159,7 @@ def _bounds_table(report: dict, s: dict, lead: bool) -> Table:
     for i, b in enumerate(pick(report["bounds"]), start=1):
         rows.append([_p(b["what"], s["cell"]), _p(b["shown"], s["cell"]), "PASS" if b["pass"] else "FAIL"])
         extra.append(("TEXTCOLOR", (2, i), (2, i), PASS_COLOUR if b["pass"] else FAIL_COLOUR))
-        extra.append(("FONTNAME", (2, i), (2, i), _fonts()[1]))
+        extra.append(("FONTNAME", (2, i), (2, i), register_fonts()[1]))
     for f in pick(report.get("not_bounded", [])):
         rows.append([_p(f["what"], s["cell"]), _p(f["shown"], s["cell"]), _p("not bounded", s["cell"])])
         extra.append(("TEXTCOLOR", (2, len(rows) - 1), (2, len(rows) - 1), colors.HexColor("#555555")))
@@ -260,7 +246,7 @@ def _patient_block(p: dict, s: dict) -> KeepTogether:
 def report_pdf_bytes(report: dict, cautions: list[str]) -> bytes:
     """The whole report as PDF bytes (deterministic for the same report)."""
     s = _styles()
-    regular, bold = _fonts()
+    regular, bold = register_fonts()
     sheet = report["sheet"]
     story = [_p(f"Agreement report: {sheet['title']}", s["title"])]
     story.append(_p(f"Sheet fingerprint {sheet['short_fingerprint']} (full: {sheet['fingerprint']})", s["body"]))
@@ -323,7 +309,7 @@ def report_document_bytes(story: list, cautions: list[str], short_fingerprint: s
     """A report's flowables as A4 PDF bytes with the cautions, the fingerprint and 'page x of y' on every page
     (deterministic: reportlab's invariant mode and fixed metadata), and the invented-data bands when `invented`.
     Shared by every report verb."""
-    regular, bold = _fonts()
+    regular, bold = register_fonts()
     caution_text = "  ".join(cautions)
 
     def on_page(canvas, doc):
@@ -335,7 +321,7 @@ def report_document_bytes(story: list, cautions: list[str], short_fingerprint: s
         canvas.setFont(regular, 6.5)
         width, _ = A4
         text = canvas.beginText(15 * mm, 14 * mm)
-        for line in _wrap(caution_text, regular, 6.5, width - 30 * mm):
+        for line in wrap_words(caution_text, 6.5, width - 30 * mm):
             text.textLine(line)
         canvas.drawText(text)
         canvas.setFont(bold, 7)
@@ -350,40 +336,15 @@ def report_document_bytes(story: list, cautions: list[str], short_fingerprint: s
 
 
 def _page_of_total_canvas(font: str):
-    """A canvas that holds every page until the end and then stamps 'page x of y', so an auditor sees a missing
-    page (common practice: the two-pass page-count recipe for reportlab canvases)."""
+    """'page x of y' at the foot of every report page, so an auditor sees a missing page."""
 
-    class PageOfTotalCanvas(Canvas):
-        def __init__(self, *args, **kwargs):
-            super().__init__(*args, **kwargs)
-            self._pages = []
+    def stamp(canvas, page: int, total: int) -> None:
+        canvas.setFont(font, 7)
+        canvas.drawRightString(A4[0] - 15 * mm, 6 * mm, f"page {page} of {total}")
 
-        def showPage(self):
-            self._pages.append(dict(self.__dict__))
-            self._startPage()
-
-        def save(self):
-            total = len(self._pages)
-            for state in self._pages:
-                self.__dict__.update(state)
-                self.setFont(font, 7)
-                self.drawRightString(A4[0] - 15 * mm, 6 * mm, f"page {self._pageNumber} of {total}")
-                super().showPage()
-            super().save()
-
-    return PageOfTotalCanvas
+    return page_x_of_y_canvas(stamp)
 
 
-def _wrap(text: str, font: str, size: float, width: float) -> list[str]:
-    lines, line = [], ""
-    for word in text.split():
-        trial = f"{line} {word}".strip()
-        if pdfmetrics.stringWidth(trial, font, size) > width and line:
-            lines.append(line)
-            line = word
-        else:
-            line = trial
-    return lines + ([line] if line else [])
 
 
 # the building blocks other report verbs (compare, exercise, recalibrate) lay their pages out with

@@ -9,28 +9,7 @@ from __future__ import annotations
 
 import numpy as np
 
-
-def tie_groups(score: np.ndarray) -> tuple[np.ndarray, int]:
-    """Rank of each score among the distinct scores (ties share a group) and the number of groups."""
-    values, inverse = np.unique(np.asarray(score, dtype=float), return_inverse=True)
-    return inverse.astype(np.int64), len(values)
-
-
-def weighted_auc(groups: np.ndarray, n_groups: int, w_pos: np.ndarray, w_neg: np.ndarray) -> float:
-    """Area under the ROC curve with weighted positives and negatives (ties count one half).
-
-    AUC = sum_i sum_j w_pos_i w_neg_j [s_i > s_j] + 1/2 [s_i = s_j], divided by (sum w_pos)(sum w_neg): the
-    Mann-Whitney form (Hanley & McNeil, Radiology 1982). With 0/1 weights it is the ordinary AUC, equal to
-    scikit-learn's roc_auc_score; with w_pos = p, w_neg = 1 - p it is the AUC expected when outcomes follow the
-    risks p. `groups` ranks the scores (ties share a group), see `tie_groups`.
-    """
-    pos = np.bincount(groups, weights=w_pos, minlength=n_groups)
-    neg = np.bincount(groups, weights=w_neg, minlength=n_groups)
-    below = np.cumsum(neg) - neg
-    denom = pos.sum() * neg.sum()
-    if denom <= 0:
-        return float("nan")
-    return float((pos * (below + 0.5 * neg)).sum() / denom)
+from scorecard.discrimination import tie_groups, weighted_auc  # noqa: F401  the report's AUCs
 
 
 def poisson_weight_table(size: int = 65536) -> np.ndarray:

@@ -38,3 +38,42 @@ def preview_folder(path: str | None) -> Path | None:
     if folder.exists() and not folder.is_dir():
         raise UserError(f"--preview {folder}: is a file; give a folder for the page previews (it is created if absent)")
     return folder
+
+
+class BadValue(ValueError):
+    """Raised by a FeatureValue's value parser with the reason, in words, that the value is refused."""
+
+
+class FeatureValue(click.ParamType):
+    """NAME=VALUE, the one parser of every option that names a feature or term and gives it a value
+    (fit --unit/--label/--decimals/--order, explain --values, edit --declare/--pool-levels/--hold-*/...).
+
+    Converts to the pair (name, value), both stripped of spaces; `value` turns the text into what the option
+    needs and raises ValueError for a bad one (BadValue to say why in words). Whether the name is known is the
+    command's business: it knows the model or the table. A malformed value is one line naming the option, the
+    text given and an example; exit 2."""
+
+    name = "name=value"
+
+    def __init__(self, example: str, value=str, form: str = "FEATURE=VALUE", empty_ok: bool = False) -> None:
+        self.example, self.value, self.form, self.empty_ok = example, value, form, empty_ok
+
+    def convert(self, text, param, ctx):
+        if isinstance(text, tuple):  # already a pair: a command invoked from Python (the demo) with parsed values
+            return text
+        option = max(param.opts, key=len) if param is not None else "option"
+        name, eq, value = str(text).partition("=")
+        if not eq or not name.strip() or not (value.strip() or self.empty_ok):
+            raise UserError(f"{option} {text!r}: write it as {self.form}, e.g. {option} {self.example}")
+        try:
+            return name.strip(), self.value(value.strip())
+        except BadValue as exc:
+            raise UserError(f"{option} {text!r}: {exc}; e.g. {option} {self.example}") from None
+        except ValueError:
+            why = f"{value.strip()!r} is not a valid value"
+            raise UserError(f"{option} {text!r}: {why}; e.g. {option} {self.example}") from None
+
+
+def level_list(text: str) -> list[str]:
+    """LEVEL,LEVEL,... as a list of stripped, non-empty level names."""
+    return [lv.strip() for lv in text.split(",") if lv.strip()]

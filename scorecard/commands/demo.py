@@ -68,7 +68,7 @@ SPARSE_TAIL_REASON = (
     "hours to surgery beyond 96 and more than 12 regular medicines rest on fewer than 30 patients each (review "
     "flags): held at their last well-supported value"
 )
-SPARSE_TAILS_HELD_ABOVE = ("hours_to_surgery=96", "medicines=12")
+SPARSE_TAILS_HELD_ABOVE = (("hours_to_surgery", 96.0), ("medicines", 12.0))  # as `edit --hold-above` parses them
 
 
 # levels in a clinical order (own home, with family, care home: rising dependence), not by name
@@ -83,11 +83,11 @@ def fit_model(ctx: click.Context, folder: Path, cohort: Path) -> Path:
     ctx.invoke(
         fit, data_path=str(cohort), outcome=OUTCOME, exclude=("patient_id",), name="Delirium after hip fracture (demo)",
         event=OUTCOME_TEXT["event"], horizon=OUTCOME_TEXT["horizon"], population=OUTCOME_TEXT["population"],
-        labels=tuple(f"{n}={label}" for n, label, *_ in FEATURE_INFO),
-        units=tuple(f"{n}={unit}" for n, _, unit, *_ in FEATURE_INFO if unit),
-        decimals=tuple(f"{n}={d}" for n, _, _, d, kind, *_ in FEATURE_INFO if kind == "continuous"),
+        labels=tuple((n, label) for n, label, *_ in FEATURE_INFO),
+        units=tuple((n, unit) for n, _, unit, *_ in FEATURE_INFO if unit),
+        decimals=tuple((n, d) for n, _, _, d, kind, *_ in FEATURE_INFO if kind == "continuous"),
         score_at=OUTCOME_TEXT["score_at"], completed=COMPLETED_UNITS,
-        orders=tuple(f"{n}={','.join(levels)}" for n, levels in CLINICAL_ORDER.items()), invented=True,
+        orders=tuple((n, list(levels)) for n, levels in CLINICAL_ORDER.items()), invented=True,
         output=str(path),
     )
     return path
@@ -99,7 +99,7 @@ def review_model(ctx: click.Context, folder: Path, fitted: Path, cohort: Path) -
     from scorecard.commands.review import command as review
 
     declared = folder / "declared.model.json"
-    ctx.invoke(edit, model_path=str(fitted), declarations=(f"{CARE_PROCESS_FLAG}=care_process",),
+    ctx.invoke(edit, model_path=str(fitted), declarations=((CARE_PROCESS_FLAG, "care_process"),),
                reason="the older-people's team review is a care process, not a patient measurement",
                editor="scorecard demo", output=str(declared))
     ctx.invoke(review, model_path=str(declared), cohort_path=str(cohort), output=str(folder / "review.pdf"),

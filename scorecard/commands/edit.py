@@ -3,25 +3,25 @@
 from __future__ import annotations
 
 import getpass
+import math
 import os
 from datetime import datetime, timezone
 from pathlib import Path
 
 import click
 
-from scorecard.commands._common import output_path, say
+from scorecard.commands._common import BadValue, FeatureValue, level_list, output_path, say
 from scorecard.errors import UserError
 from scorecard.jsondoc import file_sha256
 from scorecard.model import load_model, save_model
 from scorecard.review.cost import cost_lines, edit_cost, observed_outcome
+from scorecard.review.history import apply_edits
 from scorecard.review.edits import (
+    DECLARATIONS,
     DIRECTIONS,
     declare,
     force_direction,
     hold_beyond,
-    parse_declaration,
-    parse_hold,
-    parse_pool,
     pool_levels,
     remove_effect,
 )
@@ -48,11 +48,29 @@ def _default_editor() -> str:
         return "unknown"
 
 
-def _parse_direction(text: str) -> tuple[str, str]:
-    name, eq, direction = text.partition("=")
-    if not eq or not name.strip() or direction.strip() not in DIRECTIONS:
-        raise UserError(f"--force-direction {text}: write TERM=increasing or TERM=decreasing, e.g. --force-direction age=increasing")
-    return name.strip(), direction.strip()
+def _choice(allowed, reason: str):
+    def cast(text: str) -> str:
+        if text not in allowed:
+            raise BadValue(reason)
+        return text
+    return cast
+
+
+def _two_or_more_levels(text: str) -> list[str]:
+    levels = level_list(text)
+    if len(levels) < 2:
+        raise BadValue("write TERM=LEVEL,LEVEL[,...] with at least two levels")
+    return levels
+
+
+def _finite_number(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise BadValue(f"{text!r} is not a number") from None
+    if not math.isfinite(value):
+        raise BadValue("the value must be a finite number")
+    return value
 
 
 # the option names of earlier releases, answered with the new name instead of click's bare "no such option"
@@ -93,18 +111,25 @@ def _outcome_column(model, given: str | None) -> str | None:
 @click.command(cls=EditCommand)
 @click.argument("model_path", metavar="MODEL.json", type=click.Path())
 @click.option("--declare", "declarations", multiple=True, metavar="FEATURE=VALUE",
+              type=FeatureValue("geriatric_review=care_process", _choice(DECLARATIONS, "write FEATURE=VALUE with VALUE one of "
+                                                                            + ", ".join(DECLARATIONS))),
               help="Declare what a feature is: increasing / decreasing (risk should only rise / fall with it), "
                    "unordered (clear the direction), care_process (a treatment or care-process marker whose "
                    "apparent effect must not drive care) or measurement. Read by `scorecard review`. Repeatable.")
 @click.option("--pool-levels", "pools", multiple=True, metavar="TERM=A,B[,...]",
+              type=FeatureValue("residence=home,sheltered", _two_or_more_levels, form="TERM=LEVEL,LEVEL[,...]"),
               help="Pool these levels of a categorical term: they share their patient-weighted mean score. Repeatable.")
 @click.option("--hold-below", "holds_below", multiple=True, metavar="TERM=VALUE",
+              type=FeatureValue("sodium=125", _finite_number, form="TERM=VALUE"),
               help="Below VALUE the term keeps the score it has at VALUE (e.g. sodium=125: a sodium of 118 scores "
                    "as 125 does). VALUE must lie in the training range. Repeatable.")
 @click.option("--hold-above", "holds_above", multiple=True, metavar="TERM=VALUE",
+              type=FeatureValue("medicines=12", _finite_number, form="TERM=VALUE"),
               help="Above VALUE the term keeps the score it has at VALUE (e.g. medicines=12). VALUE must lie in "
                    "the training range. Repeatable.")
 @click.option("--force-direction", "directions", multiple=True, metavar="TERM=increasing|decreasing",
+              type=FeatureValue("age=increasing", _choice(DIRECTIONS, "write TERM=increasing or TERM=decreasing"),
+                                form="TERM=increasing or TERM=decreasing"),
               help="Make risk only rise (or only fall) with a measurement or flag: its closest such shape "
                    "(weighted isotonic regression, weights = patients per bin); also declares the direction. Repeatable.")
 @click.option("--remove-effect", "removals", multiple=True, metavar="TERM",
@@ -152,28 +177,15 @@ def command(model_path, declarations, pools, holds_below, holds_above, direction
     if cohort_path:
         data_note = {"file": Path(cohort_path).name, "sha256": file_sha256(cohort_path), "rows": len(cohort)}
 
-    steps = [lambda m, d=d: declare(m, *parse_declaration(d)) for d in declarations]
-    steps += [lambda m, t=t: pool_levels(m, *parse_pool(t), cohort=cohort) for t in pools]
-    steps += [lambda m, h=parse_hold(t, "below"): hold_beyond(m, h[0], lo=h[1]) for t in holds_below]
-    steps += [lambda m, h=parse_hold(t, "above"): hold_beyond(m, h[0], hi=h[1]) for t in holds_above]
-    steps += [lambda m, t=t: force_direction(m, *_parse_direction(t), cohort=cohort) for t in directions]
+    steps = [lambda m, d=d: declare(m, *d) for d in declarations]
+    steps += [lambda m, t=t: pool_levels(m, *t, cohort=cohort) for t in pools]
+    steps += [lambda m, h=h: hold_beyond(m, h[0], lo=h[1]) for h in holds_below]
+    steps += [lambda m, h=h: hold_beyond(m, h[0], hi=h[1]) for h in holds_above]
+    steps += [lambda m, t=t: force_direction(m, *t, cohort=cohort) for t in directions]
     steps += [lambda m, t=t: remove_effect(m, t) for t in removals]
 
-    who = editor if editor else _default_editor()
-    when = _edit_time()
-    records = []
-    current = model
-    for step in steps:
-        edited, record = step(current)
-        record = {"by": who, "at": when, **record, "reason": reason, "applied_to": current.fingerprint}
-        if cohort is not None and record["action"] != "declare":
-            record["data"] = data_note
-            record["cost"] = edit_cost(current, edited, cohort, observed)
-        records.append(record)
-        # each step's model carries its own record, so `applied_to` of the next edit is the fingerprint the
-        # model would have had if the edits had been run one command at a time
-        edited.provenance["edits"] = list(current.provenance.get("edits", [])) + [record]
-        current = edited
+    current, records = apply_edits(model, steps, by=editor if editor else _default_editor(), at=_edit_time(),
+                                   reason=reason, cohort=cohort, observed=observed, data_note=data_note)
     history = model.provenance.get("edits", [])
     fingerprint = save_model(current, out, protect=(model_path,) + ((cohort_path,) if cohort_path else ()))
 

@@ -3,12 +3,15 @@
 from __future__ import annotations
 
 import json
+import textwrap
 import math
 
 import click
 import numpy as np
 import pandas as pd
 
+from scorecard.cautions import cautions
+from scorecard.commands._common import FeatureValue
 from scorecard.errors import UserError
 from scorecard.model import explain, load_model
 from scorecard.model.document import AdditiveModel
@@ -16,21 +19,18 @@ from scorecard.tabular import is_missing_text, read_csv
 from scorecard.suggest import did_you_mean
 
 
-def values_frame(model: AdditiveModel, pairs: tuple[str, ...]) -> pd.DataFrame:
-    """A one-patient table from FEATURE=VALUE pairs; features not given are not measured."""
+def values_frame(model: AdditiveModel, pairs: tuple[tuple[str, str], ...]) -> pd.DataFrame:
+    """A one-patient table from (feature, value) pairs; features not given are not measured."""
     given: dict[str, str] = {}
     known = {f.name for f in model.features}
-    for pair in pairs:
-        name, eq, value = pair.partition("=")
-        name = name.strip()
-        if not eq or not name:
-            raise UserError(f"--values {pair}: write FEATURE=VALUE, e.g. --values age=84 --values sodium=128")
+    for name, value in pairs:
+        pair = f"{name}={value}"
         if name not in known:
             raise UserError(f"--values {pair}: feature {name!r} is not in the model{did_you_mean(name, known)}; "
                             f"known features: {', '.join(sorted(known))}")
         if name in given:
             raise UserError(f"--values {pair}: feature {name!r} is given twice")
-        given[name] = value.strip()
+        given[name] = value
     required = [n for n in model.used_features if model.feature(n).missing == "error" and n not in given]
     if required:
         listed = ", ".join(required)
@@ -88,9 +88,8 @@ def table_text(model: AdditiveModel, result: dict, where: str) -> str:
         f"{'total log-odds':<{w_term + w_val + 2}}  {result['logodds']:>+9.3f}",
         f"{'risk':<{w_term + w_val + 2}}  {100 * result['risk']:>8.1f}%",
         "",
-        "Decision support only; it does not replace clinical judgement. Valid only for the population and outcome",
-        "stated. Associations, not causes. Follow local protocols and licensed clinicians' judgement.",
-        f"Check the model fingerprint against the approved version: {model.fingerprint}",
+        *textwrap.wrap(" ".join(cautions("this explanation", "The contributions show")), 110),
+        f"Model fingerprint: {model.fingerprint}",
     ]
     return "\n".join(lines)
 
@@ -100,6 +99,7 @@ def table_text(model: AdditiveModel, result: dict, where: str) -> str:
 @click.option("--row", type=int, metavar="N", help="Patient to explain: data row N of --data (1 = first row under the header).")
 @click.option("--data", "cohort_path", metavar="COHORT.csv", type=click.Path(), help="Cohort holding the patient.")
 @click.option("--values", "pairs", multiple=True, metavar="FEATURE=VALUE",
+              type=FeatureValue("age=84 --values sodium=128", empty_ok=True),
               help="Describe the patient directly instead (repeatable); features not given count as not measured, "
                    "which is refused for a feature the model cannot score when missing.")
 @click.option("--json", "as_json", is_flag=True, help="Print the explanation as JSON instead of a table.")

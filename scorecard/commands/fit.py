@@ -8,16 +8,14 @@ import click
 import numpy as np
 import pandas as pd
 
-from scorecard.commands._common import output_path, say
+from scorecard.commands._common import FeatureValue, level_list, output_path, say
 from scorecard.errors import UserError
 from scorecard.jsondoc import file_sha256
 from scorecard.model import save_model
 from scorecard.model.declare import declare_completed, declare_level_order
 from scorecard.suggest import did_you_mean
-from scorecard.tabular import FLAG_FALSE, FLAG_TRUE, flag_column, is_missing_text, numeric_column, read_csv
-
-MIN_EVENTS = 10  # below this no shape can be told from noise (common practice: >= 10 events per variable is already generous)
-
+from scorecard.fit.columns import feature_column, looks_like_identifier, outcome_values, uninformative_reason
+from scorecard.tabular import numeric_column, read_csv
 
 def _names(values: tuple[str, ...]) -> list[str]:
     """Repeatable options that also accept comma-separated lists."""
@@ -27,27 +25,15 @@ def _names(values: tuple[str, ...]) -> list[str]:
     return out
 
 
-def _settings(values: tuple[str, ...], option: str, known: list[str], cast) -> dict:
+def _settings(pairs: tuple[tuple[str, object], ...], option: str, known: list[str]) -> dict:
+    """FEATURE=VALUE pairs (parsed by FeatureValue) as a dict, each name a feature being fitted."""
     out = {}
-    for item in values:
-        name, sep, value = item.partition("=")
-        name = name.strip()
-        if not sep or not name:
-            raise UserError(f"{option} {item!r}: write it as FEATURE=VALUE, e.g. {option} {_EXAMPLES[option]}")
+    for name, value in pairs:
         if name not in known:
-            raise UserError(f"{option} {item!r}: {name!r} is not a feature being fitted{did_you_mean(name, known)}; "
+            raise UserError(f"{option} {name}=...: {name!r} is not a feature being fitted{did_you_mean(name, known)}; "
                             f"features: {', '.join(known)}")
-        try:
-            out[name] = cast(value.strip())
-        except ValueError:
-            raise UserError(f"{option} {item!r}: {value.strip()!r} is not a valid value; "
-                            f"e.g. {option} {_EXAMPLES[option]}") from None
+        out[name] = value
     return out
-
-
-# what a FEATURE=VALUE option looks like, for its error message
-_EXAMPLES = {"--order": "residence=own_home,with_family,care_home", "--unit": "sodium=mmol/L", "--decimals": "temperature=1 (a whole number from 0 to 6)",
-             "--label": '"sodium=Sodium (blood)"'}
 
 
 def _decimals(text: str) -> int:
@@ -55,81 +41,6 @@ def _decimals(text: str) -> int:
     if not 0 <= n <= 6:
         raise ValueError(text)
     return n
-
-
-def outcome_values(frame: pd.DataFrame, column: str, source: str) -> np.ndarray:
-    """0/1 outcome from 1/0, yes/no or true/false; anything else names the values found."""
-    col = frame[column]
-    missing = is_missing_text(col)
-    if missing.any():
-        row = int(np.flatnonzero(missing)[0])
-        raise UserError(f"{source}: row {row + 1}, column {column!r}: the outcome is empty; every patient needs 0 or 1")
-    text = col.astype(str).str.strip().str.lower()
-    known = text.isin(FLAG_TRUE | FLAG_FALSE)
-    if not known.all():
-        found = sorted(set(col.astype(str).str.strip()))
-        shown = ", ".join(repr(v) for v in found[:6]) + (f" and {len(found) - 6} more" if len(found) > 6 else "")
-        raise UserError(f"{source}: outcome column {column!r} must be binary (0/1, yes/no); found values {shown}")
-    y = flag_column(frame, column)
-    events = int(y.sum())
-    if events == 0 or events == len(y):
-        only = "1 (event)" if events else "0 (no event)"
-        raise UserError(f"{source}: outcome column {column!r} has only one class, {only}, in all {len(y)} rows; a risk model needs both")
-    if events < MIN_EVENTS:
-        raise UserError(f"{source}: outcome column {column!r} has {events} events; at least {MIN_EVENTS} are needed to fit a model")
-    return y
-
-
-def feature_column(frame: pd.DataFrame, name: str, categorical: bool) -> tuple[np.ndarray, str]:
-    """(values, kind): numbers (NaN = not measured), 0/1 from yes/no text, or level text (None = missing).
-
-    A column is read as categories when named with --categorical or when none of its cells is a number; a
-    column that is mostly numbers with some text is an error naming the first bad row."""
-    col = frame[name]
-    missing = is_missing_text(col)
-    text = col.astype(str).str.strip()
-    if categorical:
-        levels = text.to_numpy(dtype=object)
-        levels[missing] = None
-        return levels, "categorical"
-    present = text[~missing]
-    lowered = present.str.lower()
-    if len(present) and lowered.isin(FLAG_TRUE | FLAG_FALSE).all() and not pd.to_numeric(present, errors="coerce").notna().all():
-        return flag_column(frame, name), "flag"
-    if len(present) and pd.to_numeric(present, errors="coerce").isna().all():
-        levels = text.to_numpy(dtype=object)
-        levels[missing] = None
-        return levels, "categorical"
-    return numeric_column(frame, name), "numeric"
-
-
-def _informative(values: np.ndarray) -> str | None:
-    """Why a column cannot inform the model (all missing, or one value and nothing missing), or None."""
-    if values.dtype == object:
-        present = [v for v in values if v is not None]
-        n_missing = len(values) - len(present)
-        distinct = len(set(present))
-    else:
-        present = values[~np.isnan(values)]
-        n_missing = len(values) - len(present)
-        distinct = len(np.unique(present))
-    if distinct == 0:
-        return "every value is missing"
-    if distinct == 1 and n_missing == 0:
-        return "it has the same value for every patient"
-    return None
-
-
-def _looks_like_identifier(values: np.ndarray) -> bool:
-    """Whole numbers or text, all different, in a table of more than 50 patients."""
-    if len(values) <= 50:
-        return False
-    if values.dtype == object:
-        present = [v for v in values if v is not None]
-        return len(present) == len(values) and len(set(present)) == len(present)
-    if np.isnan(values).any() or not np.all(values == np.round(values)):
-        return False
-    return len(np.unique(values)) == len(values)
 
 
 def _pairs_option(text: str):
@@ -162,9 +73,10 @@ def _pairs_option(text: str):
 @click.option("--event", default=None, help="What the outcome is, printed on the sheet (default: the outcome column's name).")
 @click.option("--horizon", default="not stated", show_default=True, help="Over what time the event is counted, e.g. '5 days after surgery'.")
 @click.option("--population", default="not stated", show_default=True, help="Who the model is for, e.g. 'adults aged 60 or over after hip-fracture surgery'.")
-@click.option("--label", "labels", multiple=True, metavar="FEATURE=TEXT", help="Printed label of a feature (repeatable).")
-@click.option("--unit", "units", multiple=True, metavar="FEATURE=UNIT", help="Unit of a feature, e.g. sodium=mmol/L (repeatable).")
-@click.option("--decimals", "decimals", multiple=True, metavar="FEATURE=N", help="Decimals to print for a feature (repeatable; default: as recorded).")
+@click.option("--label", "labels", multiple=True, metavar="FEATURE=TEXT", type=FeatureValue('"sodium=Sodium (blood)"'), help="Printed label of a feature (repeatable).")
+@click.option("--unit", "units", multiple=True, metavar="FEATURE=UNIT", type=FeatureValue("sodium=mmol/L"), help="Unit of a feature, e.g. sodium=mmol/L (repeatable).")
+@click.option("--decimals", "decimals", multiple=True, metavar="FEATURE=N",
+              type=FeatureValue("temperature=1 (a whole number from 0 to 6)", _decimals), help="Decimals to print for a feature (repeatable; default: as recorded).")
 @click.option("--score-at", "score_at", default=None, metavar="TEXT",
               help="When to score, printed on the sheet: the moment every feature is known, e.g. "
                    "'once the operation is scheduled, before surgery'.")
@@ -172,6 +84,7 @@ def _pairs_option(text: str):
               help="Features recorded in completed units (age in completed years: 79.6 counts as 79); the sheet's "
                    "table says so and `score` reads them that way (comma-separated or repeated).")
 @click.option("--order", "orders", multiple=True, metavar="FEATURE=LEVEL,LEVEL,...",
+              type=FeatureValue("residence=own_home,with_family,care_home", level_list),
               help="The clinical order of a categorical feature's levels, printed in that order (default: by name); "
                    "list every level once (repeatable).")
 @click.option("--invented-data", "invented", is_flag=True,
@@ -235,20 +148,20 @@ def command(data_path, outcome, features, exclude, categorical, weights_column, 
     data, kinds = {}, {}
     for column in chosen:
         values, kind = feature_column(frame, column, column in as_categories)
-        why = _informative(values)
+        why = uninformative_reason(values)
         if why:
             say(f"warning: skipping feature {column!r}: {why}")
             continue
-        if _looks_like_identifier(values):
+        if looks_like_identifier(values):
             say(f"warning: every patient has a different value of {column!r}; if it is an identifier, leave it out with --exclude {column}")
         data[column], kinds[column] = values, kind
     if not data:
         raise UserError(f"{source}: no usable feature left to fit; check --features and the columns' contents")
     kept = list(data)
-    unit_of = _settings(units, "--unit", kept, str)
-    decimals_of = _settings(decimals, "--decimals", kept, _decimals)
-    label_of = _settings(labels, "--label", kept, str)
-    order_of = _settings(orders, "--order", kept, lambda text: [lv.strip() for lv in text.split(",") if lv.strip()])
+    unit_of = _settings(units, "--unit", kept)
+    decimals_of = _settings(decimals, "--decimals", kept)
+    label_of = _settings(labels, "--label", kept)
+    order_of = _settings(orders, "--order", kept)
     completed_names = _names(completed)
     for column in completed_names:
         if column not in kept:

@@ -18,7 +18,9 @@ from __future__ import annotations
 import numpy as np
 from sklearn.metrics import brier_score_loss, roc_auc_score
 
+from scorecard.discrimination import expected_auc
 from scorecard.model import logistic
+from scorecard.sheet.printed import band_indices
 
 
 def doubled(p: np.ndarray, score: np.ndarray) -> tuple[np.ndarray, np.ndarray, np.ndarray]:
@@ -26,18 +28,6 @@ def doubled(p: np.ndarray, score: np.ndarray) -> tuple[np.ndarray, np.ndarray, n
     n = len(p)
     y = np.concatenate([np.ones(n), np.zeros(n)])
     return y, np.concatenate([score, score]), np.concatenate([p, 1 - p])
-
-
-def expected_auc(p: np.ndarray, score: np.ndarray) -> float:
-    """The expected AUC of `score` when patient i is an event with probability p_i (ties count one half).
-
-    Same value as `roc_auc_score(*doubled(p, score))`, in O(n log n) without the doubled arrays."""
-    values, inverse = np.unique(score, return_inverse=True)
-    pos = np.bincount(inverse, weights=p, minlength=len(values))
-    neg = np.bincount(inverse, weights=1 - p, minlength=len(values))
-    below = np.cumsum(neg) - neg
-    total = pos.sum() * neg.sum()
-    return float((pos * (below + 0.5 * neg)).sum() / total) if total > 0 else float("nan")
 
 
 def sklearn_auc(p: np.ndarray, score: np.ndarray) -> float:
@@ -87,13 +77,8 @@ def quick_figures(model_logodds: np.ndarray, sheet_logodds: np.ndarray, max_risk
         "percentile_abs_risk_error": float(np.quantile(err, percentile / 100)),
         "mean_abs_risk_error": float(err.mean()),
         "max_abs_risk_error": float(err.max()),
-        "band_agreement": float(np.mean(band_index(bands, p) == band_index(bands, q))) if bands else None,
+        "band_agreement": float(np.mean(band_indices(bands, p) == band_indices(bands, q))) if bands else None,
     }
-
-
-def band_index(bands: list[dict], risk: np.ndarray) -> np.ndarray:
-    uppers = np.array([b["upper_risk"] if b["upper_risk"] is not None else np.inf for b in bands])
-    return np.searchsorted(uppers, risk, side="right")
 
 
 def full_figures(model_logodds: np.ndarray, sheet_logodds: np.ndarray, max_risk_error: float, bands: list[dict],
@@ -116,7 +101,7 @@ def full_figures(model_logodds: np.ndarray, sheet_logodds: np.ndarray, max_risk_
     intercept, slope = recalibration(p, sheet_logodds)
     agreement = None
     if bands:
-        agreement = float(np.mean(band_index(bands, p) == band_index(bands, q)))
+        agreement = float(np.mean(band_indices(bands, p) == band_indices(bands, q)))
     return {
         "n": int(len(p)),
         "auc_model": auc_model,

@@ -11,7 +11,7 @@ from reportlab.graphics.shapes import Circle, Drawing, Line, PolyLine, Rect, Str
 from reportlab.lib import colors
 from reportlab.platypus import Flowable, KeepTogether, Paragraph, Spacer, Table, TableStyle
 
-from scorecard.render.fonts import BOLD, REGULAR, text_width
+from scorecard.pdf_plumbing import BOLD, REGULAR, text_width
 from scorecard.render.styles import Styles
 from scorecard.render.text import markup, total_text
 from scorecard.sheet.printed import band_of

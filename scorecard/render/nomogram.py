@@ -17,7 +17,7 @@ from reportlab.lib import colors
 from reportlab.platypus import FrameBreak, Flowable, Paragraph, Spacer
 
 from scorecard.render.conversion import band_tint, row_bands
-from scorecard.render.fonts import BOLD, REGULAR, text_width
+from scorecard.pdf_plumbing import BOLD, REGULAR, text_width, wrap_words
 from scorecard.render.styles import Styles
 from scorecard.render.text import points_text, term_heading, total_text
 
@@ -44,20 +44,6 @@ class _Label:
     def slots(self) -> int:
         """Lines the tag takes from its level outwards: the points box and the value lines."""
         return len(self.lines) + (1 if self.points else 0)
-
-
-def _wrap_words(text: str, size: float, width: float, bold: bool) -> list[str]:
-    lines, current = [], ""
-    for word in text.split():
-        trial = f"{current} {word}".strip()
-        if current and text_width(trial, size, bold) > width:
-            lines.append(current)
-            current = word
-        else:
-            current = trial
-    if current:
-        lines.append(current)
-    return lines or [""]
 
 
 def _fits(label: _Label, level: int, spans: dict, leaders: list, gap: float, mind_leaders: bool = True) -> bool:
@@ -147,13 +133,13 @@ class _TermAxis:
     def layout(self, x_of, left: float, right: float, label_col: float) -> float:
         s = self.styles.body_pt
         self.line_h = s * 1.35
-        self.heading_lines = _wrap_words(self.heading, s, label_col, bold=True)
+        self.heading_lines = wrap_words(self.heading, s, label_col, bold=True)
         if self.is_pair:
             lo = min(min(r) for r in self.term["points"])
             hi = max(max(r) for r in self.term["points"])
             self.note = (f"{points_text(lo, self.signed)} to {points_text(hi, self.signed)} points: "
                          "read them from the grid on the points-table page")
-            self.note_lines = _wrap_words(self.note, s, right - left, bold=False)
+            self.note_lines = wrap_words(self.note, s, right - left, bold=False)
             body_h = len(self.note_lines) * self.line_h
             self.axis_y_from_top = 0
         else:
@@ -245,7 +231,7 @@ class NomogramBlock(Flowable):
         end_room = max(text_width("88", s), s * 2)
         self.axis_left, self.axis_right = self.left + end_room, self.right - end_room
         self.line_h = s * 1.3
-        self.key_lines = _wrap_words(self._band_key(), s, width, bold=False) if self.with_total else []
+        self.key_lines = wrap_words(self._band_key(), s, width, bold=False) if self.with_total else []
 
     def _band_key(self) -> str:
         names = [b["name"] for b in self.sheet.get("bands") or []]

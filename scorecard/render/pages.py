@@ -10,7 +10,6 @@ import io
 from dataclasses import dataclass, field, replace
 
 from reportlab.lib import colors
-from reportlab.pdfgen.canvas import Canvas
 from reportlab.platypus import (BaseDocTemplate, Flowable, Frame, KeepTogether, NextPageTemplate, PageBreak, PageTemplate,
                                 Paragraph, Spacer)
 
@@ -18,7 +17,7 @@ from scorecard import __version__
 from scorecard.errors import UserError
 from scorecard.render.conversion import bands_block, conversion_curve_block, conversion_table_block
 from scorecard.invented import band_height, draw_band, is_invented
-from scorecard.render.fonts import BOLD, REGULAR, text_width
+from scorecard.pdf_plumbing import BOLD, REGULAR, page_x_of_y_canvas, text_width, wrap_words
 from scorecard.render.layout import PageLayout
 from scorecard.render.nomogram import nomogram_block
 from scorecard.render.styles import Styles, styles_for
@@ -118,7 +117,7 @@ class _Furniture:
         _, self.cautions_h = self.cautions.wrap(self.inner_w, height)
         self.page_label_w = text_width("Page 888 of 888", s)
         ident_room = self.inner_w - self.page_label_w - s
-        self.ident_lines = _split_words(self.ident, s, ident_room)
+        self.ident_lines = wrap_words(self.ident, s, ident_room)
         self.print_w = text_width(self.printed_label, s) + 26 * s / 3
         # identity, print-date field and page number share one line when they fit, else the field goes below
         self.one_line = len(self.ident_lines) == 1 and (
@@ -170,41 +169,15 @@ class _Furniture:
         self.page_number_at = (right, base)
 
 
-def _split_words(text: str, size: float, width: float) -> list[str]:
-    lines, current = [], ""
-    for word in text.split(" "):
-        trial = f"{current} {word}".strip()
-        if current and text_width(trial, size) > width:
-            lines.append(current)
-            current = word
-        else:
-            current = trial
-    return lines + [current]
-
-
 def _canvas_class(furniture: _Furniture):
-    """A canvas that holds its pages back until the end so every page can say 'page x of y'."""
+    """A canvas that stamps 'Page x of y' where the page furniture left room for it."""
 
-    class NumberedCanvas(Canvas):
-        def __init__(self, *args, **kwargs):
-            super().__init__(*args, **kwargs)
-            self._held = []
+    def stamp(canvas, page: int, total: int) -> None:
+        right, base = furniture.page_number_at
+        canvas.setFont(REGULAR, furniture.styles.min_pt)
+        canvas.drawRightString(right, base, f"Page {page} of {total}")
 
-        def showPage(self):
-            self._held.append(dict(self.__dict__))
-            self._startPage()
-
-        def save(self):
-            count = len(self._held)
-            for state in self._held:
-                self.__dict__.update(state)
-                right, base = furniture.page_number_at
-                self.setFont(REGULAR, furniture.styles.min_pt)
-                self.drawRightString(right, base, f"Page {self._pageNumber} of {count}")
-                Canvas.showPage(self)
-            Canvas.save(self)
-
-    return NumberedCanvas
+    return page_x_of_y_canvas(stamp)
 
 
 def _story(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: str, furniture: _Furniture,

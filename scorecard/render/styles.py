@@ -7,7 +7,7 @@ from dataclasses import dataclass
 from reportlab.lib.enums import TA_CENTER, TA_LEFT, TA_RIGHT
 from reportlab.lib.styles import ParagraphStyle
 
-from scorecard.render.fonts import BOLD, REGULAR, register_fonts
+from scorecard.pdf_plumbing import BOLD, REGULAR, register_fonts
 from scorecard.render.layout import PageLayout
 
 LEADING = 1.22  # line height / font size; enough that descenders never touch the next line's capitals

@@ -9,7 +9,7 @@ from reportlab.lib import colors
 from reportlab.platypus import Flowable, KeepTogether, Paragraph, Spacer, Table, TableStyle
 
 from scorecard.errors import UserError
-from scorecard.render.fonts import text_width
+from scorecard.pdf_plumbing import text_width
 from scorecard.render.styles import Styles
 from scorecard.render.text import MINUS, markup, points_text, term_heading
 from scorecard.sheet.printed import MEASURE_FIRST_RULE, OTHER_EXPLAINED, pair_missing_text, row_label

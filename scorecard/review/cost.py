@@ -12,6 +12,7 @@ import numpy as np
 import pandas as pd
 from sklearn.metrics import roc_auc_score
 
+from scorecard.discrimination import expected_auc
 from scorecard.errors import UserError
 from scorecard.model.document import AdditiveModel
 from scorecard.model.predict import logistic, predict_logodds
@@ -29,25 +30,6 @@ def observed_outcome(cohort: pd.DataFrame, column: str) -> np.ndarray:
     if known.size == 0 or known.min() == known.max():
         raise UserError(f"{source_of(cohort)}: outcome column {column!r} needs both events and non-events to measure AUC")
     return y
-
-
-def expected_auc(scores: np.ndarray, risks: np.ndarray) -> float:
-    """Model-based concordance: the AUC of `scores` expected when patient i has the event with probability risks[i].
-
-    Over all pairs of different patients (i, j): sum p_i (1 - p_j) [s_i > s_j] + 1/2 [s_i = s_j], divided by
-    sum p_i (1 - p_j) (van Klaveren et al., Statistics in Medicine, 2016). Ties are grouped, so it runs in
-    O(n log n).
-    """
-    s = np.asarray(scores, dtype=float)
-    p = np.asarray(risks, dtype=float)
-    values, group = np.unique(s, return_inverse=True)
-    events = np.bincount(group, weights=p, minlength=len(values))
-    non_events = np.bincount(group, weights=1.0 - p, minlength=len(values))
-    self_pairs = np.bincount(group, weights=p * (1.0 - p), minlength=len(values))
-    below = np.cumsum(non_events) - non_events  # non-event weight of strictly lower scores
-    numerator = float((events * below).sum() + 0.5 * (events * non_events - self_pairs).sum())
-    denominator = float(p.sum() * (1.0 - p).sum() - (p * (1.0 - p)).sum())
-    return numerator / denominator
 
 
 def edit_cost(before: AdditiveModel, after: AdditiveModel, cohort: pd.DataFrame, outcome: np.ndarray | None) -> dict:
@@ -75,8 +57,8 @@ def edit_cost(before: AdditiveModel, after: AdditiveModel, cohort: pd.DataFrame,
             calibration_in_the_large_after=observed - risk_after[keep].mean(),
         )
     else:
-        auc_before = expected_auc(lo_before, risk_before)
-        auc_after = expected_auc(lo_after, risk_before)
+        auc_before = expected_auc(risk_before, lo_before)
+        auc_after = expected_auc(risk_before, lo_after)
         figures.update(
             against="the unedited model's risks",
             auc_before=auc_before,

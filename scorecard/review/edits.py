@@ -86,22 +86,6 @@ def force_direction(
 HOLD_OPTIONS = {"above": "--hold-above", "below": "--hold-below"}
 
 
-def parse_hold(text: str, side: str) -> tuple[str, float]:
-    """TERM=VALUE for --hold-above / --hold-below: the term and the value beyond which its score is held."""
-    option = HOLD_OPTIONS[side]
-    name, eq, value = text.partition("=")
-    example = "medicines=12" if side == "above" else "sodium=125"
-    if not eq or not name.strip() or not value.strip():
-        raise UserError(f"{option} {text}: write TERM=VALUE, e.g. {option} {example}")
-    try:
-        bound = float(value)
-    except ValueError:
-        raise UserError(f"{option} {text}: {value.strip()!r} is not a number; e.g. {option} {example}") from None
-    if not np.isfinite(bound):
-        raise UserError(f"{option} {text}: the value must be a finite number; e.g. {option} {example}")
-    return name.strip(), bound
-
-
 def hold_beyond(model: AdditiveModel, term_name: str, lo: float | None = None, hi: float | None = None) -> tuple[AdditiveModel, dict]:
     """Values below `lo` score as `lo` does and values above `hi` as `hi` does (either may be None)."""
     option = HOLD_OPTIONS["below" if hi is None else "above"]
@@ -217,14 +201,6 @@ def _largest_change(before: Term, after: Term) -> float:
     return float(np.max(np.abs(np.asarray(after.scores) - np.asarray(before.scores))))
 
 
-def parse_pool(text: str) -> tuple[str, list[str]]:
-    name, eq, levels = text.partition("=")
-    chosen = [lv.strip() for lv in levels.split(",") if lv.strip()]
-    if not eq or not name.strip() or len(chosen) < 2:
-        raise UserError(f"--pool-levels {text}: write TERM=LEVEL,LEVEL[,...] with at least two levels, e.g. --pool-levels residence=home,sheltered")
-    return name.strip(), chosen
-
-
 def pool_levels(
     model: AdditiveModel, term_name: str, levels: list[str], cohort: pd.DataFrame | None = None
 ) -> tuple[AdditiveModel, dict]:
@@ -258,14 +234,6 @@ def pool_levels(
         f"(weights: {weights.source})"
     )
     return edited, {"action": "pool_levels", "term": term_name, "levels": levels, "weights": weights.source, "what": what}
-
-
-def parse_declaration(text: str) -> tuple[str, str]:
-    name, eq, value = text.partition("=")
-    value = value.strip()
-    if not eq or not name.strip() or value not in DECLARATIONS:
-        raise UserError(f"--declare {text}: write FEATURE=VALUE with VALUE one of {', '.join(DECLARATIONS)}")
-    return name.strip(), value
 
 
 def declare(model: AdditiveModel, feature_name: str, value: str) -> tuple[AdditiveModel, dict]:

@@ -14,6 +14,7 @@ from matplotlib.figure import Figure
 from matplotlib.patches import Rectangle
 
 from scorecard.invented import add_matplotlib_mark, is_invented
+from scorecard.cautions import cautions
 from scorecard.model.document import AdditiveModel, Term
 from scorecard.model.predict import feature_values
 from scorecard.review.entries import axis_labels, entry_labels
@@ -32,11 +33,7 @@ FLAG_TITLES = {
     "rare_category": "Strong score from a rare level",
 }
 
-CAUTIONS = (
-    "Decision support only; it does not replace clinical judgement. Valid only for the population and outcome "
-    "stated. Associations, not causes. Follow local protocols and the judgement of licensed clinicians. "
-    "Check the fingerprint against the approved version before use."
-)
+CAUTIONS = " ".join(cautions("this review", "Its shapes show"))
 
 
 def new_page() -> Figure:

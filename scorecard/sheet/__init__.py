@@ -4,6 +4,7 @@
 that define what is printed and how a measurement finds its row, shared by quantize, render and the audit.
 """
 
+from scorecard.cautions import cautions
 from scorecard.sheet.document import (
     DOCUMENT_TAG,
     FORMAT_VERSION,
@@ -16,6 +17,7 @@ from scorecard.sheet.document import (
 from scorecard.sheet.printed import (
     NOT_MEASURED_TEXT,
     ROUNDING_RULE,
+    band_indices,
     band_of,
     flag_text,
     range_text,
@@ -27,13 +29,7 @@ from scorecard.sheet.printed import (
     row_indices,
 )
 
-CAUTIONS = [
-    "Decision support only: this sheet does not replace clinical judgement.",
-    "Valid only for the population and outcome stated on it.",
-    "The points show associations, not causes.",
-    "Follow local protocols and the judgement of licensed clinicians.",
-    "Check the fingerprint against the approved version before use.",
-]
+CAUTIONS = cautions()  # what quantize writes into every new sheet (scorecard/cautions.py)
 
 __all__ = [
     "CAUTIONS",
@@ -41,6 +37,7 @@ __all__ = [
     "FORMAT_VERSION",
     "NOT_MEASURED_TEXT",
     "ROUNDING_RULE",
+    "band_indices",
     "band_of",
     "flag_text",
     "load_sheet",

@@ -236,12 +236,16 @@ def risk_text_rounding(risk: float) -> float:
     return 0.0005 if (pct < 9.95 or pct >= 99.5) else 0.005
 
 
+def band_indices(bands: list[dict], risks) -> np.ndarray:
+    """Index of the risk band of each risk: previous upper_risk <= risk < upper_risk; the last band is open
+    (null). The one band rule of quantize, render and the audit (docs/sheet-document.md)."""
+    uppers = np.array([np.inf if b["upper_risk"] is None else float(b["upper_risk"]) for b in bands])
+    return np.minimum(np.searchsorted(uppers, np.asarray(risks, dtype=float), side="right"), len(bands) - 1)
+
+
 def band_of(bands: list[dict], risk: float) -> int:
-    """Index of the risk band: previous upper_risk <= risk < upper_risk; the last band is open (null)."""
-    for i, b in enumerate(bands):
-        if b["upper_risk"] is None or risk < b["upper_risk"]:
-            return i
-    return len(bands) - 1
+    """`band_indices` of one risk."""
+    return int(band_indices(bands, [risk])[0])
 
 
 def flag_text(value: bool) -> str:

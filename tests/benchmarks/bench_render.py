@@ -23,7 +23,7 @@ from reportlab.lib.pagesizes import A4  # noqa: E402
 from reportlab.platypus import SimpleDocTemplate, Table  # noqa: E402
 
 from scorecard.render import load_layout, render_pdf  # noqa: E402
-from scorecard.render.fonts import REGULAR, register_fonts  # noqa: E402
+from scorecard.pdf_plumbing import REGULAR, register_fonts  # noqa: E402
 from scorecard.sheet import short_fingerprint  # noqa: E402
 from tests.render.sheets import many_term_sheet  # noqa: E402
 

@@ -10,7 +10,8 @@ from scipy.special import expit
 from sklearn.metrics import roc_auc_score
 
 from scorecard.model import contributions, load_model, predict_risk
-from scorecard.review.cost import edit_cost, expected_auc
+from scorecard.discrimination import expected_auc
+from scorecard.review.cost import edit_cost
 from scorecard.review.edits import remove_effect
 from scorecard.tabular import read_csv
 
@@ -49,21 +50,24 @@ def test_explain_from_values_equals_explain_from_the_row(care_model_path, cohort
     assert [t["term"] for t in by_values["terms"]] == [t["term"] for t in by_row["terms"]]
 
 
-def test_expected_auc_equals_the_pairwise_definition():
-    # van Klaveren et al., Statistics in Medicine 2016: sum over pairs i != j of p_i (1 - p_j) I(s_i > s_j)
-    # (ties count 1/2), divided by sum over i != j of p_i (1 - p_j); checked by brute force here
+def test_expected_auc_equals_the_pairwise_definition_and_scikit_learn():
+    # the pairwise Mann-Whitney form over every ordered pair (i, j), a patient with itself included as a tie
+    # (scorecard/discrimination.py says why), brute force here; and scikit-learn's roc_auc_score on the doubled
+    # cohort (each patient an event with weight p and a non-event with weight 1 - p)
+    from sklearn.metrics import roc_auc_score
+
     rng = np.random.default_rng(4)
     s = np.round(rng.normal(size=60), 1)  # rounding makes ties
     p = rng.uniform(0.02, 0.9, size=60)
     num = den = 0.0
     for i in range(60):
         for j in range(60):
-            if i == j:
-                continue
             w = p[i] * (1 - p[j])
             den += w
             num += w * (1.0 if s[i] > s[j] else 0.5 if s[i] == s[j] else 0.0)
-    assert expected_auc(s, p) == pytest.approx(num / den, rel=1e-12)
+    assert expected_auc(p, s) == pytest.approx(num / den, rel=1e-12)
+    doubled = roc_auc_score(np.r_[np.ones(60), np.zeros(60)], np.r_[s, s], sample_weight=np.r_[p, 1 - p])
+    assert expected_auc(p, s) == pytest.approx(doubled, rel=1e-12)
 
 
 def test_edit_cost_against_observed_outcome_uses_scikit_learns_auc(care_model, cohort_frame):

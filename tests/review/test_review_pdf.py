@@ -52,7 +52,7 @@ def test_every_page_carries_the_cautions_and_the_fingerprint_and_its_term(render
         texts = [page.extract_text() or "" for page in pdf.pages]
     for text in texts:
         flat = " ".join(text.split())
-        assert "Decision support only" in flat and "Associations, not causes" in flat
+        assert "Decision support only" in flat and "associations, not causes" in flat
         assert "licensed clinicians" in flat and "approved version" in flat
         assert model.fingerprint in flat.replace(" ", "")
         assert f"{model.name} version {model.version}." in flat  # not a bare "name 1." the reader must decode
