@@ -11,6 +11,7 @@ import numpy as np
 import pandas as pd
 
 from scorecard.audit import statistics
+from scorecard.audit.slips import slip_figures
 from scorecard.audit.paper import ScoredCohort, band_index, parse_cohort, score_cohort, sheet_logodds
 from scorecard.errors import UserError
 from scorecard.model import AdditiveModel, contributions, logistic
@@ -306,6 +307,7 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
                         "by_total": certificate_by_total(sheet)},
         "stored_achieved": sheet.get("achieved"),
         "histogram": {"unit": "percentage points (sheet risk - model risk)", "edges": edges.tolist(), "counts": counts.tolist()},
+        "slips": slip_figures(sheet, scored),
         "largest": _largest(sheet, model, scored, parts, model_risk, diff, TOP_PATIENTS),
         "warnings": list(scored.warnings),
         "notes": list(scored.notes) + [f"model: {line}" for line in model_report.lines()] + ([

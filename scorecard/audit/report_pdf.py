@@ -231,6 +231,31 @@ def _band_table(bands: dict) -> Table:
     return _table(rows, [48 * mm] + [min(28 * mm, 130 * mm / len(names))] * len(names), extra=extra)
 
 
+def _slips_block(slips: dict, s: dict) -> KeepTogether:
+    """Slip robustness (scorecard.audit.slips): the risk error one bedside slip causes, per table and overall."""
+    bands = slips["bands"]
+    rows = [["slip", "slips", "mean |Δrisk|", "95th pct", "largest", "same pts"] + (["band changes (patients)"] if bands else [])]
+
+    def line(label, f):
+        return [_p(label, s["cell"]), f"{f['slips']:,}", _pct(f["mean_abs_risk_error"]), _pct(f["p95_abs_risk_error"]),
+                _pct(f["max_abs_risk_error"]), _pct(f["share_harmless"], 0) if f["slips"] else "–"] + (
+            [f"{f['patients_changing_band']:,} of {f['patients']:,}"] if bands else [])
+
+    for t in slips["neighbour_row"]["per_term"]:
+        rows.append(line(f"{t['label']}: neighbouring row", t))
+    rows.append(line("any table: neighbouring row", slips["neighbour_row"]["overall"]))
+    rows.append(line("total off by one (either way)", slips["total_off_by_one"]))
+    widths = [56 * mm, 16 * mm, 20 * mm, 17 * mm, 17 * mm, 16 * mm] + ([38 * mm] if bands else [])
+    n = len(rows)
+    extra = [("FONTNAME", (0, n - 2), (-1, n - 1), register_fonts()[1])]
+    return KeepTogether([_p("Slips at the bedside: reading the neighbouring row, or a total off by one", s["h"]),
+                         _p("Each slip on its own, for every patient: the row just above or below the right one (in a grid, "
+                            "the neighbouring cells; the not-measured row is not a neighbour) read instead, or the total one "
+                            "higher or lower; Δrisk = risk of the slipped total − risk of the right total. A table whose "
+                            "neighbouring rows give very different points is fragile: teach it with care.", s["small"]),
+                         Spacer(1, 1.5 * mm), _table(rows, widths[: len(rows[0])], extra=extra)])
+
+
 def _patient_block(p: dict, s: dict) -> KeepTogether:
     worst = max(range(len(p["terms"])), key=lambda k: abs(p["terms"][k]["off_by"]))
     head = (f"Row {p['row']:,} of the cohort: total {p['total']} → {p['sheet_risk_text']} on the sheet "
@@ -291,6 +316,8 @@ def report_pdf_bytes(report: dict, cautions: list[str]) -> bytes:
                + ("This worst case is bounded by the sheet (see the bounds above)." if any(b["name"] == "certificate_size" for b in report["bounds"])
                   else "The sheet sets no bound on this worst case: it is not bounded, whatever the checks above say."), s["small"]),
             Spacer(1, 1.5 * mm), _certificate_table(report)]))
+    if report.get("slips"):
+        story.append(_slips_block(report["slips"], s))
     for note in report["notes"]:
         story.append(_p(f"Note: {note}", s["small"]))
     heading = [_p(f"The {len(report['largest'])} patients with the largest disagreement", s["h"]),

@@ -153,4 +153,9 @@ def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_shar
     say(f"readable cut-points cost {extra:+.0%} error before rounding (vs cuts anywhere between model bins)")
     for d in doc["dropped_terms"]:
         say(f"dropped {d['name']}: {d['reason']}")
+    slips = doc["report"].get("slips")
+    if slips:  # scorecard.audit.slips, as `check` reports it
+        row, off = slips["neighbour_row"]["overall"], slips["total_off_by_one"]
+        say(f"slips: reading a neighbouring row misstates risk by {row['mean_abs_risk_error'] * 100:.1f} percentage points on "
+            f"average (largest {row['max_abs_risk_error'] * 100:.1f}); a total off by one by {off['mean_abs_risk_error'] * 100:.1f}")
     say(f"wrote {out} (fingerprint {short_fingerprint(doc)})")

@@ -584,4 +584,20 @@ def quantize_model(model: AdditiveModel, data: pd.DataFrame | None = None, bound
         say(f"measuring the chosen sheet ({bootstrap} bootstrap resamples for the ΔAUC interval)")
     settings = {"max_row_error": bound.max_row_error, "allow_negative": allow_negative,
                 "merge_equal_levels": merge_equal_levels, "bootstrap": bootstrap}
-    return build_sheet(problem, cand, bands or [], merge_equal_levels, bootstrap, title, settings)
+    doc = build_sheet(problem, cand, bands or [], merge_equal_levels, bootstrap, title, settings)
+    doc["report"]["slips"] = _slips(doc, problem)
+    return doc
+
+
+def _slips(doc: dict, problem: Problem) -> dict | None:
+    """Slip robustness of the chosen sheet on the patients it was judged on (`scorecard.audit.slips`, the same
+    figure `check` reports): the chosen sheet scored as the paper does, one bedside slip at a time."""
+    from scorecard.audit.paper import score_cohort
+    from scorecard.audit.slips import slip_figures
+
+    frame = problem.population.frame
+    try:
+        scored = score_cohort(doc, frame.astype(str).replace({"nan": "", "None": ""}))
+    except UserError:
+        return None  # a population the paper cannot score (e.g. a missing value the sheet refuses): no figure
+    return slip_figures(doc, scored)
