@@ -23,6 +23,7 @@ from dataclasses import dataclass
 
 from scorecard.audit.pdf_tables import HEX12, PrintedPage, PrintedTable, Row, Word, read_pdf, reading_order
 from scorecard.errors import UserError
+from scorecard.sheet.approval import approval_line, signature_short
 from scorecard.sheet.printed import band_of, pair_missing_text, row_label
 
 MINUS_SIGNS = ("\u2212", "-", "\u2013")
@@ -284,6 +285,8 @@ class _Checker:
         per_page = [("title", self.sheet["title"]), ("outcome", outcome["event"]), ("horizon", outcome["horizon"]),
                     ("population", outcome["population"])]
         per_page += [(f"caution {k + 1}", c) for k, c in enumerate(self.sheet.get("cautions") or [])]
+        if self.sheet.get("approval"):
+            per_page.append(("approval", approval_line(self.sheet["approval"])))
         passages = {page.number: [_norm(t) for t in page.passages()] for page in self.pages}
         for page in self.pages:
             for name, text in per_page:
@@ -318,12 +321,12 @@ class _Checker:
                 self.mismatches.append(Mismatch(None, "text", name, "(not found)", text))
 
     # -- fingerprint ----------------------------------------------------------------------------------
-    def fingerprints(self, short: str, lineage: str | None = None) -> None:
-        """`lineage`: the short fingerprint a recalibrated sheet names as its origin (printed, and allowed)."""
+    def fingerprints(self, short: str, allowed: set[str] = frozenset()) -> None:
+        """`allowed`: other 12-hex names the sheet prints (a recalibrated sheet's origin, an approval's signature)."""
         for page in self.pages:
             found = set(HEX12.findall(page.text))
             self.cells += 1
-            others = sorted(found - {short, lineage})
+            others = sorted(found - {short} - set(allowed))
             if others:
                 self.mismatches.append(Mismatch(page.number, "fingerprint", "another sheet version", ", ".join(others), short))
             elif short not in found:
@@ -370,7 +373,10 @@ def verify_pages(sheet: dict, pages: list[PrintedPage], source: str = "PDF") -> 
                         "give the PDF written by `scorecard render`")
     check = _Checker(sheet, pages)
     lineage = sheet.get("recalibration")
-    check.fingerprints(short, lineage["original_fingerprint"][:12] if lineage else None)
+    # the 12-hex names a page may print besides the sheet's own: its origin if recalibrated, its signature if approved
+    allowed = {lineage["original_fingerprint"][:12] if lineage else None,
+               signature_short(sheet["approval"]) if sheet.get("approval") else None} - {None}
+    check.fingerprints(short, allowed)
     for term in sheet["terms"]:
         if term["kind"] == "pair":
             check.pair_term(term)

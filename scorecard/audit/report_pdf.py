@@ -275,6 +275,8 @@ def report_pdf_bytes(report: dict, cautions: list[str]) -> bytes:
     sheet = report["sheet"]
     story = [_p(f"Agreement report: {sheet['title']}", s["title"])]
     story.append(_p(f"Sheet fingerprint {sheet['short_fingerprint']} (full: {sheet['fingerprint']})", s["body"]))
+    if report.get("bound_source"):  # scorecard check: whether the bounds below were approved (signed) or not
+        story.append(_p(f"Bounds judged: {report['bound_source']}", s["body"]))
     model = report["model"]
     story.append(_p(f"Exact model: {model['name']} version {model['version']}, fingerprint {model['fingerprint'][:12]}"
                     + ("" if model["matches_sheet"] else " — NOT the model this sheet was built from"), s["body"]))

@@ -9,7 +9,7 @@ import click
 from scorecard.audit.pdf_compare import compare_with_fresh_render, layout_named_in
 from scorecard.audit.pdf_tables import read_pdf_bytes, read_pdf_file
 from scorecard.audit.readback import verify_pages
-from scorecard.commands._common import say
+from scorecard.commands._common import approved_by_option, require_approval, say
 from scorecard.errors import CheckFailed, UserError
 from scorecard.render import load_layout, render_pdf, shipped_layouts
 from scorecard.sheet import load_sheet, short_fingerprint
@@ -22,7 +22,8 @@ from scorecard.sheet import load_sheet, short_fingerprint
 @click.option("--layout", "layout_name", metavar="NAME|FILE", default=None,
               help="The layout the PDF was rendered with. Default: the shipped layout named in the PDF's metadata; "
                    "a PDF made with a layout file needs that file here.")
-def command(pdf_path: str, sheet_path: str, layout_name: str | None) -> None:
+@approved_by_option
+def command(pdf_path: str, sheet_path: str, layout_name: str | None, approved_by: str | None) -> None:
     """Check that SHEET.pdf is SHEET.json as `scorecard render` prints it, with no edit of any kind.
 
     \b
@@ -39,6 +40,9 @@ def command(pdf_path: str, sheet_path: str, layout_name: str | None) -> None:
        cautions, model and 'Page x of y' on every page. Each difference is listed as: page,
        table, row, what is printed and what the sheet says.
 
+    With --approved-by APPROVER.pub the sheet document must first carry that key's approval, unchanged
+    (exit 3 otherwise); the PDF then prints the approver and the signature, and is compared as above.
+
     Exit 0 when everything matches, 3 on any difference, 2 when the file is not a readable sheet
     PDF. A paper copy cannot be verified by this command: check by eye that it prints the
     fingerprint (and approver) of the approved sheet (docs/audit.md).
@@ -48,6 +52,7 @@ def command(pdf_path: str, sheet_path: str, layout_name: str | None) -> None:
       scorecard verify demo_output/sheet.pdf --sheet demo_output/sheet.json
     """
     sheet = load_sheet(sheet_path)
+    require_approval(sheet, sheet_path, approved_by)
     mismatches, summary = verify_printed(sheet, read_pdf_file(pdf_path), str(pdf_path), layout_name)
     for m in mismatches:
         click.echo(m.line())

@@ -31,6 +31,7 @@ from scorecard.render.tables import (
     total_block,
 )
 from scorecard.render.text import markup, sheet_has_negative_points
+from scorecard.sheet.approval import approval_line
 from scorecard.sheet.printed import MEASURE_FIRST_RULE, number_text, units
 
 
@@ -103,6 +104,9 @@ class _Furniture:
         if lineage:  # scorecard recalibrate: the version this one was recalibrated from, and on what
             self.ident += (f" \u00b7 recalibrated from {lineage['original_fingerprint'][:12]} on {lineage['n']:,} patients "
                            f"of {lineage['data']['file']}")
+        approval = sheet.get("approval")
+        if approval:  # scorecard approve: who approved this sheet, and the signature to compare by eye
+            self.ident += " \u00b7 " + approval_line(approval)
         self.printed_label = "Printed on:"
         self.cautions = Paragraph(markup(cautions_line(sheet, short_fingerprint)), styles.small)
         s = styles.min_pt
@@ -122,7 +126,9 @@ class _Furniture:
         # identity, print-date field and page number share one line when they fit, else the field goes below
         self.one_line = len(self.ident_lines) == 1 and (
             text_width(self.ident, s) + self.print_w + self.page_label_w + 2 * s <= self.inner_w)
-        lines = 1 if self.one_line else max(len(self.ident_lines), 2)
+        # a wrapped identity keeps its lines whole: the print-date field then goes on a line of its own below
+        # (on the identity's second line it printed over the approval or recalibration text)
+        lines = 1 if self.one_line else (2 if len(self.ident_lines) == 1 else len(self.ident_lines) + 1)
         self.footer_h = 3 + self.cautions_h + 2 + lines * self.line_h + self.band_h
         self.gap = s * 0.8
 
@@ -161,7 +167,8 @@ class _Furniture:
         if self.one_line:
             label_x, field_right, field_base = right - self.page_label_w - s - self.print_w, right - self.page_label_w - s, base
         else:
-            label_x, field_right, field_base = right - self.print_w, right, base - self.line_h
+            below = 1 if len(self.ident_lines) == 1 else len(self.ident_lines)
+            label_x, field_right, field_base = right - self.print_w, right, base - below * self.line_h
         canv.drawString(label_x, field_base, self.printed_label)
         canv.setLineWidth(0.5)
         canv.line(label_x + text_width(self.printed_label, s) + 2, field_base - 1.5, field_right, field_base - 1.5)
