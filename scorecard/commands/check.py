@@ -94,6 +94,7 @@ def command(sheet_path, model_path, cohort_path, output, json_path, outcome, rep
     report = check_agreement(sheet, model, cohort, outcome=outcome, replicates=replicates, seed=seed,
                              model_matches=matches, progress=say if len(cohort) > 50_000 else None)
     report["bound_source"] = bound_source
+    say(f"bound: {bound_source}")
     if unsigned:
         report["warnings"].insert(0, unsigned)
     for line in report["warnings"]:
@@ -141,7 +142,6 @@ def bound_to_judge(sheet: dict, sheet_path: str, approval: dict | None, items: t
         rest = f"the rest {source}" if approval else "the rest the sheet's own, not approved"
         source = f"{', '.join(f'{k}={v}' for k, v in given.items())} from the command line; {rest}"
     unsigned = UNSIGNED_BOUND if not approval and set(given) != set(bound) else None
-    say(f"bound: {source}")
     return {**sheet, "bound": bound}, source, unsigned
 
 

@@ -27,7 +27,7 @@ from cryptography.hazmat.primitives import serialization
 from cryptography.hazmat.primitives.asymmetric.ed25519 import Ed25519PrivateKey, Ed25519PublicKey
 
 from scorecard.errors import CheckFailed, UserError
-from scorecard.jsondoc import canonical_bytes, fingerprint
+from scorecard.jsondoc import canonical_bytes, fingerprint, read_input_bytes
 
 SIGNED_PREFIX = b"scorecard sheet approval 1\n"
 KEY_FINGERPRINT_LENGTH = 16
@@ -146,14 +146,7 @@ def write_private_key(path: Path, key: Ed25519PrivateKey) -> None:
 
 def _read_key_file(path: str | Path, what: str) -> bytes:
     p = Path(path)
-    try:
-        data = p.read_bytes()
-    except FileNotFoundError:
-        raise UserError(f"{p}: no such file; give the {what}") from None
-    except IsADirectoryError:
-        raise UserError(f"{p}: is a folder; give the {what} file") from None
-    except OSError as exc:
-        raise UserError(f"{p}: cannot read ({exc.strerror}); check permissions") from None
+    data = read_input_bytes(p, what)
     if len(data) > 64 * 1024 or not data.strip():
         raise UserError(f"{p}: is not a key file ({'empty' if not data.strip() else 'too large'}); give the {what}")
     return data
