@@ -291,7 +291,7 @@ def report_pdf_bytes(report: dict, cautions: list[str]) -> bytes:
     failed = [b for b in report["bounds"] if not b["pass"]]
     story.append(_p("EVERY BOUND SET ON THIS SHEET PASSES" if not failed else f"{len(failed)} CHECK{'S' if len(failed) > 1 else ''} FAIL: "
                     + ", ".join(b["name"] for b in failed), s["verdict_pass" if not failed else "verdict_fail"]))
-    for w in report["warnings"]:
+    for w in ([report["bound_warning"]] if report.get("bound_warning") else []) + report["warnings"]:
         story.append(_p(w, s["warning"]))
     lead = [b for b in report["bounds"] if b["name"] in PER_PATIENT] + [f for f in report.get("not_bounded", []) if f["name"] in PER_PATIENT]
     if lead:

@@ -94,9 +94,8 @@ def command(sheet_path, model_path, cohort_path, output, json_path, outcome, rep
     report = check_agreement(sheet, model, cohort, outcome=outcome, replicates=replicates, seed=seed,
                              model_matches=matches, progress=say if len(cohort) > 50_000 else None)
     report["bound_source"] = bound_source
-    say(f"bound: {bound_source}")
     if unsigned:
-        report["warnings"].insert(0, unsigned)
+        report["bound_warning"] = unsigned
     for line in report["warnings"]:
         say(line)
     inputs = (sheet_path, model_path, cohort_path)
@@ -105,6 +104,9 @@ def command(sheet_path, model_path, cohort_path, output, json_path, outcome, rep
         atomic_write_text(json_out, pretty_text({**report, "cautions": sheet.get("cautions") or CAUTIONS}), protect=inputs)
     for line in summary_lines(report):
         say(line)
+    say(f"bound: {bound_source}")
+    if unsigned:
+        say(unsigned)
     say(f"report written to {out}")
     failed = [b for b in report["bounds"] if not b["pass"]]
     if failed:

@@ -121,14 +121,17 @@ class _Furniture:
         _, self.cautions_h = self.cautions.wrap(self.inner_w, height)
         self.page_label_w = text_width("Page 888 of 888", s)
         ident_room = self.inner_w - self.page_label_w - s
-        self.ident_lines = wrap_words(self.ident, s, ident_room)
         self.print_w = text_width(self.printed_label, s) + 26 * s / 3
+        self.ident_lines = wrap_words(self.ident, s, ident_room)
+        if len(self.ident_lines) > 1:
+            # the print-date field sits at the right of the second line: the lines after the first stop short of
+            # it (a long approval or recalibration text printed over "Printed on:")
+            rest = wrap_words(" ".join(self.ident_lines[1:]), s, self.inner_w - self.print_w - s)
+            self.ident_lines = self.ident_lines[:1] + rest
         # identity, print-date field and page number share one line when they fit, else the field goes below
         self.one_line = len(self.ident_lines) == 1 and (
             text_width(self.ident, s) + self.print_w + self.page_label_w + 2 * s <= self.inner_w)
-        # a wrapped identity keeps its lines whole: the print-date field then goes on a line of its own below
-        # (on the identity's second line it printed over the approval or recalibration text)
-        lines = 1 if self.one_line else (2 if len(self.ident_lines) == 1 else len(self.ident_lines) + 1)
+        lines = 1 if self.one_line else max(len(self.ident_lines), 2)
         self.footer_h = 3 + self.cautions_h + 2 + lines * self.line_h + self.band_h
         self.gap = s * 0.8
 
@@ -167,8 +170,7 @@ class _Furniture:
         if self.one_line:
             label_x, field_right, field_base = right - self.page_label_w - s - self.print_w, right - self.page_label_w - s, base
         else:
-            below = 1 if len(self.ident_lines) == 1 else len(self.ident_lines)
-            label_x, field_right, field_base = right - self.print_w, right, base - below * self.line_h
+            label_x, field_right, field_base = right - self.print_w, right, base - self.line_h
         canv.drawString(label_x, field_base, self.printed_label)
         canv.setLineWidth(0.5)
         canv.line(label_x + text_width(self.printed_label, s) + 2, field_base - 1.5, field_right, field_base - 1.5)
