@@ -2,9 +2,12 @@
 
 from __future__ import annotations
 
+import math
+
 import click
 
-from scorecard.commands._common import output_path, say
+from scorecard.commands._common import BadValue, FeatureValue, output_path, say
+from scorecard.errors import UserError
 from scorecard.model import load_model
 from scorecard.quantize import Bound, parse_bands, quantize_model
 from scorecard.sheet import save_sheet, short_fingerprint
@@ -74,6 +77,54 @@ def summary_lines(doc: dict) -> list[str]:
     return lines
 
 
+def _unit_and_decimals(text: str) -> tuple[str, int | None]:
+    """UNIT or UNIT:DECIMALS of --display-unit."""
+    unit, colon, places = text.partition(":")
+    if not unit.strip():
+        raise BadValue("write FEATURE=UNIT or FEATURE=UNIT:DECIMALS")
+    if colon and (not places.strip().isdigit() or int(places) > 6):
+        raise BadValue("decimals must be a whole number from 0 to 6")
+    return unit.strip(), (int(places) if colon else None)
+
+
+def _positive_number(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise BadValue(f"{text!r} is not a number of grams per mole") from None
+    if not (value > 0 and math.isfinite(value)):
+        raise BadValue("the molar mass must be a positive number of grams per mole")
+    return value
+
+
+def display_model(model, data, display_units: tuple[tuple[str, tuple[str, int | None]], ...],
+                  molar_masses: tuple[tuple[str, float], ...]):
+    """The model (and the cohort's columns) in the display units asked for, and each feature's conversion."""
+    from scorecard.model.units import conversion, convert_values, in_display_unit
+    from scorecard.suggest import did_you_mean
+    from scorecard.tabular import numeric_column
+
+    known = [f.name for f in model.features if f.kind == "continuous"]
+    masses = dict(molar_masses)
+    conversions = {}
+    for name, (unit, decimals) in display_units:
+        item = f"{name}={unit}" + ("" if decimals is None else f":{decimals}")
+        if name not in known:
+            raise UserError(f"--display-unit {item}: {name!r} is not a measured feature of the model"
+                            f"{did_you_mean(name, known)}; measured features: {', '.join(known)}")
+        feature = model.feature(name)
+        if not feature.unit:
+            raise UserError(f"--display-unit {item}: the model gives {name!r} no unit to convert from; set it at fit (--unit)")
+        conv = conversion(feature.unit, unit, masses.get(name), where=f"--display-unit {item}")
+        model = in_display_unit(model, name, conv, decimals)
+        conversions[name] = {k: conv[k] for k in ("from_unit", "scale", "offset")}
+        conversions[name]["from_unit"] = feature.unit
+        if data is not None and name in data.columns:
+            data = data.copy()
+            data[name] = convert_values(numeric_column(data, name), conv)
+    return model, data, conversions
+
+
 @click.command()
 @click.argument("model_path", metavar="MODEL.json", type=click.Path())
 @click.option("--data", "data_path", metavar="COHORT.csv", type=click.Path(),
@@ -113,10 +164,19 @@ def summary_lines(doc: dict) -> list[str]:
 @click.option("--title", help="Page title (default: 'Risk of <event>').")
 @click.option("--bootstrap", type=click.IntRange(0, 10000), default=200, show_default=True,
               help="Bootstrap resamples for the ΔAUC interval (0 = none).")
+@click.option("--display-unit", "display_units", multiple=True, metavar="FEATURE=UNIT[:DECIMALS]",
+              type=FeatureValue("temperature=degF (or haemoglobin=g/dL:1)", _unit_and_decimals, form="FEATURE=UNIT or FEATURE=UNIT:DECIMALS"),
+              help="Print FEATURE in the ward's own unit, e.g. temperature=degF, haemoglobin=g/dL:1; cut-points are "
+                   "found in that unit and score converts the cohort's values exactly before reading them "
+                   "(factors from pint; repeatable).")
+@click.option("--molar-mass", "molar_masses", multiple=True, metavar="FEATURE=G_PER_MOL",
+              type=FeatureValue("glucose=180.16", _positive_number, form="FEATURE=G_PER_MOL"),
+              help="Molar mass for a concentration shown as mass, e.g. glucose=180.16 for mmol/L -> mg/dL.")
 @click.option("-o", "--output", "output", required=True, type=click.Path(), help="Sheet document to write (*.sheet.json).")
 def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_share, min_band_agreement, risk_error_percentile,
             max_percentile_risk_error, max_largest_risk_error, max_certificate_risk_error, max_rows, max_total_points,
-            max_row_error, bands, allow_negative, merge_equal_levels, title, bootstrap, output) -> None:
+            max_row_error, bands, allow_negative, merge_equal_levels, title, bootstrap, display_units, molar_masses,
+            output) -> None:
     """Quantise MODEL.json into integer point tables that meet an accuracy bound.
 
     Finds the simplest sheet (fewest printed rows, then the smallest range of total points) whose ΔAUC is at
@@ -144,8 +204,19 @@ def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_shar
     band_list = parse_bands(bands)
     model = load_model(model_path)
     data = read_csv(data_path) if data_path else None
-    doc = quantize_model(model, data=data, bound=bound, bands=band_list, allow_negative=allow_negative,
+    shown, data, conversions = display_model(model, data, display_units, molar_masses)
+    doc = quantize_model(shown, data=data, bound=bound, bands=band_list, allow_negative=allow_negative,
                          merge_equal_levels=merge_equal_levels, bootstrap=bootstrap, title=title, progress=say)
+    if conversions:  # the sheet belongs to the model as written; its tables say how a value reaches their unit
+        doc["model"] = {"name": model.name, "version": model.version, "fingerprint": model.fingerprint}
+        for term in doc["terms"]:
+            blocks = term["axes"] if term["kind"] == "pair" else [term]
+            for block in blocks:
+                if block.get("feature") in conversions and block["kind"] == "continuous":
+                    block["display_conversion"] = conversions[block["feature"]]
+        for name, conv in conversions.items():
+            say(f"{name}: printed in {shown.feature(name).unit} (= {conv['scale']} x {conv['from_unit']} + {conv['offset']}); "
+                "cut-points found in that unit")
     save_sheet(doc, out, protect=(model_path, data_path) if data_path else (model_path,))
     for line in summary_lines(doc):
         say(line)
