@@ -17,7 +17,7 @@ from scorecard.suggest import did_you_mean
 ALIASES = {"quantise": "quantize"}
 
 # the order a newcomer meets the verbs in `scorecard --help`: along the pipeline
-PIPELINE_ORDER = ["demo", "fit", "import", "predict", "review", "edit", "explain", "quantize", "render", "score", "check", "verify",
+PIPELINE_ORDER = ["demo", "fit", "import", "predict", "review", "edit", "explain", "quantize", "keygen", "approve", "render", "score", "check", "verify",
                   "compare", "recalibrate", "exercise", "mark", "export"]
 
 

@@ -134,20 +134,26 @@ def atomic_write_text(path: str | os.PathLike, text: str, protect: tuple[str | o
     atomic_write_bytes(path, text.encode("utf-8"), protect=protect)
 
 
-def read_json_file(path: str | os.PathLike, what: str, allow_nonfinite: bool = False) -> Any:
-    """Parse a JSON file, turning every failure into one line naming the file.
-
-    With `allow_nonfinite`, NaN/Infinity are read as floats so the caller's validation can name the field.
-    """
+def read_input_bytes(path: str | os.PathLike, what: str) -> bytes:
+    """The bytes of an input file, or one UserError line naming it (missing, a folder, unreadable)."""
     p = Path(path)
     try:
-        raw = p.read_bytes()
+        return p.read_bytes()
     except FileNotFoundError:
         raise UserError(f"{p}: no such file; check the path of the {what}") from None
     except IsADirectoryError:
         raise UserError(f"{p}: is a folder, expected a {what} file") from None
     except OSError as exc:
         raise UserError(f"{p}: cannot read ({exc.strerror}); check permissions") from None
+
+
+def read_json_file(path: str | os.PathLike, what: str, allow_nonfinite: bool = False) -> Any:
+    """Parse a JSON file, turning every failure into one line naming the file.
+
+    With `allow_nonfinite`, NaN/Infinity are read as floats so the caller's validation can name the field.
+    """
+    p = Path(path)
+    raw = read_input_bytes(p, what)
     if not raw.strip():
         raise UserError(f"{p}: file is empty; expected a {what}")
     try:

@@ -163,30 +163,45 @@ def _tables(page_number: int, words: list[Word], edges: list[dict]) -> list[Prin
 
 def read_pdf(path: str | Path) -> list[PrintedPage]:
     """Every page's words (with bold marked) and ruled tables. Not a readable PDF -> one UserError line."""
-    import pdfplumber
-    from pdfminer.pdfparser import PDFSyntaxError
+    return read_pdf_bytes(read_pdf_file(path), str(path))
 
+
+def read_pdf_file(path: str | Path) -> bytes:
+    """The bytes of a file that must be a PDF, or one UserError line naming it."""
     p = Path(path)
     if not p.exists():
         raise UserError(f"{p}: no such file; check the path of the printed sheet PDF")
     if p.is_dir():
         raise UserError(f"{p}: is a folder, expected a PDF file")
-    with p.open("rb") as handle:
-        if not handle.read(1024).lstrip().startswith(b"%PDF"):
-            raise UserError(f"{p}: is not a PDF file; give the PDF written by `scorecard render`")
+    try:
+        data = p.read_bytes()
+    except OSError as exc:
+        raise UserError(f"{p}: cannot read ({exc.strerror}); check permissions") from None
+    if not data[:1024].lstrip().startswith(b"%PDF"):
+        raise UserError(f"{p}: is not a PDF file; give the PDF written by `scorecard render`")
+    return data
+
+
+def read_pdf_bytes(data: bytes, source: str = "PDF") -> list[PrintedPage]:
+    """`read_pdf` of PDF bytes already in memory; `source` names them in errors."""
+    import io
+
+    import pdfplumber
+    from pdfminer.pdfparser import PDFSyntaxError
+
     pages = []
     try:
-        with pdfplumber.open(p) as doc:
+        with pdfplumber.open(io.BytesIO(data)) as doc:
             for number, page in enumerate(doc.pages, start=1):
                 raw = page.extract_words(keep_blank_chars=False, use_text_flow=False, extra_attrs=["fontname"])
                 words = [Word(w["text"], w["x0"], w["x1"], w["top"], w["bottom"], "bold" in w["fontname"].lower()) for w in raw]
                 pages.append(PrintedPage(number, " ".join(w.text for w in words), words, _tables(number, words, page.edges)))
     except (PDFSyntaxError, ValueError, KeyError, TypeError) as exc:
-        raise UserError(f"{p}: cannot be read as a PDF ({type(exc).__name__}); give the PDF written by `scorecard render`") from None
+        raise UserError(f"{source}: cannot be read as a PDF ({type(exc).__name__}); give the PDF written by `scorecard render`") from None
     except Exception as exc:  # pdfminer raises many private error types for damaged files
         if type(exc).__module__.startswith(("pdfminer", "pdfplumber")):
-            raise UserError(f"{p}: cannot be read as a PDF ({type(exc).__name__}); give the PDF written by `scorecard render`") from None
+            raise UserError(f"{source}: cannot be read as a PDF ({type(exc).__name__}); give the PDF written by `scorecard render`") from None
         raise
     if not pages:
-        raise UserError(f"{p}: the PDF has no pages")
+        raise UserError(f"{source}: the PDF has no pages")
     return pages

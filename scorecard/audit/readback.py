@@ -9,7 +9,8 @@ What each table must say comes from the sheet document alone:
   points cell per column, then the not-measured row with its points;
 - the conversion table: groups of Total | Risk | Band columns, read down then across, every total in order;
 - the band table: per band its name, first and last total, and first and last risk;
-- the sheet's short fingerprint on every page, and no other fingerprint anywhere.
+- the sheet's short fingerprint on every page, and no other fingerprint anywhere;
+- "Page x of y" on every page, x its place in the file and y the number of pages in the file.
 
 Tables may run on to the next page (their heading row is repeated): rows are collected in page order.
 Points and totals are compared as integers (a printed minus may be U+2212); texts word by word.
@@ -17,10 +18,12 @@ Points and totals are compared as integers (a printed minus may be U+2212); text
 
 from __future__ import annotations
 
+import re
 from dataclasses import dataclass
 
 from scorecard.audit.pdf_tables import HEX12, PrintedPage, PrintedTable, Row, Word, read_pdf, reading_order
 from scorecard.errors import UserError
+from scorecard.sheet.approval import approval_line, signature_short
 from scorecard.sheet.printed import band_of, pair_missing_text, row_label
 
 MINUS_SIGNS = ("\u2212", "-", "\u2013")
@@ -282,6 +285,8 @@ class _Checker:
         per_page = [("title", self.sheet["title"]), ("outcome", outcome["event"]), ("horizon", outcome["horizon"]),
                     ("population", outcome["population"])]
         per_page += [(f"caution {k + 1}", c) for k, c in enumerate(self.sheet.get("cautions") or [])]
+        if self.sheet.get("approval"):
+            per_page.append(("approval", approval_line(self.sheet["approval"])))
         passages = {page.number: [_norm(t) for t in page.passages()] for page in self.pages}
         for page in self.pages:
             for name, text in per_page:
@@ -316,16 +321,32 @@ class _Checker:
                 self.mismatches.append(Mismatch(None, "text", name, "(not found)", text))
 
     # -- fingerprint ----------------------------------------------------------------------------------
-    def fingerprints(self, short: str, lineage: str | None = None) -> None:
-        """`lineage`: the short fingerprint a recalibrated sheet names as its origin (printed, and allowed)."""
+    def fingerprints(self, short: str, allowed: set[str] = frozenset()) -> None:
+        """`allowed`: other 12-hex names the sheet prints (a recalibrated sheet's origin, an approval's signature)."""
         for page in self.pages:
             found = set(HEX12.findall(page.text))
             self.cells += 1
-            others = sorted(found - {short, lineage})
+            others = sorted(found - {short} - set(allowed))
             if others:
                 self.mismatches.append(Mismatch(page.number, "fingerprint", "another sheet version", ", ".join(others), short))
             elif short not in found:
                 self.mismatches.append(Mismatch(page.number, "fingerprint", "page", "(none)", short))
+
+
+    # -- page numbers -------------------------------------------------------------------------------------
+    def page_numbers(self) -> None:
+        """Each page says 'Page x of y' once, with x its place in the file and y the file's page count: a page
+        appended, dropped or moved shows here even without the fresh render."""
+        count = len(self.pages)
+        for page in self.pages:
+            said = PAGE_X_OF_Y.findall(page.text)
+            self.cells += 1
+            expected = f"Page {page.number} of {count}"
+            if [f"Page {x} of {y}" for x, y in said] != [expected]:
+                self.mismatches.append(Mismatch(page.number, "page number", "Page x of y", ", ".join(f"Page {x} of {y}" for x, y in said) or "(none)", expected))
+
+
+PAGE_X_OF_Y = re.compile(r"\bPage (\d+) of (\d+)\b")
 
 
 def _fixed(value: float, decimals: int) -> str:
@@ -352,7 +373,10 @@ def verify_pages(sheet: dict, pages: list[PrintedPage], source: str = "PDF") -> 
                         "give the PDF written by `scorecard render`")
     check = _Checker(sheet, pages)
     lineage = sheet.get("recalibration")
-    check.fingerprints(short, lineage["original_fingerprint"][:12] if lineage else None)
+    # the 12-hex names a page may print besides the sheet's own: its origin if recalibrated, its signature if approved
+    allowed = {lineage["original_fingerprint"][:12] if lineage else None,
+               signature_short(sheet["approval"]) if sheet.get("approval") else None} - {None}
+    check.fingerprints(short, allowed)
     for term in sheet["terms"]:
         if term["kind"] == "pair":
             check.pair_term(term)
@@ -361,6 +385,7 @@ def verify_pages(sheet: dict, pages: list[PrintedPage], source: str = "PDF") -> 
     check.conversion()
     check.band_table()
     check.running_text()
+    check.page_numbers()
     return VerifyResult(len(pages), check.cells, check.mismatches)
 
 

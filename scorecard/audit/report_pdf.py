@@ -275,6 +275,8 @@ def report_pdf_bytes(report: dict, cautions: list[str]) -> bytes:
     sheet = report["sheet"]
     story = [_p(f"Agreement report: {sheet['title']}", s["title"])]
     story.append(_p(f"Sheet fingerprint {sheet['short_fingerprint']} (full: {sheet['fingerprint']})", s["body"]))
+    if report.get("bound_source"):  # scorecard check: whether the bounds below were approved (signed) or not
+        story.append(_p(f"Bounds judged: {report['bound_source']}", s["body"]))
     model = report["model"]
     story.append(_p(f"Exact model: {model['name']} version {model['version']}, fingerprint {model['fingerprint'][:12]}"
                     + ("" if model["matches_sheet"] else " — NOT the model this sheet was built from"), s["body"]))
@@ -289,7 +291,7 @@ def report_pdf_bytes(report: dict, cautions: list[str]) -> bytes:
     failed = [b for b in report["bounds"] if not b["pass"]]
     story.append(_p("EVERY BOUND SET ON THIS SHEET PASSES" if not failed else f"{len(failed)} CHECK{'S' if len(failed) > 1 else ''} FAIL: "
                     + ", ".join(b["name"] for b in failed), s["verdict_pass" if not failed else "verdict_fail"]))
-    for w in report["warnings"]:
+    for w in ([report["bound_warning"]] if report.get("bound_warning") else []) + report["warnings"]:
         story.append(_p(w, s["warning"]))
     lead = [b for b in report["bounds"] if b["name"] in PER_PATIENT] + [f for f in report.get("not_bounded", []) if f["name"] in PER_PATIENT]
     if lead:

@@ -77,3 +77,24 @@ class FeatureValue(click.ParamType):
 def level_list(text: str) -> list[str]:
     """LEVEL,LEVEL,... as a list of stripped, non-empty level names."""
     return [lv.strip() for lv in text.split(",") if lv.strip()]
+
+
+def approved_by_option(function):
+    """--approved-by APPROVER.pub, shared by the verbs that use a sheet (check, verify, score)."""
+    return click.option(
+        "--approved-by", "approved_by", metavar="APPROVER.pub", type=click.Path(),
+        help="The approver's public key (from `scorecard keygen`): refuse (exit 3) a sheet that this key did not "
+             "approve exactly as it is, bound included.")(function)
+
+
+def require_approval(sheet: dict, sheet_path: str, approved_by: str | None) -> dict | None:
+    """The sheet's approval checked against --approved-by (CheckFailed, exit 3, when it does not match);
+    None when no key was given."""
+    if not approved_by:
+        return None
+    from scorecard.sheet.approval import check_approval, load_public_key, signature_short
+
+    approval = check_approval(sheet, load_public_key(approved_by), str(sheet_path), str(approved_by))
+    say(f"approval: signed by {approval['name']} at {approval['approved_at']} with key {approval['key_fingerprint']} "
+        f"(signature {signature_short(approval)}); matches {approved_by}")
+    return approval

@@ -10,11 +10,11 @@ from scorecard.audit.agreement import check_agreement
 from scorecard.audit.matching import OVERRIDE_OPTION, model_matches_sheet
 from scorecard.audit.paper import sheet_features
 from scorecard.audit.report_pdf import report_pdf_bytes
-from scorecard.commands._common import output_path, say
+from scorecard.commands._common import FeatureValue, approved_by_option, output_path, require_approval, say
 from scorecard.errors import CheckFailed, UserError
 from scorecard.jsondoc import atomic_write_bytes, atomic_write_text, pretty_text
 from scorecard.model import load_model
-from scorecard.sheet import CAUTIONS, load_sheet
+from scorecard.sheet import CAUTIONS, load_sheet, validate_sheet_dict
 from scorecard.tabular import read_csv, require_columns
 from scorecard.suggest import did_you_mean
 
@@ -44,7 +44,13 @@ def guess_outcome_column(sheet: dict, columns: list[str]) -> str | None:
 @click.option("--seed", default=0, show_default=True, type=click.IntRange(min=0), help="Seed of the bootstrap (same seed, same report).")
 @click.option(OVERRIDE_OPTION, "allow_other", is_flag=True,
               help="Compare with a model whose fingerprint differs from the sheet's: warns loudly and marks the report FAIL.")
-def command(sheet_path, model_path, cohort_path, output, json_path, outcome, replicates, seed, allow_other) -> None:
+@approved_by_option
+@click.option("--bound", "bound_items", multiple=True, metavar="FIELD=VALUE",
+              type=FeatureValue("max_auc_loss=0.01", form="FIELD=VALUE"),
+              help="Judge the sheet against this bound instead of the one stored in it (e.g. max_auc_loss=0.01); repeatable. "
+                   "Fields are those of the sheet's bound block (docs/sheet-document.md); null leaves one unbounded.")
+def command(sheet_path, model_path, cohort_path, output, json_path, outcome, replicates, seed, allow_other,
+            approved_by, bound_items) -> None:
     """Check that the paper sheet SHEET.json agrees with its exact model on a cohort, and write the report.
 
     \b
@@ -72,6 +78,8 @@ def command(sheet_path, model_path, cohort_path, output, json_path, outcome, rep
     if json_out is not None and json_out.resolve() == out.resolve():
         raise UserError(f"{json_path}: --json and -o name the same file; choose two paths")
     sheet = load_sheet(sheet_path)
+    approval = require_approval(sheet, sheet_path, approved_by)
+    sheet, bound_source, unsigned = bound_to_judge(sheet, sheet_path, approval, bound_items)
     model = load_model(model_path)
     matches = model_matches_sheet(model, sheet, model_path, allow_other, say)
     cohort = read_csv(cohort_path)
@@ -85,6 +93,9 @@ def command(sheet_path, model_path, cohort_path, output, json_path, outcome, rep
                         f"{did_you_mean(outcome, list(cohort.columns))}")
     report = check_agreement(sheet, model, cohort, outcome=outcome, replicates=replicates, seed=seed,
                              model_matches=matches, progress=say if len(cohort) > 50_000 else None)
+    report["bound_source"] = bound_source
+    if unsigned:
+        report["bound_warning"] = unsigned
     for line in report["warnings"]:
         say(line)
     inputs = (sheet_path, model_path, cohort_path)
@@ -93,10 +104,47 @@ def command(sheet_path, model_path, cohort_path, output, json_path, outcome, rep
         atomic_write_text(json_out, pretty_text({**report, "cautions": sheet.get("cautions") or CAUTIONS}), protect=inputs)
     for line in summary_lines(report):
         say(line)
+    say(f"bound: {bound_source}")
+    if unsigned:
+        say(unsigned)
     say(f"report written to {out}")
     failed = [b for b in report["bounds"] if not b["pass"]]
     if failed:
         raise CheckFailed("; ".join(f"{b['name']}: {b['shown']}" for b in failed))
+
+
+UNSIGNED_BOUND = ("BOUND NOT APPROVED: the bounds judged here are the sheet's own, and no signature covers them "
+                  "(anyone who edits a sheet can loosen its bound and recompute its fingerprint). Check an approved "
+                  "sheet with --approved-by APPROVER.pub, or give the approved bound with --bound.")
+
+
+def bound_to_judge(sheet: dict, sheet_path: str, approval: dict | None, items: tuple[tuple[str, str], ...]) -> tuple[dict, str, str | None]:
+    """(the sheet with the bound to judge it by, where that bound came from, the warning when only the sheet's
+    own unsigned bound was there)."""
+    bound = dict(sheet["bound"])
+    given = {}
+    for name, text in items:
+        item = f"{name}={text}"
+        if name not in bound:
+            raise UserError(f"--bound {item}: {name!r} is not a field of the sheet's bound; use one of {', '.join(sorted(bound))}"
+                            f"{did_you_mean(name, sorted(bound))}")
+        try:
+            value = None if text.lower() in ("null", "none") else (int(text) if isinstance(bound[name], int) and not isinstance(bound[name], bool) else float(text))
+        except ValueError:
+            raise UserError(f"--bound {item}: {text!r} is not a {'whole ' if isinstance(bound[name], int) else ''}number") from None
+        given[name] = value
+    bound.update(given)
+    if given:
+        validate_sheet_dict({**{k: v for k, v in sheet.items() if k != "fingerprint"}, "bound": bound}, source="--bound")
+    if approval:
+        source = f"approved by {approval['name']} at {approval['approved_at']} (key {approval['key_fingerprint']}, signature verified)"
+    else:
+        source = "the sheet's own bound, not approved (no --approved-by)"
+    if given:
+        rest = f"the rest {source}" if approval else "the rest the sheet's own, not approved"
+        source = f"{', '.join(f'{k}={v}' for k, v in given.items())} from the command line; {rest}"
+    unsigned = UNSIGNED_BOUND if not approval and set(given) != set(bound) else None
+    return {**sheet, "bound": bound}, source, unsigned
 
 
 def summary_lines(report: dict) -> list[str]:

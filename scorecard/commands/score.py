@@ -7,7 +7,7 @@ import click
 from scorecard.audit.matching import OVERRIDE_OPTION, model_matches_sheet
 from scorecard.audit.paper import score_cohort
 from scorecard.audit.table import csv_text, scored_columns
-from scorecard.commands._common import output_path, say
+from scorecard.commands._common import approved_by_option, output_path, require_approval, say
 from scorecard.errors import UserError
 from scorecard.jsondoc import atomic_write_text
 from scorecard.model import load_model, predict_logodds, logistic
@@ -24,7 +24,9 @@ from scorecard.suggest import did_you_mean
               help="Also write the exact model's risk and the difference sheet - model. Must be the sheet's own model.")
 @click.option("--keep", multiple=True, metavar="COLUMN", help="Copy this cohort column into the output (e.g. a patient id); repeatable.")
 @click.option(OVERRIDE_OPTION, "allow_other", is_flag=True, help="Accept a model whose fingerprint differs from the sheet's (warns loudly).")
-def command(sheet_path: str, cohort_path: str, output: str, model_path: str | None, keep: tuple[str, ...], allow_other: bool) -> None:
+@approved_by_option
+def command(sheet_path: str, cohort_path: str, output: str, model_path: str | None, keep: tuple[str, ...], allow_other: bool,
+            approved_by: str | None) -> None:
     """Score every patient in COHORT.csv with the printed sheet SHEET.json, the way a nurse does on paper.
 
     \b
@@ -49,6 +51,7 @@ def command(sheet_path: str, cohort_path: str, output: str, model_path: str | No
     """
     out = output_path(output, sheet_path, cohort_path, model_path or "")
     sheet = load_sheet(sheet_path)
+    require_approval(sheet, sheet_path, approved_by)
     cohort = read_csv(cohort_path)
     for name in keep:
         if name not in cohort.columns:

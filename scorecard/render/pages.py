@@ -31,6 +31,7 @@ from scorecard.render.tables import (
     total_block,
 )
 from scorecard.render.text import markup, sheet_has_negative_points
+from scorecard.sheet.approval import approval_line
 from scorecard.sheet.printed import MEASURE_FIRST_RULE, number_text, units
 
 
@@ -122,6 +123,9 @@ class _Furniture:
         if lineage:  # scorecard recalibrate: the version this one was recalibrated from, and on what
             self.ident += (f" \u00b7 recalibrated from {lineage['original_fingerprint'][:12]} on {lineage['n']:,} patients "
                            f"of {lineage['data']['file']}")
+        approval = sheet.get("approval")
+        if approval:  # scorecard approve: who approved this sheet, and the signature to compare by eye
+            self.ident += " \u00b7 " + approval_line(approval)
         self.printed_label = "Printed on:"
         self.cautions = Paragraph(markup(cautions_line(sheet, short_fingerprint)), styles.small)
         s = styles.min_pt
@@ -136,8 +140,13 @@ class _Furniture:
         _, self.cautions_h = self.cautions.wrap(self.inner_w, height)
         self.page_label_w = text_width("Page 888 of 888", s)
         ident_room = self.inner_w - self.page_label_w - s
-        self.ident_lines = wrap_words(self.ident, s, ident_room)
         self.print_w = text_width(self.printed_label, s) + 26 * s / 3
+        self.ident_lines = wrap_words(self.ident, s, ident_room)
+        if len(self.ident_lines) > 1:
+            # the print-date field sits at the right of the second line: the lines after the first stop short of
+            # it (a long approval or recalibration text printed over "Printed on:")
+            rest = wrap_words(" ".join(self.ident_lines[1:]), s, self.inner_w - self.print_w - s)
+            self.ident_lines = self.ident_lines[:1] + rest
         # identity, print-date field and page number share one line when they fit, else the field goes below
         self.one_line = len(self.ident_lines) == 1 and (
             text_width(self.ident, s) + self.print_w + self.page_label_w + 2 * s <= self.inner_w)
