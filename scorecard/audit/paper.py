@@ -133,13 +133,37 @@ def _feature_kinds(sheet: dict) -> dict[str, str]:
     return kinds
 
 
+def _display_conversions(sheet: dict) -> dict[str, dict]:
+    found = {}
+    for term in sheet["terms"]:
+        for block in term["axes"] if term["kind"] == "pair" else [term]:
+            if block.get("display_conversion"):
+                found[block["feature"]] = block["display_conversion"]
+    return found
+
+
+def to_display_unit(values: np.ndarray, conv: dict) -> np.ndarray:
+    """Cohort values (the model's unit) in the table's display unit: scale x value + offset computed exactly in
+    rational arithmetic on the value as written, then the nearest float (NaN stays NaN)."""
+    scale, offset = Fraction(conv["scale"]), Fraction(conv["offset"])
+    x = np.asarray(values, dtype=float)
+    out = x.copy()
+    for i in np.flatnonzero(np.isfinite(x)):
+        out[i] = float(Fraction(repr(float(x[i]))) * scale + offset)
+    return out
+
+
 def parse_cohort(sheet: dict, frame: pd.DataFrame) -> dict[str, np.ndarray]:
-    """Parse each column the sheet needs once: floats (NaN = not measured), flags as 1/0/NaN, levels/None."""
+    """Parse each column the sheet needs once: floats (NaN = not measured; in the table's display unit where it
+    has one), flags as 1/0/NaN, levels/None."""
     require_columns(frame, sheet_features(sheet), what="the sheet")
     values = {}
+    conversions = _display_conversions(sheet)
     for name, kind in _feature_kinds(sheet).items():
         if kind == "continuous":
             values[name] = numeric_column(frame, name)
+            if name in conversions:
+                values[name] = to_display_unit(values[name], conversions[name])
         elif kind == "flag":
             values[name] = flag_column(frame, name)
         else:

@@ -5,6 +5,7 @@ from __future__ import annotations
 import click
 
 from scorecard.commands._common import output_path, say
+from scorecard.errors import UserError
 from scorecard.model import load_model
 from scorecard.quantize import Bound, parse_bands, quantize_model
 from scorecard.sheet import save_sheet, short_fingerprint
@@ -74,6 +75,50 @@ def summary_lines(doc: dict) -> list[str]:
     return lines
 
 
+def display_model(model, data, display_units: tuple[str, ...], molar_masses: tuple[str, ...]):
+    """The model (and the cohort's columns) in the display units asked for, and each feature's conversion."""
+    from scorecard.model.units import conversion, convert_values, in_display_unit
+    from scorecard.suggest import did_you_mean
+    from scorecard.tabular import numeric_column
+
+    known = [f.name for f in model.features if f.kind == "continuous"]
+    masses = {}
+    for item in molar_masses:
+        name, eq, value = item.partition("=")
+        try:
+            masses[name.strip()] = float(value)
+        except ValueError:
+            raise UserError(f"--molar-mass {item}: write FEATURE=G_PER_MOL, e.g. --molar-mass glucose=180.16") from None
+        if not eq or not masses[name.strip()] > 0:
+            raise UserError(f"--molar-mass {item}: write FEATURE=G_PER_MOL with a positive number, e.g. glucose=180.16")
+    conversions = {}
+    for item in display_units:
+        name, eq, unit = item.partition("=")
+        name, unit = name.strip(), unit.strip()
+        unit, colon, places = unit.partition(":")
+        if not eq or not name or not unit:
+            raise UserError(f"--display-unit {item}: write FEATURE=UNIT or FEATURE=UNIT:DECIMALS, e.g. temperature=degF")
+        if name not in known:
+            raise UserError(f"--display-unit {item}: {name!r} is not a measured feature of the model"
+                            f"{did_you_mean(name, known)}; measured features: {', '.join(known)}")
+        decimals = None
+        if colon:
+            if not places.strip().isdigit() or int(places) > 6:
+                raise UserError(f"--display-unit {item}: decimals must be a whole number from 0 to 6, e.g. haemoglobin=g/dL:1")
+            decimals = int(places)
+        feature = model.feature(name)
+        if not feature.unit:
+            raise UserError(f"--display-unit {item}: the model gives {name!r} no unit to convert from; set it at fit (--unit)")
+        conv = conversion(feature.unit, unit, masses.get(name), where=f"--display-unit {item}")
+        model = in_display_unit(model, name, conv, decimals)
+        conversions[name] = {k: conv[k] for k in ("from_unit", "scale", "offset")}
+        conversions[name]["from_unit"] = feature.unit
+        if data is not None and name in data.columns:
+            data = data.copy()
+            data[name] = convert_values(numeric_column(data, name), conv)
+    return model, data, conversions
+
+
 @click.command()
 @click.argument("model_path", metavar="MODEL.json", type=click.Path())
 @click.option("--data", "data_path", metavar="COHORT.csv", type=click.Path(),
@@ -113,10 +158,17 @@ def summary_lines(doc: dict) -> list[str]:
 @click.option("--title", help="Page title (default: 'Risk of <event>').")
 @click.option("--bootstrap", type=click.IntRange(0, 10000), default=200, show_default=True,
               help="Bootstrap resamples for the ΔAUC interval (0 = none).")
+@click.option("--display-unit", "display_units", multiple=True, metavar="FEATURE=UNIT[:DECIMALS]",
+              help="Print FEATURE in the ward's own unit, e.g. temperature=degF, haemoglobin=g/dL:1; cut-points are "
+                   "found in that unit and score converts the cohort's values exactly before reading them "
+                   "(factors from pint; repeatable).")
+@click.option("--molar-mass", "molar_masses", multiple=True, metavar="FEATURE=G_PER_MOL",
+              help="Molar mass for a concentration shown as mass, e.g. glucose=180.16 for mmol/L -> mg/dL.")
 @click.option("-o", "--output", "output", required=True, type=click.Path(), help="Sheet document to write (*.sheet.json).")
 def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_share, min_band_agreement, risk_error_percentile,
             max_percentile_risk_error, max_largest_risk_error, max_certificate_risk_error, max_rows, max_total_points,
-            max_row_error, bands, allow_negative, merge_equal_levels, title, bootstrap, output) -> None:
+            max_row_error, bands, allow_negative, merge_equal_levels, title, bootstrap, display_units, molar_masses,
+            output) -> None:
     """Quantise MODEL.json into integer point tables that meet an accuracy bound.
 
     Finds the simplest sheet (fewest printed rows, then the smallest range of total points) whose ΔAUC is at
@@ -144,8 +196,19 @@ def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_shar
     band_list = parse_bands(bands)
     model = load_model(model_path)
     data = read_csv(data_path) if data_path else None
-    doc = quantize_model(model, data=data, bound=bound, bands=band_list, allow_negative=allow_negative,
+    shown, data, conversions = display_model(model, data, display_units, molar_masses)
+    doc = quantize_model(shown, data=data, bound=bound, bands=band_list, allow_negative=allow_negative,
                          merge_equal_levels=merge_equal_levels, bootstrap=bootstrap, title=title, progress=say)
+    if conversions:  # the sheet belongs to the model as written; its tables say how a value reaches their unit
+        doc["model"] = {"name": model.name, "version": model.version, "fingerprint": model.fingerprint}
+        for term in doc["terms"]:
+            blocks = term["axes"] if term["kind"] == "pair" else [term]
+            for block in blocks:
+                if block.get("feature") in conversions and block["kind"] == "continuous":
+                    block["display_conversion"] = conversions[block["feature"]]
+        for name, conv in conversions.items():
+            say(f"{name}: printed in {shown.feature(name).unit} (= {conv['scale']} x {conv['from_unit']} + {conv['offset']}); "
+                "cut-points found in that unit")
     save_sheet(doc, out, protect=(model_path, data_path) if data_path else (model_path,))
     for line in summary_lines(doc):
         say(line)

@@ -18,7 +18,7 @@ from scorecard.errors import UserError
 from scorecard.render.conversion import bands_block, conversion_curve_block, conversion_table_block
 from scorecard.invented import band_height, draw_band, is_invented
 from scorecard.pdf_plumbing import BOLD, REGULAR, page_x_of_y_canvas, text_width, wrap_words
-from scorecard.render.layout import PageLayout
+from scorecard.render.layout import PAGE_SIZES, PageLayout
 from scorecard.render.nomogram import nomogram_block
 from scorecard.render.styles import Styles, styles_for
 from scorecard.render.tables import (
@@ -69,6 +69,22 @@ class _SheetDoc(BaseDocTemplate):
             self.placement.section_pages.setdefault(index, self.page)
 
 
+# units of the International System a US chart does not use (it writes °F, g/dL, mg/dL)
+SI_UNITS = ("°C", "g/L", "mmol/L", "µmol/L", "umol/L", "mg/L", "nmol/L", "kPa")
+US_PAPER = tuple(tuple(sorted(PAGE_SIZES[name])) for name in ("Letter", "Legal"))  # either orientation
+
+
+def si_units_on(sheet: dict) -> list[str]:
+    """The SI units the sheet's measured tables are printed in, in print order."""
+    found = []
+    for term in sheet["terms"]:
+        for block in term["axes"] if term["kind"] == "pair" else [term]:
+            unit = block.get("unit") or ""
+            if block["kind"] == "continuous" and unit in SI_UNITS and unit not in found:
+                found.append(unit)
+    return found
+
+
 def training_range_texts(sheet: dict) -> list[str]:
     """'Age 60–101 years' for each continuous term, at the decimals the sheet prints for it."""
     out = []
@@ -95,6 +111,9 @@ class _Furniture:
         model = sheet["model"]
         self.title = Paragraph(markup(sheet["title"]), styles.title)
         when = f" \u00b7 <b>Score:</b> {markup(outcome['score_at'])}" if outcome.get("score_at") else ""
+        si = si_units_on(sheet) if tuple(sorted(layout.page_size)) in US_PAPER else []
+        if si:  # a US ward reads °F, g/dL, mg/dL: say plainly that these tables are not in those units
+            when += f" \u00b7 <b>Units: SI</b> ({markup(', '.join(si))}), not US units"
         self.outcome = Paragraph(
             f"<b>Outcome:</b> {markup(outcome['event'])} \u00b7 <b>Horizon:</b> {markup(outcome['horizon'])} \u00b7 "
             f"<b>For:</b> {markup(outcome['population'])}{when}", styles.small)
