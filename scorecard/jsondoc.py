@@ -15,6 +15,7 @@ import hashlib
 import json
 import math
 import os
+import re
 import tempfile
 from decimal import ROUND_DOWN, Decimal
 from functools import lru_cache
@@ -150,13 +151,47 @@ def read_json_file(path: str | os.PathLike, what: str, allow_nonfinite: bool = F
     if not raw.strip():
         raise UserError(f"{p}: file is empty; expected a {what}")
     try:
-        return json.loads(raw.decode("utf-8"), parse_constant=float if allow_nonfinite else _refuse_constant)
+        text = raw.decode("utf-8")
     except UnicodeDecodeError:
         raise UserError(f"{p}: not UTF-8 text; expected a {what} (JSON)") from None
+    problem = _too_deep_or_too_long(text)
+    if problem:
+        raise UserError(f"{p}: {problem}; expected a {what} as written by scorecard")
+    try:
+        return json.loads(text, parse_constant=float if allow_nonfinite else _refuse_constant,
+                          parse_float=float if allow_nonfinite else _finite_float)
     except json.JSONDecodeError as exc:
         raise UserError(f"{p}: not valid JSON at line {exc.lineno} column {exc.colno} ({exc.msg}); expected a {what}") from None
     except ValueError as exc:
         raise UserError(f"{p}: {exc}; numbers must be finite") from None
+
+
+MAX_DEPTH = 64  # the documents nest about 8 levels; far deeper is a broken or hostile file (Python would recurse)
+MAX_DIGITS = 40  # a number in a document has at most 17 significant digits; 10**400 would overflow float
+_STRING = re.compile(r'"(?:[^"\\]|\\.)*"')
+_LONG_DIGITS = re.compile(r"\d{%d,}" % (MAX_DIGITS + 1))
+
+
+def _too_deep_or_too_long(text: str) -> str | None:
+    """Checked before parsing: nesting deeper than MAX_DEPTH, or a number of more than MAX_DIGITS digits."""
+    bare = _STRING.sub('""', text)  # brackets and digits inside strings do not count
+    depth = deepest = 0
+    for char in re.findall(r"[\[\]{}]", bare):
+        depth += 1 if char in "[{" else -1
+        deepest = max(deepest, depth)
+        if deepest > MAX_DEPTH:
+            return f"the document nests deeper than {MAX_DEPTH} levels"
+    long_number = _LONG_DIGITS.search(bare)
+    if long_number:
+        return f"a number has more than {MAX_DIGITS} digits ({long_number.group()[:12]}...)"
+    return None
+
+
+def _finite_float(text: str) -> float:
+    value = float(text)
+    if not math.isfinite(value):
+        raise ValueError(f"the number {text} is too large")
+    return value
 
 
 def _refuse_constant(name: str) -> Any:
@@ -193,3 +228,46 @@ def schema_error_line(err: jsonschema.ValidationError) -> str:
         allowed = ", ".join(json.dumps(v) for v in err.validator_value)
         return f"{where}: {json.dumps(err.instance, ensure_ascii=False)} is not one of {allowed}"
     return f"{where}: {err.message}"
+
+
+# -- printed text shared by the model and sheet documents ------------------------------------------------
+
+# bidirectional embeddings/overrides/isolates and marks, zero-width characters and the byte-order mark: they
+# change how a text reads without showing, and a PDF reader cannot give them back (verify would then fail)
+_INVISIBLE = {0x200B, 0x200C, 0x200D, 0x200E, 0x200F, 0x2028, 0x2029, 0x202A, 0x202B, 0x202C, 0x202D, 0x202E,
+              0x2060, 0x2066, 0x2067, 0x2068, 0x2069, 0xFEFF}
+
+
+def unprintable_character(text: str) -> str | None:
+    """'U+202E (a right-to-left or hidden mark)' for the first character a printed text must not hold, or None."""
+    import unicodedata
+
+    for char in text:
+        code = ord(char)
+        if code in _INVISIBLE:
+            return f"U+{code:04X} (a hidden or text-direction mark)"
+        if unicodedata.category(char) in ("Cc", "Cs", "Co", "Cn") or (unicodedata.category(char) == "Cf"):
+            return f"U+{code:04X} (a control character)"
+    return None
+
+
+def first_unprintable(value: Any, parts: list | None = None, skip: tuple[str, ...] = ("provenance",)) -> str | None:
+    """'terms[2].label: holds U+FEFF ...; remove it' for the first string in the document (outside the top-level
+    keys in `skip`, which hold free text nobody prints) with a character that cannot be printed and read back."""
+    parts = parts or []
+    if isinstance(value, str):
+        bad = unprintable_character(value)
+        return f"{field_path(parts)}: holds {bad}; retype the text without it" if bad else None
+    if isinstance(value, dict):
+        for key in sorted(value):
+            if not parts and key in skip:
+                continue
+            found = first_unprintable(key, parts + [key], skip) or first_unprintable(value[key], parts + [key], skip)
+            if found:
+                return found
+    if isinstance(value, list):
+        for i, item in enumerate(value):
+            found = first_unprintable(item, parts + [i], skip)
+            if found:
+                return found
+    return None

@@ -44,7 +44,14 @@ def read_csv(path: str | Path, what: str = "cohort") -> pd.DataFrame:
         raise UserError(f"{p}: column {dupes[0]!r} appears more than once in the header; rename or remove the copy")
     if len(frame) == 0:
         raise UserError(f"{p}: has a header but no data rows; expected at least one patient")
-    frame.columns = [c.strip() for c in header]
+    stripped = [c.strip() for c in header]
+    seen: dict[str, str] = {}
+    for original, name in zip(header, stripped):
+        if name in seen:
+            raise UserError(f"{p}: columns {seen[name]!r} and {original!r} are the same name once spaces are removed; "
+                            "rename or remove one")
+        seen[name] = original
+    frame.columns = stripped
     frame.attrs["source"] = str(p)
     return frame
 

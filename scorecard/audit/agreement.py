@@ -179,23 +179,30 @@ def _against_outcomes(y: np.ndarray, model_lo: np.ndarray, model_risk: np.ndarra
     out: dict = {"n": int(known.sum()), "not_known": int((~known).sum()), "event_rate": float(yk.mean())}
     for who, lo, risk in (("model", model_lo[known], model_risk[known]), ("sheet", sheet_lo[known], scored.risk[known])):
         g, ng = statistics.tie_groups(lo)
-        a, b = statistics.logistic_calibration(*statistics.grouped(lo, yk))
+        one_class = yk.min() == yk.max()  # every outcome 0 (or 1): no intercept, slope or AUC is estimable
+        a, b = (None, None) if one_class else statistics.logistic_calibration(*statistics.grouped(lo, yk))
         out[who] = {
-            "auc": statistics.weighted_auc(g, ng, yk, 1 - yk),
+            "auc": None if one_class else statistics.weighted_auc(g, ng, yk, 1 - yk),
             "calibration_intercept": a,
             "calibration_slope": b,
             "brier": statistics.brier(risk, yk),
             "mean_risk": float(np.mean(risk)),
             "calibration_table": statistics.calibration_table(risk, yk),
         }
-    out["auc_loss"] = out["model"]["auc"] - out["sheet"]["auc"]
+    out["auc_loss"] = None if out["model"]["auc"] is None else out["model"]["auc"] - out["sheet"]["auc"]
     return out
+
+
+MIN_PATIENTS = 2  # an AUC, a calibration and a bootstrap need two patients at the very least
 
 
 def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outcome: str | None = None,
                     replicates: int = 200, seed: int = 0, model_matches: bool = True, progress=None) -> dict:
     """Every figure of the agreement report as a plain dict (also the --json output)."""
     say = progress or (lambda message: None)
+    if len(frame) < MIN_PATIENTS:
+        raise UserError(f"{source_of(frame)}: {len(frame)} patient(s); agreement needs at least {MIN_PATIENTS} to compare "
+                        "paper and software (no AUC or spread is defined on fewer); give a larger cohort")
     say(f"scoring {len(frame)} patients with the sheet")
     values = parse_cohort(sheet, frame)
     scored = score_cohort(sheet, frame, values)

@@ -45,7 +45,7 @@ def _p(text: str, style: ParagraphStyle) -> Paragraph:
 
 
 def _num(value, fmt: str = "{:.4f}") -> str:
-    return "–" if value is None else fmt.format(value)
+    return "not estimable" if value is None else fmt.format(value)
 
 
 def _pct(value, places: int = 2) -> str:

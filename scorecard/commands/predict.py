@@ -3,6 +3,7 @@
 from __future__ import annotations
 
 import click
+import numpy as np
 
 from scorecard.commands._common import output_path, say
 from scorecard.errors import UserError
@@ -37,6 +38,9 @@ def command(model_path: str, cohort_path: str, output: str, with_parts: bool, ke
             raise UserError(f"{cohort_path}: --keep column {name!r} is not in the file{did_you_mean(name, list(cohort.columns))}")
     parts, report = contributions(model, cohort)
     logodds = model.intercept + parts.to_numpy().sum(axis=1)
+    if not np.isfinite(logodds).all():  # cannot happen within the document's bounds; never write inf as a risk
+        row = int(np.flatnonzero(~np.isfinite(logodds))[0]) + 1
+        raise UserError(f"{cohort_path}: row {row}: the model's log-odds are not a finite number; check the model document")
     table = cohort[list(keep)].copy()
     table["logodds"] = logodds
     table["risk"] = logistic(logodds)

@@ -2,9 +2,11 @@
 
 from __future__ import annotations
 
+import math
+
 import click
 
-from scorecard.commands._common import output_path, say
+from scorecard.commands._common import BadValue, FeatureValue, output_path, say
 from scorecard.errors import UserError
 from scorecard.model import load_model
 from scorecard.quantize import Bound, parse_bands, quantize_model
@@ -75,37 +77,41 @@ def summary_lines(doc: dict) -> list[str]:
     return lines
 
 
-def display_model(model, data, display_units: tuple[str, ...], molar_masses: tuple[str, ...]):
+def _unit_and_decimals(text: str) -> tuple[str, int | None]:
+    """UNIT or UNIT:DECIMALS of --display-unit."""
+    unit, colon, places = text.partition(":")
+    if not unit.strip():
+        raise BadValue("write FEATURE=UNIT or FEATURE=UNIT:DECIMALS")
+    if colon and (not places.strip().isdigit() or int(places) > 6):
+        raise BadValue("decimals must be a whole number from 0 to 6")
+    return unit.strip(), (int(places) if colon else None)
+
+
+def _positive_number(text: str) -> float:
+    try:
+        value = float(text)
+    except ValueError:
+        raise BadValue(f"{text!r} is not a number of grams per mole") from None
+    if not (value > 0 and math.isfinite(value)):
+        raise BadValue("the molar mass must be a positive number of grams per mole")
+    return value
+
+
+def display_model(model, data, display_units: tuple[tuple[str, tuple[str, int | None]], ...],
+                  molar_masses: tuple[tuple[str, float], ...]):
     """The model (and the cohort's columns) in the display units asked for, and each feature's conversion."""
     from scorecard.model.units import conversion, convert_values, in_display_unit
     from scorecard.suggest import did_you_mean
     from scorecard.tabular import numeric_column
 
     known = [f.name for f in model.features if f.kind == "continuous"]
-    masses = {}
-    for item in molar_masses:
-        name, eq, value = item.partition("=")
-        try:
-            masses[name.strip()] = float(value)
-        except ValueError:
-            raise UserError(f"--molar-mass {item}: write FEATURE=G_PER_MOL, e.g. --molar-mass glucose=180.16") from None
-        if not eq or not masses[name.strip()] > 0:
-            raise UserError(f"--molar-mass {item}: write FEATURE=G_PER_MOL with a positive number, e.g. glucose=180.16")
+    masses = dict(molar_masses)
     conversions = {}
-    for item in display_units:
-        name, eq, unit = item.partition("=")
-        name, unit = name.strip(), unit.strip()
-        unit, colon, places = unit.partition(":")
-        if not eq or not name or not unit:
-            raise UserError(f"--display-unit {item}: write FEATURE=UNIT or FEATURE=UNIT:DECIMALS, e.g. temperature=degF")
+    for name, (unit, decimals) in display_units:
+        item = f"{name}={unit}" + ("" if decimals is None else f":{decimals}")
         if name not in known:
             raise UserError(f"--display-unit {item}: {name!r} is not a measured feature of the model"
                             f"{did_you_mean(name, known)}; measured features: {', '.join(known)}")
-        decimals = None
-        if colon:
-            if not places.strip().isdigit() or int(places) > 6:
-                raise UserError(f"--display-unit {item}: decimals must be a whole number from 0 to 6, e.g. haemoglobin=g/dL:1")
-            decimals = int(places)
         feature = model.feature(name)
         if not feature.unit:
             raise UserError(f"--display-unit {item}: the model gives {name!r} no unit to convert from; set it at fit (--unit)")
@@ -159,10 +165,12 @@ def display_model(model, data, display_units: tuple[str, ...], molar_masses: tup
 @click.option("--bootstrap", type=click.IntRange(0, 10000), default=200, show_default=True,
               help="Bootstrap resamples for the ΔAUC interval (0 = none).")
 @click.option("--display-unit", "display_units", multiple=True, metavar="FEATURE=UNIT[:DECIMALS]",
+              type=FeatureValue("temperature=degF (or haemoglobin=g/dL:1)", _unit_and_decimals, form="FEATURE=UNIT or FEATURE=UNIT:DECIMALS"),
               help="Print FEATURE in the ward's own unit, e.g. temperature=degF, haemoglobin=g/dL:1; cut-points are "
                    "found in that unit and score converts the cohort's values exactly before reading them "
                    "(factors from pint; repeatable).")
 @click.option("--molar-mass", "molar_masses", multiple=True, metavar="FEATURE=G_PER_MOL",
+              type=FeatureValue("glucose=180.16", _positive_number, form="FEATURE=G_PER_MOL"),
               help="Molar mass for a concentration shown as mass, e.g. glucose=180.16 for mmol/L -> mg/dL.")
 @click.option("-o", "--output", "output", required=True, type=click.Path(), help="Sheet document to write (*.sheet.json).")
 def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_share, min_band_agreement, risk_error_percentile,

@@ -16,7 +16,7 @@ from typing import Any
 import jsonschema
 
 from scorecard.errors import UserError
-from scorecard.jsondoc import field_path, schema_error_line, schema_validator, atomic_write_text, fingerprint, normalise, pretty_text, read_json_file
+from scorecard.jsondoc import first_unprintable, field_path, schema_error_line, schema_validator, atomic_write_text, fingerprint, normalise, pretty_text, read_json_file
 from scorecard.suggest import did_you_mean
 
 FORMAT_VERSION = 1
@@ -155,7 +155,7 @@ def validate_model_dict(doc: Any, source: str = "model") -> None:
     errors = list(_validator().iter_errors(doc))
     if errors:
         raise UserError(f"{source}: {schema_error_line(_best_error(errors))}")
-    problem = _first_nonfinite(doc, []) or _check_structure(doc)
+    problem = _first_nonfinite(doc, []) or first_unprintable(doc) or _check_structure(doc)
     if problem:
         raise UserError(f"{source}: {problem}")
 
@@ -177,14 +177,42 @@ def _first_nonfinite(value: Any, parts: list) -> str | None:
     return None
 
 
-def _finite(values, where: str) -> str | None:
+# Beyond these no clinical model or measurement lies, and sums of such numbers could overflow a float:
+MAX_LOGODDS = 100.0  # |log-odds| of 100 is a risk within 1e-43 of 0 or 1
+MAX_MEASUREMENT = 1e9  # bin edges and training ranges, in the feature's own unit
+
+
+def _finite(values, where: str, limit: float | None = None, what: str = "") -> str | None:
     for i, v in enumerate(values):
         if isinstance(v, list):
-            bad = _finite(v, f"{where}[{i}]")
+            bad = _finite(v, f"{where}[{i}]", limit, what)
             if bad:
                 return bad
         elif not math.isfinite(v):
             return f"{where}[{i}]: must be a finite number"
+        elif limit is not None and abs(v) > limit:
+            return f"{where}[{i}]: {v:g} is beyond \u00b1{limit:g} {what}; check the units or the export"
+    return None
+
+
+def _levels_problem(levels, where: str) -> str | None:
+    for i, level in enumerate(levels or []):
+        if not level.strip():
+            return f"{where}[{i}]: a level name is empty or only spaces; give every level a name"
+        if level != level.strip():
+            return f"{where}[{i}]: level {level!r} has spaces at its ends; remove them (cohort cells are read stripped)"
+    return None
+
+
+def _negative(values, where: str) -> str | None:
+    """A spread is a standard deviation between bags: never below 0."""
+    for i, v in enumerate(values):
+        if isinstance(v, list):
+            bad = _negative(v, f"{where}[{i}]")
+            if bad:
+                return bad
+        elif v < 0:
+            return f"{where}[{i}]: {v:g} is negative; a spread is a standard deviation (0 or more)"
     return None
 
 
@@ -205,6 +233,8 @@ def _same_length(term: dict, key: str, n: int, where: str) -> str | None:
 def _check_structure(doc: dict) -> str | None:
     if not math.isfinite(doc["intercept"]):
         return "intercept: must be a finite number"
+    if abs(doc["intercept"]) > MAX_LOGODDS:
+        return f"intercept: {doc['intercept']:g} is beyond \u00b1{MAX_LOGODDS:g} log-odds; check the export of the model"
     features: dict[str, dict] = {}
     for i, f in enumerate(doc["features"]):
         where = f"features[{i}]"
@@ -215,13 +245,17 @@ def _check_structure(doc: dict) -> str | None:
             return f"{where}.levels: a categorical feature must list its levels"
         if f["kind"] != "categorical" and "levels" in f:
             return f"{where}.levels: only categorical features have levels"
+        bad = _levels_problem(f.get("levels"), f"{where}.levels")
+        if bad:
+            return bad
         if f.get("reading") == "completed" and f["kind"] != "continuous":
             return f"{where}.reading: only a continuous feature is read in completed units"
         rng = f.get("training_range")
         if rng:
             if f["kind"] != "continuous":
                 return f"{where}.training_range: only continuous features have a training range"
-            bad = _finite([rng[k] for k in ("min", "max", "p01", "p99") if k in rng], f"{where}.training_range")
+            bad = _finite([rng[k] for k in ("min", "max", "p01", "p99") if k in rng], f"{where}.training_range",
+                          MAX_MEASUREMENT, "for a measurement")
             if bad:
                 return bad
             if rng["min"] > rng["max"]:
@@ -253,15 +287,20 @@ def _check_term(t: dict, where: str, features: dict[str, dict], single_features:
         if t["feature"] in single_features:
             return f"{where}.feature: feature {t['feature']!r} already has a one-feature term; merge them"
         single_features.add(t["feature"])
-    bad = _finite(t["scores"], f"{where}.scores") or _finite(t.get("spread") or [], f"{where}.spread")
+    bad = (_finite(t["scores"], f"{where}.scores", MAX_LOGODDS, "log-odds")
+           or _finite(t.get("spread") or [], f"{where}.spread", MAX_LOGODDS, "log-odds")
+           or _negative(t.get("spread") or [], f"{where}.spread")
+           or _levels_problem(t.get("levels"), f"{where}.levels"))
     if bad:
         return bad
     ms = t.get("missing_score")
     if ms is not None and not math.isfinite(ms):
         return f"{where}.missing_score: must be a finite number or null"
+    if ms is not None and abs(ms) > MAX_LOGODDS:
+        return f"{where}.missing_score: {ms:g} is beyond \u00b1{MAX_LOGODDS:g} log-odds; check the export of the model"
     if kind == "continuous":
         edges = t.get("edges", [])
-        bad = _finite(edges, f"{where}.edges") or _increasing(edges, f"{where}.edges")
+        bad = _finite(edges, f"{where}.edges", MAX_MEASUREMENT, "for a measurement") or _increasing(edges, f"{where}.edges")
         if bad:
             return bad
         n = len(t["scores"])
@@ -294,7 +333,8 @@ def _check_term(t: dict, where: str, features: dict[str, dict], single_features:
         if fkind == "continuous":
             if "edges" not in axis:
                 return f"{aw}: feature {name!r} is continuous, so its axis needs edges"
-            bad = _finite(axis["edges"], f"{aw}.edges") or _increasing(axis["edges"], f"{aw}.edges")
+            bad = (_finite(axis["edges"], f"{aw}.edges", MAX_MEASUREMENT, "for a measurement")
+                   or _increasing(axis["edges"], f"{aw}.edges"))
             if bad:
                 return bad
             shape.append(len(axis["edges"]) + 1)

@@ -17,7 +17,7 @@ from typing import Any
 import jsonschema
 
 from scorecard.errors import UserError
-from scorecard.jsondoc import schema_error_line, schema_validator, atomic_write_text, fingerprint, normalise, pretty_text, read_json_file
+from scorecard.jsondoc import first_unprintable, schema_error_line, schema_validator, atomic_write_text, fingerprint, normalise, pretty_text, read_json_file
 from scorecard.sheet.printed import is_on_grid, range_text, risk_text, units
 
 FORMAT_VERSION = 1
@@ -55,7 +55,7 @@ def validate_sheet_dict(doc: Any, source: str = "sheet") -> None:
     errors = list(_validator().iter_errors(doc))
     if errors:
         raise UserError(f"{source}: {schema_error_line(jsonschema.exceptions.best_match(errors))}")
-    problem = _check_structure(doc)
+    problem = first_unprintable(doc) or _check_structure(doc)
     if problem:
         raise UserError(f"{source}: {problem}")
     if "fingerprint" in doc and doc["fingerprint"] != sheet_fingerprint(doc):
@@ -169,6 +169,21 @@ def _check_term(t: dict, where: str) -> str | None:
     return None
 
 
+MAX_TOTAL_RANGE = 100_000  # totals a conversion table may list (the schema bounds each row's points at 10^5)
+
+
+def _term_points(t: dict) -> list[int]:
+    if t["kind"] == "pair":
+        return [p for row in t["points"] for p in row] + ([t["missing_points"]] if t.get("missing_points") is not None else [])
+    return [r["points"] for r in t["rows"]]
+
+
+def _reachable_totals(terms: list[dict]) -> tuple[int, int]:
+    """Lowest and highest total the printed rows can add up to (one row or grid cell per block)."""
+    points = [_term_points(t) for t in terms]
+    return sum(min(p) for p in points if p), sum(max(p) for p in points if p)
+
+
 def _check_structure(doc: dict) -> str | None:
     scale = doc["scale"]
     bad = _finite(scale["logodds_per_point"], "scale.logodds_per_point") or _finite(scale["offset"], "scale.offset")
@@ -186,6 +201,12 @@ def _check_structure(doc: dict) -> str | None:
     lo, hi = doc["total"]["min"], doc["total"]["max"]
     if lo > hi:
         return f"total: min {lo} is above max {hi}"
+    if hi - lo > MAX_TOTAL_RANGE:
+        return f"total: {lo} to {hi} is more than {MAX_TOTAL_RANGE} totals; no one adds such points by hand, quantize again"
+    reach = _reachable_totals(doc["terms"])
+    if reach[0] < lo or reach[1] > hi:
+        return (f"total: the printed points add up to totals from {reach[0]} to {reach[1]}, but total and the conversion "
+                f"table cover only {lo} to {hi}; a patient's total would have no risk; quantize the model again")
     conv = doc["conversion"]
     totals = [c["total"] for c in conv]
     if totals != list(range(lo, hi + 1)):

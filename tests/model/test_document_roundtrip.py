@@ -59,6 +59,8 @@ def test_save_refuses_to_overwrite_an_input(model_doc, tmp_path):
 # -- property test over random valid models ----------------------------------------------------------
 
 finite = st.floats(min_value=-1e6, max_value=1e6, allow_nan=False, allow_infinity=False)
+# scores and the intercept are log-odds, which a model document bounds at +-100 (model/document.py MAX_LOGODDS)
+logodds = st.floats(min_value=-100, max_value=100, allow_nan=False, allow_infinity=False)
 names = st.text(alphabet=string.ascii_lowercase, min_size=1, max_size=6)
 levels = st.lists(st.text(alphabet=string.ascii_letters + " -", min_size=1, max_size=8).filter(lambda s: s.strip() == s),
                   min_size=2, max_size=5, unique=True)
@@ -77,7 +79,7 @@ def random_model(draw):
     for name in feature_names:
         kind = draw(st.sampled_from(["step", "linear", "categorical", "flag"]))
         missing = draw(st.sampled_from(["score", "average", "error"]))
-        missing_score = draw(st.one_of(st.none(), finite))
+        missing_score = draw(st.one_of(st.none(), logodds))
         if kind in ("step", "linear"):
             edges = draw(sorted_edges(2 if kind == "linear" else 0))
             n_scores = len(edges) + (1 if kind == "step" else 0)
@@ -86,7 +88,7 @@ def random_model(draw):
             if edges and draw(st.booleans()):
                 feature["training_range"] = {"min": edges[0], "max": edges[-1]}
             term = {"kind": "continuous", "name": name, "feature": name, "shape": kind, "edges": edges,
-                    "scores": draw(st.lists(finite, min_size=n_scores, max_size=n_scores)),
+                    "scores": draw(st.lists(logodds, min_size=n_scores, max_size=n_scores)),
                     "missing_score": missing_score}
             if draw(st.booleans()):
                 term["counts"] = draw(st.lists(st.integers(0, 1000), min_size=n_scores, max_size=n_scores))
@@ -94,11 +96,11 @@ def random_model(draw):
             lv = draw(levels)
             feature = {"name": name, "label": name, "kind": "categorical", "levels": lv, "missing": missing}
             term = {"kind": "categorical", "name": name, "feature": name, "levels": lv,
-                    "scores": draw(st.lists(finite, min_size=len(lv), max_size=len(lv))),
+                    "scores": draw(st.lists(logodds, min_size=len(lv), max_size=len(lv))),
                     "unseen": draw(st.sampled_from(["error", "average", "missing"])), "missing_score": missing_score}
         else:
             feature = {"name": name, "label": name, "kind": "flag", "missing": missing}
-            term = {"kind": "flag", "name": name, "feature": name, "scores": draw(st.lists(finite, min_size=2, max_size=2)),
+            term = {"kind": "flag", "name": name, "feature": name, "scores": draw(st.lists(logodds, min_size=2, max_size=2)),
                     "missing_score": missing_score}
         features.append(feature)
         terms.append(term)
@@ -116,13 +118,13 @@ def random_model(draw):
             else:
                 axes.append({"levels": list(f["levels"])})
                 shape.append(len(f["levels"]))
-        grid = draw(st.lists(st.lists(finite, min_size=shape[1], max_size=shape[1]), min_size=shape[0], max_size=shape[0]))
+        grid = draw(st.lists(st.lists(logodds, min_size=shape[1], max_size=shape[1]), min_size=shape[0], max_size=shape[0]))
         terms.append({"kind": "pair", "name": f"{a['name']} x {b['name']}", "features": [a["name"], b["name"]],
                       "axes": axes, "scores": grid})
     return {
         "format_version": 1, "document": "scorecard-model", "name": draw(names), "version": "1",
         "outcome": {"event": "e", "horizon": "h", "population": "p"}, "link": "logit",
-        "intercept": draw(finite), "features": features, "terms": terms,
+        "intercept": draw(logodds), "features": features, "terms": terms,
         "provenance": {"note": draw(st.text(max_size=10)), "value": draw(finite)},
     }
 

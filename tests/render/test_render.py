@@ -311,7 +311,7 @@ def test_render_refuses_to_overwrite_its_input_and_writes_previews(sheet, tmp_pa
 def test_tampered_sheet_is_refused(sheet, tmp_path):
     sheet_path = tmp_path / "s.sheet.json"
     save_sheet(sheet, sheet_path)
-    sheet_path.write_text(sheet_path.read_text().replace('"points": 7', '"points": 8'))
+    sheet_path.write_text(sheet_path.read_text().replace('"points": 7', '"points": 6'))
     result = CliRunner().invoke(main, ["render", str(sheet_path), "-o", str(tmp_path / "s.pdf")])
     assert result.exit_code == 2 and "fingerprint" in result.output
 

@@ -8,7 +8,7 @@ from scorecard.sheet import CAUTIONS, ROUNDING_RULE, risk_text
 def example_sheet() -> dict:
     offset, per_point = -3.0, 0.25
     conversion = []
-    for total in range(0, 13):
+    for total in range(0, 15):
         z = offset + per_point * total
         risk = 1 / (1 + math.exp(-z))
         conversion.append({"total": total, "risk": risk, "text": risk_text(risk)})
@@ -47,7 +47,7 @@ def example_sheet() -> dict:
              "points": [[0, 0], [2, 0]], "missing_points": 0},
         ],
         "dropped_terms": [{"name": "temperature", "reason": "its whole effect rounds to 0 points"}],
-        "total": {"min": 0, "max": 12},
+        "total": {"min": 0, "max": 14},
         "conversion": conversion,
         "bands": [{"name": "low", "upper_risk": 0.05, "wording": "Write your unit's agreed action here (local protocol)."},
                   {"name": "high", "upper_risk": None, "wording": "Write your unit's agreed action here (local protocol)."}],

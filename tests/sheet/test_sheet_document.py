@@ -33,11 +33,11 @@ def test_edited_sheet_is_refused(sheet_doc, tmp_path):
     path = tmp_path / "s.sheet.json"
     save_sheet(sheet_doc, path)
     doc = json.loads(path.read_text())
-    doc["terms"][0]["rows"][2]["points"] = 9
+    doc["terms"][0]["rows"][2]["points"] = 4  # still inside the conversion table: only the fingerprint shows the edit
     path.write_text(json.dumps(doc))
     with pytest.raises(UserError, match="fingerprint"):
         load_sheet(path)
-    assert load_sheet(path, check_fingerprint=False)["terms"][0]["rows"][2]["points"] == 9
+    assert load_sheet(path, check_fingerprint=False)["terms"][0]["rows"][2]["points"] == 4
 
 
 def test_missing_fingerprint_is_refused(sheet_doc, tmp_path):
@@ -77,7 +77,7 @@ MALFORMED = [
     (lambda d: d["terms"][3]["rows"][1].__setitem__("value", False), r"terms\[3\].rows: a flag needs exactly one row"),
     (lambda d: d["terms"][4]["points"].append([1, 1]), r"terms\[4\].points: grid must be 2x2"),
     (lambda d: d["terms"][4]["axes"][1].__setitem__("feature", "age"), r"terms\[4\].axes\[1\].feature"),
-    (lambda d: d["conversion"].pop(3), r"conversion: must list every total from 0 to 12"),
+    (lambda d: d["conversion"].pop(3), r"conversion: must list every total from 0 to 14"),
     (lambda d: d["conversion"][2].__setitem__("risk", 0.5), r"conversion\[2\].risk"),
     (lambda d: d["conversion"][2].__setitem__("text", "6%"), r"conversion\[2\].text"),
     (lambda d: d["bands"].reverse(), r"bands\[1\].upper_risk: only the last band"),

@@ -1,0 +1,231 @@
+"""Hostile and careless input, tried on every verb that reads it: one line, exit 2 (or 3 where a check ran and
+failed), nothing written. Each case is a way the tool once ended in a traceback or accepted a wrong document."""
+
+from __future__ import annotations
+
+import copy
+import json
+
+import pandas as pd
+import pytest
+from click.testing import CliRunner
+from hypothesis import HealthCheck, given, settings
+from hypothesis import strategies as st
+
+from scorecard.cli import main
+from scorecard.demo import generate_cohort
+from scorecard.errors import UserError
+from scorecard.jsondoc import pretty_text
+from scorecard.model import model_from_dict
+from tests.audit.handmade import model_dict, sheet_dict
+
+DEMO_MODEL = "example_models/demo-true.model.json"
+
+
+def run(*args):
+    return CliRunner().invoke(main, list(map(str, args)))
+
+
+def one_line_error(result, expected: str, code: int = 2) -> str:
+    assert result.exit_code == code, result.output
+    lines = result.output.strip().splitlines()
+    assert len(lines) == 1 and lines[0].startswith("error: ") and expected in lines[0], result.output
+    return lines[0]
+
+
+@pytest.fixture()
+def files(tmp_path):
+    """The hand-made sheet and its model (tests/audit/handmade.py) and a cohort they can score."""
+    (tmp_path / "sheet.json").write_text(pretty_text(sheet_dict()))
+    (tmp_path / "model.json").write_text(pretty_text(model_dict()))
+    c = generate_cohort(300, seed=3)
+    residence = c["residence"].map({"own_home": "home", "with_family": "home", "care_home": "care_home"})
+    table = pd.DataFrame({"age": c.age, "temperature": c.temperature, "cognition": c.cognition, "residence": residence,
+                          "prior_delirium": c.prior_delirium, "delirium": c.delirium})
+    table.to_csv(tmp_path / "cohort.csv", index=False)
+    return tmp_path
+
+
+def _verbs(f, model, sheet):
+    """Every verb that reads a model or a sheet document, with the rest of its arguments valid."""
+    out = f / "out"
+    return {
+        "predict": ["predict", model, f / "cohort.csv", "-o", f"{out}.csv"],
+        "review": ["review", model, "-o", f"{out}.pdf"],
+        "explain": ["explain", model, "--values", "age=80"],
+        "quantize": ["quantize", model, "-o", f"{out}.sheet.json"],
+        "edit": ["edit", model, "--remove-effect", "age", "-o", f"{out}.model.json"],
+        "render": ["render", sheet, "-o", f"{out}.pdf"],
+        "score": ["score", sheet, f / "cohort.csv", "-o", f"{out}.csv"],
+        "check": ["check", sheet, "--model", f / "model.json", "--data", f / "cohort.csv", "-o", f"{out}.pdf"],
+        "verify": ["verify", f / "missing.pdf", "--sheet", sheet],
+    }
+
+
+HOSTILE_FILES = {
+    # 5,000 nested arrays made every verb recurse until Python gave up
+    "deep": ("[" * 5000 + "]" * 5000, "nests deeper than 64 levels"),
+    # 10**400 does not fit a float; a 5,000-digit integer hit Python's integer-string limit
+    "huge integer": ('{"intercept": 1' + "0" * 400 + "}", "more than 40 digits"),
+    "5000 digits": ('{"a": ' + "7" * 5000 + "}", "more than 40 digits"),
+}
+
+
+@pytest.mark.parametrize("case", sorted(HOSTILE_FILES))
+@pytest.mark.parametrize("verb", ["predict", "review", "explain", "quantize", "edit", "render", "score", "check", "verify"])
+def test_hostile_documents_are_one_line_on_every_verb(files, verb, case):
+    text, expected = HOSTILE_FILES[case]
+    bad = files / "bad.json"
+    bad.write_text(text)
+    model = bad if verb in ("predict", "review", "explain", "quantize", "edit") else files / "model.json"
+    sheet = bad if model != bad else files / "sheet.json"
+    one_line_error(run(*_verbs(files, model, sheet)[verb]), expected)
+    assert not list(files.glob("out*"))
+
+
+def _model_with(change) -> dict:
+    doc = json.load(open(DEMO_MODEL))
+    change(doc)
+    return doc
+
+
+def _term(doc, kind):
+    return next(t for t in doc["terms"] if t["kind"] == kind)
+
+
+def _feature(doc, kind):
+    return next(f for f in doc["features"] if f["kind"] == kind)
+
+
+BAD_MODELS = [
+    # an intercept of 800 or 1e308 made quantize fail on a singular matrix
+    ("intercept 800", lambda d: d.update(intercept=800), "intercept: 800 is beyond ±100 log-odds"),
+    ("intercept 1e308", lambda d: d.update(intercept=1e308), "intercept: 1e+308 is beyond ±100 log-odds"),
+    ("score 1e20", lambda d: _term(d, "continuous")["scores"].__setitem__(0, 1e20), "scores[0]: 1e+20 is beyond ±100"),
+    # bin edges of ±1e308 gave review NaN axis limits; a 1e308 training range hid a 2.77 log-odds effect
+    ("edge 1e308", lambda d: _term(d, "continuous")["edges"].__setitem__(-1, 1e308), "is beyond ±1e+09 for a measurement"),
+    ("range 1e308", lambda d: _feature(d, "continuous")["training_range"].update(max=1e308), "training_range[1]: 1e+308 is beyond"),
+    ("negative spread", lambda d: _term(d, "continuous").update(spread=[-0.1] * len(_term(d, "continuous")["scores"])),
+     "spread[0]: -0.1 is negative"),
+    ("whitespace level", lambda d: _feature(d, "categorical")["levels"].__setitem__(0, "   "), "only spaces"),
+    ("spaced level", lambda d: _feature(d, "categorical")["levels"].__setitem__(0, " home"), "spaces at its ends"),
+    # U+FEFF in a label broke matplotlib inside review; right-to-left overrides and control characters printed
+    # a sheet that the tool's own verify then failed
+    ("BOM label", lambda d: _feature(d, "flag").update(label="\ufeffPrior delirium"), "U+FEFF"),
+    ("RLO label", lambda d: _feature(d, "flag").update(label="Prior \u202edelirium"), "U+202E"),
+    ("bell in name", lambda d: d.update(name="demo\x07"), "name: holds U+0007 (a control character)"),
+]
+
+
+@pytest.mark.parametrize("name, change, expected", BAD_MODELS, ids=[c[0] for c in BAD_MODELS])
+def test_a_wrong_model_is_refused_at_load_naming_the_field(tmp_path, name, change, expected):
+    path = tmp_path / "bad.model.json"
+    path.write_text(json.dumps(_model_with(change), ensure_ascii=False))
+    for verb in (["predict", path, tmp_path / "c.csv", "-o", tmp_path / "o.csv"], ["quantize", path, "-o", tmp_path / "o.json"],
+                 ["review", path, "-o", tmp_path / "o.pdf"]):
+        one_line_error(run(*verb), expected)
+    assert not list(tmp_path.glob("o.*"))
+
+
+def _sheet_with(change) -> dict:
+    doc = sheet_dict()
+    change(doc)
+    return doc
+
+
+BAD_SHEETS = [
+    # points above the largest total, or below the smallest, have no risk: score and check refused them, render
+    # and verify printed them
+    ("points above the table", lambda d: d["terms"][0]["rows"][-1].update(points=d["total"]["max"] + 5), "cover only"),
+    ("negative points", lambda d: d["terms"][0]["rows"][0].update(points=-3), "cover only"),
+    ("raised minimum", lambda d: (d["total"].update(min=1), d["conversion"].pop(0)), "cover only"),
+    # points of 10**20 made score overflow and render run for minutes
+    ("points 1e20", lambda d: d["terms"][0]["rows"][0].update(points=10**20), "is greater than the maximum of 100000"),
+    ("RLO title", lambda d: d.update(title="Delirium \u202erisk"), "title: holds U+202E"),
+    ("BOM in a row", lambda d: d["terms"][0]["rows"][0].update(text="\ufeff" + d["terms"][0]["rows"][0]["text"]), "U+FEFF"),
+]
+
+
+@pytest.mark.parametrize("name, change, expected", BAD_SHEETS, ids=[c[0] for c in BAD_SHEETS])
+def test_a_wrong_sheet_is_refused_at_load_by_every_verb(files, name, change, expected):
+    (files / "bad.sheet.json").write_text(pretty_text(_sheet_with(change)))
+    verbs = _verbs(files, files / "model.json", files / "bad.sheet.json")
+    for verb in ("render", "score", "check", "verify"):
+        one_line_error(run(*verbs[verb]), expected)
+    assert not list(files.glob("out*"))
+
+
+def test_a_sheet_number_too_large_for_a_float_is_named(files):
+    text = pretty_text(sheet_dict()).replace('"logodds_per_point": 0.25', '"logodds_per_point": 1e400')
+    assert "1e400" in text
+    (files / "bad.sheet.json").write_text(text)
+    one_line_error(run("render", files / "bad.sheet.json", "-o", files / "out.pdf"), "the number 1e400 is too large")
+
+
+def test_headers_that_differ_only_by_spaces_are_refused(files):
+    frame = pd.read_csv(files / "cohort.csv")
+    frame.insert(1, "age ", frame["age"])
+    frame.to_csv(files / "twice.csv", index=False)
+    line = one_line_error(run("score", files / "sheet.json", files / "twice.csv", "-o", files / "out.csv"),
+                          "columns 'age' and 'age ' are the same name once spaces are removed")
+    assert "twice.csv" in line and not (files / "out.csv").exists()
+
+
+def test_check_on_a_single_patient_is_refused_not_passed(files):
+    pd.read_csv(files / "cohort.csv").head(1).to_csv(files / "one.csv", index=False)
+    result = run("check", files / "sheet.json", "--model", files / "model.json", "--data", files / "one.csv",
+                 "--outcome", "delirium", "-o", files / "out.pdf")
+    one_line_error(result, "1 patient(s); agreement needs at least 2")
+    assert "pass" not in result.output and not (files / "out.pdf").exists()
+
+
+def test_every_outcome_zero_gives_not_estimable_instead_of_a_number(files):
+    frame = pd.read_csv(files / "cohort.csv")
+    frame["delirium"] = 0
+    frame.to_csv(files / "zeros.csv", index=False)
+    result = run("check", files / "sheet.json", "--model", files / "model.json", "--data", files / "zeros.csv",
+                 "--outcome", "delirium", "-o", files / "out.pdf", "--json", files / "out.json", "--bootstrap", "20")
+    assert result.exit_code in (0, 3), result.output
+    against = json.loads((files / "out.json").read_text())["against_outcomes"]
+    for who in ("model", "sheet"):
+        # with no event the logistic recalibration has no finite maximum (it ran to -51 before)
+        assert against[who]["calibration_intercept"] is None and against[who]["calibration_slope"] is None
+        assert against[who]["auc"] is None
+    import pdfplumber
+
+    with pdfplumber.open(files / "out.pdf") as pdf:
+        text = " ".join(page.extract_text() or "" for page in pdf.pages)
+    assert "not estimable" in text
+
+
+# -- fuzz: any value in any field of a model document is either a model or one UserError line --------------
+
+def _paths(value, prefix=()):
+    yield prefix
+    if isinstance(value, dict):
+        for k, v in value.items():
+            yield from _paths(v, prefix + (k,))
+    elif isinstance(value, list):
+        for i, v in enumerate(value[:3]):
+            yield from _paths(v, prefix + (i,))
+
+
+_BASE = json.load(open(DEMO_MODEL))
+_PATHS = [p for p in _paths(_BASE) if p and p[0] != "provenance"]
+_JSON = st.recursive(st.none() | st.booleans() | st.integers(-10**30, 10**30) | st.floats(allow_nan=True)
+                     | st.text(max_size=12), lambda inner: st.lists(inner, max_size=3)
+                     | st.dictionaries(st.text(max_size=5), inner, max_size=3), max_leaves=6)
+
+
+@settings(max_examples=120, deadline=None, suppress_health_check=[HealthCheck.too_slow])
+@given(path=st.sampled_from(_PATHS), value=_JSON)
+def test_fuzzed_model_fields_give_a_model_or_one_user_error(path, value):
+    doc = copy.deepcopy(_BASE)
+    place = doc
+    for key in path[:-1]:
+        place = place[key]
+    place[path[-1]] = value
+    try:
+        model_from_dict(doc)
+    except UserError as exc:
+        assert "\n" not in str(exc) and str(exc).startswith("model: ")
