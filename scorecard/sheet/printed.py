@@ -123,16 +123,6 @@ def reading_of(block: dict) -> str:
     return block.get("reading") or ROUNDED
 
 
-def completed_example(block: dict) -> str:
-    """'79.6 counts as 79' for a completed-units block: a value a little past a whole unit inside its range."""
-    d = int(block.get("decimals", 0))
-    rng = block.get("training_range") or {}
-    mid = (float(rng.get("min", 0)) + float(rng.get("max", 0))) / 2
-    whole = int(Decimal(repr(mid)).scaleb(d).to_integral_value(rounding=ROUND_FLOOR))
-    past = number_text(whole, d) + "6" if d else f"{whole}.6"
-    return f"{past} counts as {number_text(whole, d)}"
-
-
 def unit_text(block: dict) -> str:
     """The bracket of a table heading: the unit, as 'completed years' for a block read in completed units."""
     unit = block.get("unit") or ""
