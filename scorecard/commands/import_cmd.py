@@ -18,13 +18,17 @@ def _outcome_options(func):
         click.option("--event", default=None, help="The outcome event, e.g. 'delirium'. Printed on the sheet; 'not stated' if omitted."),
         click.option("--horizon", default=None, help="Over what time, e.g. 'within 5 days after surgery'."),
         click.option("--population", default=None, help="For whom the model is valid, e.g. 'adults aged 60 or over after hip-fracture surgery'."),
+        click.option("--invented-data", "invented", is_flag=True,
+                     help="The model is invented (a demo, a test): its sheets and every page made from it say "
+                          "INVENTED DATA - NOT FOR CLINICAL USE."),
     ]
     for option in reversed(options):
         func = option(func)
     return func
 
 
-def _finish(model, out, table: str) -> None:
+def _finish(model, out, table: str, invented: bool = False) -> None:
+    model.invented_data = invented
     fingerprint = save_model(model, out, protect=(table,))
     missing = [k for k, v in model.outcome.items() if v == "not stated"]
     if missing:
@@ -52,7 +56,7 @@ def command() -> None:
 @_outcome_options
 @click.option("--centre-on", "centre_on", metavar="COHORT.csv", default=None,
               help="Centre every term on this cohort (its mean moves into the intercept); risks do not change.")
-def coefficients(table, output, name, model_version, event, horizon, population, centre_on) -> None:
+def coefficients(table, output, name, model_version, event, horizon, population, invented, centre_on) -> None:
     """Import a logistic regression written as a coefficient table.
 
     \b
@@ -79,13 +83,13 @@ def coefficients(table, output, name, model_version, event, horizon, population,
     model = import_coefficient_table(
         table, name=name, version=model_version, event=event, horizon=horizon, population=population, centre_on=cohort
     )
-    _finish(model, out, table)
+    _finish(model, out, table, invented)
 
 
 @command.command(name="shapes")
 @click.argument("table", metavar="TABLE.csv")
 @_outcome_options
-def shapes(table, output, name, model_version, event, horizon, population) -> None:
+def shapes(table, output, name, model_version, event, horizon, population, invented) -> None:
     """Import an additive model written as a long-format shape table.
 
     \b
@@ -112,4 +116,4 @@ def shapes(table, output, name, model_version, event, horizon, population) -> No
 
     out = output_path(output, table)
     model = import_shape_table(table, name=name, version=model_version, event=event, horizon=horizon, population=population)
-    _finish(model, out, table)
+    _finish(model, out, table, invented)

@@ -105,10 +105,11 @@ def test_example_model_is_the_import_of_its_table(tmp_path):
         "--name", "Delirium after hip-fracture surgery (invented logistic model)",
         "--event", "Delirium within 5 days after hip-fracture surgery",
         "--horizon", "5 days after the operation",
-        "--population", "Adults aged 60 or over having surgery for a hip fracture",
+        "--population", "Adults aged 60 or over having surgery for a hip fracture", "--invented-data",
     )
     assert result.exit_code == 0, result.output
     assert out.read_bytes() == (ROOT / "example_models" / "demo-logistic.model.json").read_bytes()
+    assert load_model(out).invented_data  # an invented model: its sheets say so on every page
     model = load_model(out)
     assert {f.name for f in model.features} == {
         "age", "cognition", "sodium", "haemoglobin", "hours_to_surgery", "medicines", "albumin", "temperature",
