@@ -75,6 +75,9 @@ def main() -> None:
       data.csv --fit--> model.json --review/edit--> model.json --quantize--> sheet.json --render--> sheet.pdf
       other model --import--^                      cohort.csv --check--> report     sheet.pdf --verify--> report
 
+    For the ward, once a sheet is in use: compare (what changed between versions), recalibrate (the
+    unit's outcomes refit the conversion), exercise and mark (hand-scoring training), export (PMML).
+
     Start with `scorecard demo -o DIR`, which runs the whole pipeline on an invented cohort.
 
     Exit codes: 0 done; 1 internal error; 2 bad input or usage (one line says which file, row or field,

@@ -6,7 +6,6 @@ from pathlib import Path
 
 import click
 
-from scorecard.audit.matching import model_matches_sheet
 from scorecard.commands._common import output_path, say
 from scorecard.errors import CheckFailed, UserError
 from scorecard.jsondoc import atomic_write_text, file_sha256, pretty_text
@@ -59,7 +58,9 @@ def command(sheet_path, data_path, outcome, output, model_path, json_path) -> No
     model = None
     if model_path:
         model = load_model(model_path)
-        model_matches_sheet(model, sheet, model_path, False, say)
+        if model.fingerprint != sheet["model"]["fingerprint"]:
+            raise UserError(f"{model_path}: model fingerprint {model.fingerprint[:12]} is not the one the sheet was built from "
+                            f"({sheet['model']['fingerprint'][:12]}); give the sheet's own model with --model, or leave --model out")
     frame = read_csv(data_path)
     figures = assess(sheet, frame, outcome, model)
     for line in figures["warnings"]:

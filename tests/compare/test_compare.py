@@ -67,6 +67,16 @@ def test_a_coarser_version_cuts_where_half_up_rounding_puts_it():
         ("≤ 37.4", "≤ 37", "≤ 37.7"), ("37.5–37.7", "≥ 38", "≤ 37.7"), ("≥ 37.8", "≥ 38", "≥ 37.8")]
 
 
+def test_a_coarser_version_read_in_completed_units_cuts_at_the_whole_unit():
+    # docs/sheet-document.md: read in completed years, 37.9 counts as 37, so the old row ≥ 38 starts at 38.0
+    old = {"decimals": 0, "reading": "completed", "rows": [{"lower": None, "upper": 38, "text": "≤ 37", "points": 0},
+                                                          {"lower": 38, "upper": None, "text": "≥ 38", "points": 2}]}
+    new = {"decimals": 1, "rows": [{"lower": None, "upper": 37.8, "text": "≤ 37.7", "points": 0}, {"lower": 37.8, "upper": None, "text": "≥ 37.8", "points": 2}]}
+    pieces = continuous_pieces(old, new)
+    assert [(p["values"], p["old"]["row"], p["new"]["row"]) for p in pieces[:-1]] == [
+        ("≤ 37.7", "≤ 37", "≤ 37.7"), ("37.8–37.9", "≤ 37", "≥ 37.8"), ("≥ 38.0", "≥ 38", "≥ 37.8")]
+
+
 def test_conversion_changes_list_every_total_that_prints_differently(versions):
     old, new = versions
     report = sheet_changes(old, new)
