@@ -13,11 +13,10 @@ from hypothesis import HealthCheck, given, settings
 from hypothesis import strategies as st
 
 from scorecard.cli import main
-from scorecard.demo import generate_cohort
 from scorecard.errors import UserError
 from scorecard.jsondoc import pretty_text
 from scorecard.model import model_from_dict
-from tests.audit.handmade import model_dict, sheet_dict
+from tests.audit.handmade import sheet_dict, write_handmade_files
 
 DEMO_MODEL = "example_models/demo-true.model.json"
 
@@ -36,14 +35,7 @@ def one_line_error(result, expected: str, code: int = 2) -> str:
 @pytest.fixture()
 def files(tmp_path):
     """The hand-made sheet and its model (tests/audit/handmade.py) and a cohort they can score."""
-    (tmp_path / "sheet.json").write_text(pretty_text(sheet_dict()))
-    (tmp_path / "model.json").write_text(pretty_text(model_dict()))
-    c = generate_cohort(300, seed=3)
-    residence = c["residence"].map({"own_home": "home", "with_family": "home", "care_home": "care_home"})
-    table = pd.DataFrame({"age": c.age, "temperature": c.temperature, "cognition": c.cognition, "residence": residence,
-                          "prior_delirium": c.prior_delirium, "delirium": c.delirium})
-    table.to_csv(tmp_path / "cohort.csv", index=False)
-    return tmp_path
+    return write_handmade_files(tmp_path, rows=300)
 
 
 def _verbs(f, model, sheet):

@@ -175,3 +175,21 @@ def sheet_dict(model: dict | None = None, bands: bool = True, lpp: float = LPP) 
     doc = normalise(doc)
     doc["fingerprint"] = sheet_fingerprint(doc)
     return doc
+
+
+def write_handmade_files(folder, rows: int):
+    """Write the hand-made sheet and model, and an invented demo cohort of `rows` patients they can score, into
+    `folder` (sheet.json, model.json, cohort.csv); returns the folder."""
+    import pandas as pd
+
+    from scorecard.demo import generate_cohort
+    from scorecard.jsondoc import pretty_text
+
+    (folder / "sheet.json").write_text(pretty_text(sheet_dict()))
+    (folder / "model.json").write_text(pretty_text(model_dict()))
+    c = generate_cohort(rows, seed=3)
+    residence = c["residence"].map({"own_home": "home", "with_family": "home", "care_home": "care_home"})
+    table = pd.DataFrame({"age": c.age, "temperature": c.temperature, "cognition": c.cognition, "residence": residence,
+                          "prior_delirium": c.prior_delirium, "delirium": c.delirium})
+    table.to_csv(folder / "cohort.csv", index=False)
+    return folder

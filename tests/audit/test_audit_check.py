@@ -23,7 +23,7 @@ from scorecard.jsondoc import pretty_text
 from scorecard.model import predict_logodds
 from scorecard.quantize import Bound, quantize_model
 from scorecard.sheet import sheet_fingerprint, short_fingerprint
-from tests.audit.handmade import model_dict, sheet_dict
+from tests.audit.handmade import model_dict, sheet_dict, write_handmade_files
 
 
 # -- the statistics, on arrays ------------------------------------------------------------------------
@@ -137,14 +137,7 @@ def test_demo_figures_match_reference_libraries_on_the_same_arrays(demo):
 
 @pytest.fixture()
 def files(tmp_path):
-    (tmp_path / "sheet.json").write_text(pretty_text(sheet_dict()))
-    (tmp_path / "model.json").write_text(pretty_text(model_dict()))
-    c = generate_cohort(1500, seed=3)
-    residence = c["residence"].map({"own_home": "home", "with_family": "home", "care_home": "care_home"})
-    table = pd.DataFrame({"age": c.age, "temperature": c.temperature, "cognition": c.cognition, "residence": residence,
-                          "prior_delirium": c.prior_delirium, "delirium": c.delirium})
-    table.to_csv(tmp_path / "cohort.csv", index=False)
-    return tmp_path
+    return write_handmade_files(tmp_path, rows=1500)
 
 
 def run(*args):
