@@ -10,7 +10,7 @@ from reportlab.platypus import KeepTogether, PageBreak, Spacer, Table, TableStyl
 from scorecard.audit.report_pdf import paragraph as _p, report_document_bytes, report_styles, report_table
 from scorecard.exercise.key import Key
 from scorecard.invented import is_invented
-from scorecard.sheet import NOT_MEASURED_TEXT, short_fingerprint
+from scorecard.sheet import MEASURE_FIRST_RULE, NOT_MEASURED_TEXT, short_fingerprint
 
 CARDS_PER_PAGE = 2
 
@@ -81,8 +81,8 @@ def _instructions(key: Key, s: dict) -> list:
               "table. Score exactly as the sheet says, including for values it does not show directly:", s["body"]),
            _p(f"• {sheet['rounding_rule']}", s["body"]),
            _p("• A value below or above every printed row belongs to the first or last row.", s["body"]),
-           _p("• “not measured” uses the table's not-measured row where it has one (0 points where it has none); a "
-              "category the table does not list uses its “Other” row.", s["body"]),
+           _p(f"• “not measured” uses the table's not-measured row. {MEASURE_FIRST_RULE} A category the table does "
+              "not list uses its “Other” row.", s["body"]),
            Spacer(1, 3 * mm),
            _p(f"{len(key.ids)} patients. The answer key is on the last pages: remove them before handing the exercise out.", s["body"]),
            _p("The patients are invented for training; they are not real people.", s["small"])]

@@ -15,6 +15,7 @@ from scorecard.sheet.document import (
     validate_sheet_dict,
 )
 from scorecard.sheet.printed import (
+    MEASURE_FIRST_RULE,
     NOT_MEASURED_TEXT,
     ROUNDING_RULE,
     band_indices,
@@ -35,6 +36,7 @@ __all__ = [
     "CAUTIONS",
     "DOCUMENT_TAG",
     "FORMAT_VERSION",
+    "MEASURE_FIRST_RULE",
     "NOT_MEASURED_TEXT",
     "ROUNDING_RULE",
     "band_indices",
