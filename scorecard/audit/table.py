@@ -56,3 +56,29 @@ def csv_text(columns: list[tuple[list[str], np.ndarray]]) -> str:
     header = ",".join(_quote(name) for names, _ in columns for name in names)
     body = "\n".join(map(",".join, zip(*(cells for _, cells in columns))))
     return header + "\n" + body + ("\n" if body else "")
+
+
+def scored_table(scored: ScoredCohort, sheet: dict, keep: pd.DataFrame | None = None,
+                 model_risk: np.ndarray | None = None) -> pd.DataFrame:
+    """The same columns as `scored_columns`, typed for a Parquet output: texts as text, points and totals as
+    integers, risks as floats (full precision, where the CSV prints 10 significant digits)."""
+    table: dict[str, object] = {}
+    if keep is not None:
+        for name in keep.columns:
+            table[name] = keep[name].to_numpy()
+    for t in scored.terms:
+        table[f"row:{t.name}"] = np.asarray(t.texts, dtype=object)[t.index]
+        table[f"points:{t.name}"] = t.points[t.index]
+    risk_by_total = {int(c["total"]): c for c in sheet["conversion"]}
+    first = int(scored.total.min())
+    span = [risk_by_total[v] for v in range(first, int(scored.total.max()) + 1)]
+    at = scored.total - first
+    table["total"] = scored.total
+    table["sheet_risk"] = np.array([float(e["risk"]) for e in span])[at]
+    table["sheet_risk_text"] = np.array([e["text"] for e in span], dtype=object)[at]
+    if scored.band is not None:
+        table["band"] = np.array([b["name"] for b in sheet["bands"]], dtype=object)[scored.band]
+    if model_risk is not None:
+        table["model_risk"] = model_risk
+        table["risk_difference"] = scored.risk - model_risk
+    return pd.DataFrame(table)

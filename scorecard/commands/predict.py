@@ -9,7 +9,8 @@ from scorecard.commands._common import output_path, say
 from scorecard.errors import UserError
 from scorecard.jsondoc import atomic_write_text
 from scorecard.model import contributions, load_model, logistic
-from scorecard.tabular import read_csv
+from scorecard.table_writer import TableWriter
+from scorecard.tabular import is_parquet, read_table
 from scorecard.suggest import did_you_mean
 
 
@@ -32,7 +33,7 @@ def command(model_path: str, cohort_path: str, output: str, with_parts: bool, ke
     """
     out = output_path(output, model_path, cohort_path)
     model = load_model(model_path)
-    cohort = read_csv(cohort_path)
+    cohort = read_table(cohort_path)
     for name in keep:
         if name not in cohort.columns:
             raise UserError(f"{cohort_path}: --keep column {name!r} is not in the file{did_you_mean(name, list(cohort.columns))}")
@@ -49,5 +50,9 @@ def command(model_path: str, cohort_path: str, output: str, with_parts: bool, ke
             table[f"term:{name}"] = parts[name].to_numpy()
     for line in report.lines():
         say(f"note: {line}")
-    atomic_write_text(out, table.to_csv(index=False, float_format="%.10g"))
+    if is_parquet(out):
+        with TableWriter(out, protect=(model_path, cohort_path)) as writer:
+            writer.write_frame(table)
+    else:
+        atomic_write_text(out, table.to_csv(index=False, float_format="%.10g"))
     say(f"wrote {len(table)} patients to {out}")
