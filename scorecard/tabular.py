@@ -11,6 +11,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from scorecard.csv_cells import unescape, unescape_column
 from scorecard.errors import UserError
 from scorecard.suggest import did_you_mean
 
@@ -20,7 +21,8 @@ FLAG_FALSE = frozenset({"0", "0.0", "false", "no", "n", "f"})
 
 
 def read_csv(path: str | Path, what: str = "cohort") -> pd.DataFrame:
-    """Read a CSV as text cells (parsing happens per feature, so errors can name the cell)."""
+    """Read a CSV as text cells (parsing happens per feature, so errors can name the cell). Cells that
+    scorecard.csv_cells made inert for spreadsheets are read back as the text they hold."""
     p = Path(path)
     if not p.exists():
         raise UserError(f"{p}: no such file; check the path of the {what} CSV")
@@ -32,7 +34,10 @@ def read_csv(path: str | Path, what: str = "cohort") -> pd.DataFrame:
         raise UserError(f"{p}: file is empty; expected a {what} CSV with a header row") from None
     except (pd.errors.ParserError, UnicodeDecodeError) as exc:
         raise UserError(f"{p}: not a readable CSV ({str(exc).splitlines()[0]}); save it as comma-separated UTF-8") from None
-    header = [str(c) for c in frame.columns]
+    # a cell written with a protective apostrophe (scorecard.csv_cells: "'=SUM(1)") reads as the text it holds
+    for name in frame.columns:
+        frame[name] = unescape_column(frame[name])
+    header = [unescape(str(c)) for c in frame.columns]
     if len(header) == 1:
         # spreadsheet exports in many locales separate with ';' (or a tab): say so instead of "column missing"
         for mark, name in ((";", "semicolons"), ("\t", "tabs")):

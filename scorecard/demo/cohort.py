@@ -23,6 +23,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from scorecard.csv_cells import frame_csv_text
 from scorecard.demo import population as pop
 from scorecard.demo.truth import raw_logodds
 from scorecard.errors import UserError
@@ -110,5 +111,4 @@ def cohort_csv_text(frame: pd.DataFrame) -> str:
     """The cohort as CSV text: integers without decimals, temperature at one decimal, empty = not measured."""
     out = frame.copy()
     out["albumin"] = out["albumin"].astype("Int64")
-    out["temperature"] = out["temperature"].map(lambda v: f"{v:.1f}")
-    return out.to_csv(index=False, lineterminator="\n")
+    return frame_csv_text(out, formats={"temperature": "%.1f"})
