@@ -16,6 +16,7 @@ from pathlib import Path
 import numpy as np
 import pandas as pd
 
+from scorecard.csv_cells import unescape, unescape_column
 from scorecard.errors import UserError
 from scorecard.suggest import did_you_mean
 
@@ -47,7 +48,8 @@ def _existing_file(path: str | Path, what: str, kind: str) -> Path:
 
 
 def read_csv(path: str | Path, what: str = "cohort") -> pd.DataFrame:
-    """Read a CSV as text cells (parsing happens per feature, so errors can name the cell)."""
+    """Read a CSV as text cells (parsing happens per feature, so errors can name the cell). Cells that
+    scorecard.csv_cells made inert for spreadsheets are read back as the text they hold."""
     p = _existing_file(path, what, "CSV")
     try:
         frame = pd.read_csv(p, dtype=str, keep_default_na=False, skipinitialspace=True)
@@ -55,7 +57,15 @@ def read_csv(path: str | Path, what: str = "cohort") -> pd.DataFrame:
         raise UserError(f"{p}: file is empty; expected a {what} CSV with a header row") from None
     except (pd.errors.ParserError, UnicodeDecodeError) as exc:
         raise UserError(f"{p}: not a readable CSV ({str(exc).splitlines()[0]}); save it as comma-separated UTF-8") from None
-    return _checked_header(frame, p, what)
+    return _checked_header(_unescaped(frame), p, what)
+
+
+def _unescaped(frame: pd.DataFrame) -> pd.DataFrame:
+    # a cell written with a protective apostrophe (scorecard.csv_cells: "'=SUM(1)") reads as the text it holds
+    for name in frame.columns:
+        frame[name] = unescape_column(frame[name])
+    frame.columns = [unescape(str(c)) for c in frame.columns]
+    return frame
 
 
 def _checked_header(frame: pd.DataFrame, p: Path, what: str) -> pd.DataFrame:
@@ -192,7 +202,7 @@ def iter_table(path: str | Path, chunk_rows: int = DEFAULT_CHUNK_ROWS, what: str
     try:
         reader = pd.read_csv(p, dtype=str, keep_default_na=False, skipinitialspace=True, chunksize=chunk_rows)
         for chunk in reader:
-            frame = _checked_header(chunk, p, what) if first == 0 else _renamed_like(chunk, p)
+            frame = _checked_header(_unescaped(chunk), p, what) if first == 0 else _renamed_like(_unescaped(chunk), p)
             frame.attrs["first_row"] = first
             first += len(frame)
             yield frame

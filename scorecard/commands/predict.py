@@ -6,6 +6,7 @@ import click
 import numpy as np
 
 from scorecard.commands._common import output_path, say
+from scorecard.csv_cells import frame_csv_text
 from scorecard.errors import UserError
 from scorecard.jsondoc import atomic_write_text
 from scorecard.model import contributions, load_model, logistic
@@ -54,5 +55,5 @@ def command(model_path: str, cohort_path: str, output: str, with_parts: bool, ke
         with TableWriter(out, protect=(model_path, cohort_path)) as writer:
             writer.write_frame(table)
     else:
-        atomic_write_text(out, table.to_csv(index=False, float_format="%.10g"))
+        atomic_write_text(out, frame_csv_text(table))
     say(f"wrote {len(table)} patients to {out}")

@@ -6,7 +6,8 @@ import click
 
 from scorecard.audit.matching import OVERRIDE_OPTION, model_matches_sheet
 from scorecard.audit.paper import score_cohort
-from scorecard.audit.table import csv_text, scored_columns, scored_table
+from scorecard.audit.table import scored_columns, scored_table
+from scorecard.csv_cells import csv_text
 from scorecard.commands._common import approved_by_option, output_path, require_approval, say
 from scorecard.errors import UserError
 from scorecard.jsondoc import atomic_write_text

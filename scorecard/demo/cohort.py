@@ -23,6 +23,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from scorecard.csv_cells import frame_csv_text
 from scorecard.demo import population as pop
 from scorecard.demo.truth import raw_logodds
 from scorecard.errors import UserError
@@ -137,8 +138,8 @@ def cohort_csv_text(frame: pd.DataFrame, header: bool = True) -> str:
     (header=False for a chunk after the first)."""
     out = frame.copy()
     out["albumin"] = out["albumin"].astype("Int64")
-    out["temperature"] = out["temperature"].map(lambda v: f"{v:.1f}")
-    return out.to_csv(index=False, lineterminator="\n", header=header)
+    text = frame_csv_text(out, formats={"temperature": "%.1f"})
+    return text if header else text.split("\n", 1)[1]
 
 
 def cohort_arrow_table(frame: pd.DataFrame):
