@@ -238,3 +238,23 @@ def test_any_text_in_a_parquet_text_column_reads_as_the_same_csv_cell(files, tmp
                         (tmp_path / "h-out.csv").read_bytes() if result.exit_code == 0 else None)
         (tmp_path / "h-out.csv").unlink(missing_ok=True)
     assert frames["csv"] == frames["parquet"]
+
+
+def test_a_streamed_predict_equals_the_one_chunk_run_on_many_small_chunks(files, tmp_path):
+    """--chunk-rows 7 (58 chunks of the 400 patients) writes the same bytes as one chunk, CSV and Parquet in,
+    and an error in a later chunk names the file's row."""
+    outputs = set()
+    for cohort in ("cohort.csv", "cohort.parquet"):
+        for rows in ("7", "100000"):
+            out = tmp_path / f"{cohort}-{rows}.csv"
+            result = run("predict", files / "model.json", files / cohort, "-o", out, "--keep", "age", "--contributions",
+                         "--chunk-rows", rows)
+            assert result.exit_code == 0, result.output
+            outputs.add(out.read_bytes())
+    assert len(outputs) == 1
+    wrong = pd.read_csv(files / "cohort.csv").astype({"temperature": str})
+    wrong.loc[250, "temperature"] = "warm"
+    wrong.to_parquet(tmp_path / "late.parquet", index=False)
+    one_line_error(run("predict", files / "model.json", tmp_path / "late.parquet", "-o", tmp_path / "x.csv", "--chunk-rows", "7"),
+                   "row 251", "'warm'")
+    assert not (tmp_path / "x.csv").exists()
