@@ -25,6 +25,7 @@ from scorecard.audit.paper import parse_cohort, score_cohort, sheet_logodds
 from scorecard.errors import UserError
 from scorecard.model import AdditiveModel, predict_logodds
 from scorecard.recalibrate.logistic import fit_logistic
+from scorecard.suggest import did_you_mean
 from scorecard.tabular import flag_column, source_of
 
 SLOPE_FAR_LOW = 0.5  # our choice: a slope under 1/2 means the points spread risk more than twice too widely
@@ -34,8 +35,8 @@ MIN_EACH_OUTCOME = 20  # events and non-events each (common practice: ~10-20 per
 
 def _known_outcome(frame: pd.DataFrame, column: str) -> np.ndarray:
     if column not in frame.columns:
-        raise UserError(f"{source_of(frame)}: outcome column {column!r} (from --outcome) is not in the file; name the column "
-                        "holding the unit's observed outcome (1/0, yes/no)")
+        raise UserError(f"{source_of(frame)}: outcome column {column!r} (from --outcome) is not in the file"
+                        f"{did_you_mean(column, list(frame.columns))}; name the column holding the unit's observed outcome (1/0, yes/no)")
     return flag_column(frame, column)
 
 

@@ -136,6 +136,7 @@ def test_the_new_sheet_keeps_rows_and_points_and_records_lineage(setting, tmp_pa
 
 @pytest.mark.parametrize("how, needle", [
     ("no_column", "not in the file"),
+    ("misspelt_column", "did you mean 'delirium'?"),
     ("few_events", "at least 20"),
     ("same_file", "also an input"),
 ])
@@ -148,7 +149,7 @@ def test_bad_inputs_are_one_line_and_exit_2(setting, tmp_path, how, needle):
     (tmp_path / "s.json").write_text(pretty_text(sheet))
     unit.to_csv(tmp_path / "unit.csv", index=False)
     out = tmp_path / ("unit.csv" if how == "same_file" else "local.json")
-    outcome = "outcome" if how == "no_column" else "delirium"
+    outcome = {"no_column": "outcome", "misspelt_column": "delirum"}.get(how, "delirium")
     r = CliRunner().invoke(main, ["recalibrate", str(tmp_path / "s.json"), "--data", str(tmp_path / "unit.csv"),
                                   "--outcome", outcome, "-o", str(out)])
     assert r.exit_code == 2, r.output
