@@ -162,11 +162,13 @@ def conversion_table_block(sheet: dict, styles: Styles, compact: bool = False, s
     title = Paragraph("Total points \u2192 risk", styles.section)
     table = ConversionTable(sheet, styles, spread=spread)
     table.tracked_as = "the conversion table"
-    parts: list[Flowable] = [title, Spacer(1, 3), table]
-    if prints_spread(sheet):  # what the range column means, or that it was left off to fit (after the table: a
-        # note above it made a table that just fits a page split into short pieces)
-        parts += [Spacer(1, 2), Paragraph(SPREAD_NOTE if table.spread else SPREAD_LEFT_OFF, styles.small)]
-    return [KeepTogether(parts), Spacer(1, styles.body_pt * (0.5 if compact else 1))]
+    out: list[Flowable] = [KeepTogether([title, Spacer(1, 3), table])]
+    if prints_spread(sheet):  # what the range column means, or that it was left off to fit: after the table and
+        # not kept with it (a note above it, or kept with it, pushed a table that just fits a page off its page)
+        note = Paragraph(SPREAD_NOTE if table.spread else SPREAD_LEFT_OFF, styles.small)
+        note.spaceBefore = 2
+        out.append(note)
+    return out + [Spacer(1, styles.body_pt * (0.5 if compact else 1))]
 
 
 def bands_block(sheet: dict, styles: Styles, width: float) -> list[Flowable]:

@@ -239,7 +239,9 @@ def _story(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: s
                 if _next_part(section, part) == "conversion_table":
                     # the total is read off in the table right after it: keep the box on the page the table
                     # starts on, so the reader never turns a page between adding up and reading the risk
-                    story[-1] = KeepTogether([story[-1]] + conversion_table_block(sheet, styles, layout.compact, layout.conversion_spread)[:1])
+                    block = conversion_table_block(sheet, styles, layout.compact, layout.conversion_spread)
+                    story[-1] = KeepTogether([story[-1], block[0]])
+                    story += block[1:]
                     skip_conversion = True
             elif part == "record":
                 story.append(record_block(sheet, styles, width))
