@@ -7,7 +7,8 @@ What each table must say comes from the sheet document alone:
   brackets), then one row per printed row: its text, then its points;
 - a pair grid: heading, a header row with the second item's rows, one row per row of the first item with a
   points cell per column, then the not-measured row with its points;
-- the conversion table: groups of Total | Risk | Band columns, read down then across, every total in order;
+- the conversion table: groups of Total | Risk | Range | Band columns, read down then across, every total in
+  order (Range when the sheet stores the spread per total; a layout that cannot hold it says it left it off);
 - the band table: per band its name, first and last total, and first and last risk;
 - the sheet's short fingerprint on every page, and no other fingerprint anywhere;
 - "Page x of y" on every page, x its place in the file and y the number of pages in the file.
@@ -24,7 +25,7 @@ from dataclasses import dataclass
 from scorecard.audit.pdf_tables import HEX12, PrintedPage, PrintedTable, Row, Word, read_pdf, reading_order
 from scorecard.errors import UserError
 from scorecard.sheet.approval import approval_line, signature_short
-from scorecard.sheet.printed import band_of, pair_missing_text, row_label
+from scorecard.sheet.printed import SPREAD_LEFT_OFF, band_of, pair_missing_text, prints_spread, row_label, spread_text
 
 MINUS_SIGNS = ("\u2212", "-", "\u2013")
 
@@ -213,11 +214,13 @@ class _Checker:
         block = "conversion table"
         bands = self.sheet.get("bands") or []
         entries: list[tuple[int, list[Word]]] = []
+        with_range: set[bool] = set()
         for page in self.pages:
             for table in sorted(page.tables, key=lambda t: (t.top, t.x0)):
                 for i, row in enumerate(table.rows):
                     heads = [" ".join(w.text for w in c) for c in row.cells()]
                     if _is_conversion_header(row):
+                        with_range |= {"Range" in h.split() for h in heads}
                         body = [r.cells() for r in table.rows[i + 1:]]
                         for g in range(len(heads)):  # read down, then across
                             entries += [(page.number, cells[g]) for cells in body if g < len(cells) and cells[g]]
@@ -225,6 +228,10 @@ class _Checker:
         if not entries:
             self.mismatches.append(Mismatch(None, block, "table", "(no conversion table found)", "Total | Risk table"))
             return
+        spread, read_range = prints_spread(self.sheet), True in with_range
+        if with_range != {spread} and not (spread and with_range == {False} and self._says_range_left_off()):
+            self.mismatches.append(Mismatch(None, block, "Range column", "printed" if read_range else "(missing)",
+                                            "printed" if spread else "(none: the sheet stores no spread)"))
         for k, row in enumerate(self.sheet["conversion"]):
             expected_band = bands[band_of(bands, row["risk"])]["name"] if bands else None
             name = f"total {row['total']}"
@@ -235,10 +242,17 @@ class _Checker:
             texts = [w.text for w in words]
             self.number(page, block, f"entry {k + 1} total", texts[0], row["total"])
             self.text(page, block, f"{name} risk", texts[1] if len(texts) > 1 else "(missing)", row["text"])
+            if read_range:
+                self.text(page, block, f"{name} range", texts[2] if len(texts) > 2 else "(missing)", spread_text(row))
             if expected_band is not None:
-                self.text(page, block, f"{name} band", " ".join(texts[2:]), expected_band)
+                self.text(page, block, f"{name} band", " ".join(texts[3 if read_range else 2:]), expected_band)
         for page, words in entries[len(self.sheet["conversion"]):]:
             self.mismatches.append(Mismatch(page, block, "extra entry", " ".join(w.text for w in words), "(no such total)"))
+
+    def _says_range_left_off(self) -> bool:
+        """Whether a page says the range column was left off to fit (SPREAD_LEFT_OFF)."""
+        wanted = " ".join(SPREAD_LEFT_OFF.split())
+        return any(wanted in " ".join(" ".join(page.passages()).split()) for page in self.pages)
 
     def band_table(self) -> None:
         bands = self.sheet.get("bands") or []
@@ -358,7 +372,7 @@ def _fixed(value: float, decimals: int) -> str:
 
 def _is_conversion_header(row: Row) -> bool:
     heads = [" ".join(w.text for w in c) for c in row.cells()]
-    return bool(heads) and all(h in ("Total Risk Band", "Total Risk") for h in heads)
+    return bool(heads) and all(h in ("Total Risk Band", "Total Risk", "Total Risk Range Band", "Total Risk Range") for h in heads)
 
 
 

@@ -14,10 +14,11 @@ from reportlab.platypus import Flowable, KeepTogether, Paragraph, Spacer, Table,
 from scorecard.pdf_plumbing import BOLD, REGULAR, text_width
 from scorecard.render.styles import Styles
 from scorecard.render.text import markup, total_text
-from scorecard.sheet.printed import band_of
+from scorecard.sheet.printed import SPREAD_LEFT_OFF, band_of, prints_spread, spread_text
 
 BAND_TINTS = [colors.white, colors.Color(0.9, 0.9, 0.9), colors.Color(0.8, 0.8, 0.8), colors.Color(0.7, 0.7, 0.7)]
 PAD = 2.0
+FIGURE_GAP = 2.0  # extra space before each right-aligned figure, so "37 99.6%" never runs together
 BAND_GAP = 8.0
 
 
@@ -37,16 +38,19 @@ def row_bands(sheet: dict) -> list[int | None]:
 
 
 class ConversionTable(Flowable):
-    """Total | Risk | Band, in as many side-by-side groups as the width allows, read down then across.
+    """Total | Risk | Range | Band, in as many side-by-side groups as the width allows, read down then across.
+    Range is the 10th-90th percentile of the exact model's risk among the patients with that total (printed
+    when the sheet stores it and `spread` is on; `spread_text`).
 
     When it does not fit the space left, it splits into two conversion tables (each read down then across),
     so reading order survives a page break.
     """
 
     def __init__(self, sheet: dict, styles: Styles, rows: list[dict] | None = None, bands: list | None = None,
-                 continued: bool = False):
+                 continued: bool = False, spread: bool = True):
         super().__init__()
         self.sheet, self.styles = sheet, styles
+        self.spread = spread and prints_spread(sheet)
         self.rows = sheet["conversion"] if rows is None else rows
         self.bands = row_bands(sheet) if bands is None else bands
         self.band_names = [b["name"] for b in sheet.get("bands") or []]
@@ -57,8 +61,10 @@ class ConversionTable(Flowable):
     def _column_widths(self) -> list[float]:
         s = self.styles.body_pt
         total_w = max(text_width("Total", s, bold=True), max(text_width(total_text(r["total"]), s, bold=True) for r in self.rows)) + 2 * PAD + 2
-        risk_w = max(text_width("Risk", s, bold=True), max(text_width(r["text"], s) for r in self.rows)) + 2 * PAD + 4
+        risk_w = max(text_width("Risk", s, bold=True), max(text_width(r["text"], s) for r in self.rows)) + 2 * PAD + 2 + FIGURE_GAP
         widths = [total_w, risk_w]
+        if self.spread:
+            widths.append(max(text_width("Range", s, bold=True), max(text_width(spread_text(r), s) for r in self.rows)) + 2 * PAD + 2 + FIGURE_GAP)
         if self.band_names:
             widths.append(max(text_width("Band", s, bold=True), max(text_width(n, s) for n in self.band_names)) + PAD + BAND_GAP + 2)
         return widths
@@ -77,6 +83,8 @@ class ConversionTable(Flowable):
         header = []
         for _ in range(groups):
             header += [Paragraph("<b>Total</b>", s.body_right), Paragraph("<b>Risk</b>", s.body_right)]
+            if self.spread:
+                header.append(Paragraph("<b>Range</b>", s.body_right))
             if self.band_names:
                 header.append(Paragraph("<b>Band</b>", s.body))
         data = [header]
@@ -88,10 +96,13 @@ class ConversionTable(Flowable):
             ("BOX", (0, 0), (-1, -1), 0.8, colors.black),
         ]
         k = len(widths)
-        for g in range(groups):  # the risk figure keeps clear of the rule or band name after it
-            commands.append(("RIGHTPADDING", (g * k + 1, 0), (g * k + 1, -1), PAD + 2))
+        last = k - 1 if self.band_names else k  # columns before the band name
+        for g in range(groups):  # the risk figures keep clear of the rule or band name after them
+            for c in range(1, last):  # and keep clear of the figure before them
+                commands.append(("RIGHTPADDING", (g * k + c, 0), (g * k + c, -1), PAD + 2))
+                commands.append(("LEFTPADDING", (g * k + c, 0), (g * k + c, -1), PAD + FIGURE_GAP))
             if self.band_names:
-                commands.append(("LEFTPADDING", (g * k + 2, 0), (g * k + 2, -1), BAND_GAP))
+                commands.append(("LEFTPADDING", (g * k + k - 1, 0), (g * k + k - 1, -1), BAND_GAP))
         for r in range(per):
             line = []
             for g in range(groups):
@@ -99,6 +110,8 @@ class ConversionTable(Flowable):
                 if i < n:
                     row = self.rows[i]
                     line += [Paragraph(f"<b>{total_text(row['total'])}</b>", s.body_right), Paragraph(markup(row["text"]), s.body_right)]
+                    if self.spread:
+                        line.append(Paragraph(markup(spread_text(row)), s.body_right))
                     if self.band_names:
                         band = self.bands[i]
                         line.append(Paragraph(markup(self.band_names[band]), s.body))
@@ -132,19 +145,30 @@ class ConversionTable(Flowable):
         first = per * self._groups
         if first >= len(self.rows):
             return [self]
-        return [ConversionTable(self.sheet, self.styles, self.rows[:first], self.bands[:first], self.continued),
-                ConversionTable(self.sheet, self.styles, self.rows[first:], self.bands[first:], continued=True)]
+        return [ConversionTable(self.sheet, self.styles, self.rows[:first], self.bands[:first], self.continued, self.spread),
+                ConversionTable(self.sheet, self.styles, self.rows[first:], self.bands[first:], continued=True, spread=self.spread)]
 
     def draw(self):
         self._table.drawOn(self.canv, 0, 0)
 
 
-def conversion_table_block(sheet: dict, styles: Styles, compact: bool = False) -> list[Flowable]:
+SPREAD_NOTE = ("<b>Range:</b> patients with the same total differ: 8 in 10 of those with this total had an exact-model "
+               "risk in this range (10th to 90th percentile, among the patients the sheet was made and checked on); "
+               "\u2013 where fewer than 10 had the total. Act on the risk; the range says how far one patient may be from it.")
+
+
+def conversion_table_block(sheet: dict, styles: Styles, compact: bool = False, spread: bool = True) -> list[Flowable]:
     # the outcome, horizon and population are in the header of this very page
     title = Paragraph("Total points \u2192 risk", styles.section)
-    table = ConversionTable(sheet, styles)
+    table = ConversionTable(sheet, styles, spread=spread)
     table.tracked_as = "the conversion table"
-    return [KeepTogether([title, Spacer(1, 3), table]), Spacer(1, styles.body_pt * (0.5 if compact else 1))]
+    out: list[Flowable] = [KeepTogether([title, Spacer(1, 3), table])]
+    if prints_spread(sheet):  # what the range column means, or that it was left off to fit: after the table and
+        # not kept with it (a note above it, or kept with it, pushed a table that just fits a page off its page)
+        note = Paragraph(SPREAD_NOTE if table.spread else SPREAD_LEFT_OFF, styles.small)
+        note.spaceBefore = 2
+        out.append(note)
+    return out + [Spacer(1, styles.body_pt * (0.5 if compact else 1))]
 
 
 def bands_block(sheet: dict, styles: Styles, width: float) -> list[Flowable]:

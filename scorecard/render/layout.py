@@ -78,6 +78,7 @@ class PageLayout:
     title_pt: float
     sections: tuple[Section, ...] = field(default_factory=tuple)
     compact: bool = False  # run the scoring steps and the cautions together as paragraphs (small cards)
+    conversion_spread: bool = True  # print the range column of the conversion table (off only to fit a page limit)
 
     @property
     def parts(self) -> list[str]:

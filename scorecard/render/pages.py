@@ -32,7 +32,7 @@ from scorecard.render.tables import (
 )
 from scorecard.render.text import markup, sheet_has_negative_points
 from scorecard.sheet.approval import approval_line
-from scorecard.sheet.printed import MEASURE_FIRST_RULE, number_text, units
+from scorecard.sheet.printed import MEASURE_FIRST_RULE, number_text, prints_spread, units
 
 
 class _SectionStart(Flowable):
@@ -239,7 +239,9 @@ def _story(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: s
                 if _next_part(section, part) == "conversion_table":
                     # the total is read off in the table right after it: keep the box on the page the table
                     # starts on, so the reader never turns a page between adding up and reading the risk
-                    story[-1] = KeepTogether([story[-1]] + conversion_table_block(sheet, styles, layout.compact)[:1])
+                    block = conversion_table_block(sheet, styles, layout.compact, layout.conversion_spread)
+                    story[-1] = KeepTogether([story[-1], block[0]])
+                    story += block[1:]
                     skip_conversion = True
             elif part == "record":
                 story.append(record_block(sheet, styles, width))
@@ -249,7 +251,7 @@ def _story(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: s
                 if skip_conversion:
                     skip_conversion = False
                     continue
-                story += conversion_table_block(sheet, styles, layout.compact)
+                story += conversion_table_block(sheet, styles, layout.compact, layout.conversion_spread)
             elif part == "conversion_curve":
                 story += conversion_curve_block(sheet, styles)
             elif part == "bands":
@@ -312,7 +314,14 @@ def render_pdf(sheet: dict, layout: PageLayout, short_fingerprint: str) -> bytes
         data2, placement2 = _render_sides(sheet, moved, styles, short_fingerprint)
         if placement2.pages <= placement.pages and _cautions_moved_on(moved, placement2) is None:
             layout, data, placement = moved, data2, placement2
-    _check_limits(layout, placement)
+    try:
+        _check_limits(layout, placement)
+    except UserError:
+        if not (layout.conversion_spread and prints_spread(sheet)):
+            raise
+        # a layout with page limits (the pocket card) that the range column overfills: the conversion is
+        # printed without it, and says so, rather than refusing the sheet
+        return render_pdf(sheet, replace(layout, conversion_spread=False), short_fingerprint)
     return data
 
 

@@ -219,6 +219,11 @@ def _check_structure(doc: dict) -> str | None:
             return f"conversion[{i}].risk: {c['risk']} is not logistic(offset + logodds_per_point * {c['total']}) = {exact:.6g}"
         if c["text"] != risk_text(c["risk"]):
             return f"conversion[{i}].text: {c['text']!r} must print {risk_text(c['risk'])!r}"
+        spread = c.get("spread")
+        if spread is not None and (spread["low"] is None) != (spread["high"] is None):
+            return f"conversion[{i}].spread: low and high are both numbers or both null (the range is printed as low to high)"
+        if spread is not None and spread["low"] is not None and spread["low"] > spread["high"]:
+            return f"conversion[{i}].spread: low {spread['low']} is above high {spread['high']}; quantize the model again"
     bands = doc["bands"]
     if bands:
         uppers = [bd["upper_risk"] for bd in bands]

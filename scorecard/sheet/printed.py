@@ -226,6 +226,26 @@ def risk_text_rounding(risk: float) -> float:
     return 0.0005 if (pct < 9.95 or pct >= 99.5) else 0.005
 
 
+NO_SPREAD_TEXT = "\u2013"  # the range cell of a total too few patients had
+SPREAD_LEFT_OFF = ("The range of risk among patients with each total is left off this card to fit it; "
+                   "the full-page sheet prints it.")  # printed (render) and looked for (verify) where a layout drops it
+
+
+def prints_spread(sheet: dict) -> bool:
+    """Whether the conversion table prints the range column: some total has a stored 10th-90th percentile
+    spread (sheets made before it, and recalibrated sheets, whose model risk is another one, have none)."""
+    return any((c.get("spread") or {}).get("low") is not None for c in sheet["conversion"])
+
+
+def spread_text(entry: dict) -> str:
+    """The range cell of one conversion entry: '4.3\u20138.3%' (the 10th to 90th percentile of the exact
+    model's risk among the patients with this total, each end printed by `risk_text`), or NO_SPREAD_TEXT."""
+    spread = entry.get("spread") or {}
+    if spread.get("low") is None or spread.get("high") is None:
+        return NO_SPREAD_TEXT
+    return f"{risk_text(spread['low']).removesuffix('%')}\u2013{risk_text(spread['high'])}"
+
+
 def band_indices(bands: list[dict], risks) -> np.ndarray:
     """Index of the risk band of each risk: previous upper_risk <= risk < upper_risk; the last band is open
     (null). The one band rule of quantize, render and the audit (docs/sheet-document.md)."""

@@ -88,8 +88,10 @@ def compact_model_dict() -> dict:
     return doc
 
 
-def sheet_dict(model: dict | None = None, bands: bool = True, lpp: float = LPP) -> dict:
-    """The sheet built by hand from `model_dict()` (pass an edited model to get a sheet for it)."""
+def sheet_dict(model: dict | None = None, bands: bool = True, lpp: float = LPP, spread: bool = False) -> dict:
+    """The sheet built by hand from `model_dict()` (pass an edited model to get a sheet for it). With `spread`,
+    each total carries a made-up 10th-90th percentile range of model risk (-0.4 / +0.3 log-odds around it;
+    the two highest totals with too few patients for one), as quantize stores it."""
     LPP = lpp  # noqa: N806 - the scale of this sheet
     model = copy.deepcopy(model or model_dict())
     feats = {f["name"]: f for f in model["features"]}
@@ -138,6 +140,11 @@ def sheet_dict(model: dict | None = None, bands: bool = True, lpp: float = LPP) 
     for total in range(lo_total, hi_total + 1):
         r = logistic(offset + LPP * total)
         conversion.append({"total": total, "risk": r, "text": risk_text(r)})
+        if spread:
+            few = total > hi_total - 2
+            conversion[-1]["spread"] = {"patients": 4 if few else 40 + total,
+                                        "low": None if few else logistic(offset + LPP * total - 0.4),
+                                        "high": None if few else logistic(offset + LPP * total + 0.3)}
     max_err = sum(per_term.values())
     by_total = []
     for c in conversion:

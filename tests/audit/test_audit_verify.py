@@ -37,7 +37,7 @@ def pdf_pages(data: bytes, tmp_path, name="x.pdf"):
 
 @pytest.fixture(scope="module")
 def compact():
-    return sheet_dict(compact_model_dict(), lpp=0.5)
+    return sheet_dict(compact_model_dict(), lpp=0.5, spread=True)
 
 
 @pytest.mark.parametrize("layout", sorted(shipped_layouts()))
@@ -75,6 +75,12 @@ def _bump_text(sheet: dict, path: tuple) -> None:
     node[path[-1]] = bump(node[path[-1]])
 
 
+def _scale_spread(sheet: dict, k: int, end: str, factor: float) -> None:
+    """One end of a printed range moved towards 0 (so low stays below high)."""
+    spread = sheet["conversion"][k]["spread"]
+    spread[end] = spread[end] * factor if end == "low" else spread["low"] + (spread["high"] - spread["low"]) * factor
+
+
 def numeric_cells(sheet: dict) -> dict[str, list[tuple[str, str, object]]]:
     """Every printed cell of the sheet document that holds a number, grouped by the table printing it:
     {group: [(block, where the mismatch must be reported, function altering the cell)]}."""
@@ -105,6 +111,11 @@ def numeric_cells(sheet: dict) -> dict[str, list[tuple[str, str, object]]]:
             ("conversion table", f"entry {k + 1} total", lambda s, p=("conversion", k, "total"), d=step: _add(s, p, d)))
         groups.setdefault("conversion risks", []).append(
             ("conversion table", f"total {entry['total']} risk", lambda s, p=("conversion", k, "text"): _bump_text(s, p)))
+        if (entry.get("spread") or {}).get("low") is not None:  # the range column: both ends
+            groups.setdefault("conversion range lows", []).append(
+                ("conversion table", f"total {entry['total']} range", lambda s, k=k: _scale_spread(s, k, "low", 0.5)))
+            groups.setdefault("conversion range highs", []).append(
+                ("conversion table", f"total {entry['total']} range", lambda s, k=k: _scale_spread(s, k, "high", 0.6)))
     return groups
 
 
@@ -247,3 +258,21 @@ def test_numbers_in_the_running_text_are_caught(compact, tmp_path, needle):
             assert any(m.page == page_index + 1 for m in result.mismatches), (needle, page_index)
             edits += 1
     assert edits >= 1
+
+
+@pytest.mark.parametrize("lpp, printed", [(0.2, True), (0.15, False)])
+def test_pocket_card_prints_the_range_where_it_fits_and_says_so_where_not(lpp, printed, tmp_path):
+    """The pocket card (one back side) prints the range column when the conversion fits with it (28 totals);
+    with 36 totals only the table without it fits: the card then says the range is left off, and the read-back
+    accepts that table (the fresh render, made the same way, is identical)."""
+    from scorecard.commands.verify import verify_printed
+    from scorecard.sheet.printed import SPREAD_LEFT_OFF
+
+    sheet = sheet_dict(lpp=lpp, spread=True)
+    data = render_pdf(sheet, load_layout("pocket-card"), short_fingerprint(sheet))
+    pages = pdf_pages(data, tmp_path)
+    text = " ".join(" ".join(p.passages()) for p in pages)
+    assert ("Range" in [w.text for p in pages for w in p.words]) == printed
+    assert (" ".join(SPREAD_LEFT_OFF.split()) in " ".join(text.split())) == (not printed)
+    mismatches, summary = verify_printed(sheet, data, "card.pdf")
+    assert mismatches == [] and "identical bytes" in summary, [m.line() for m in mismatches]

@@ -268,3 +268,63 @@ def _renamed(layout, name):
     import dataclasses
 
     return dataclasses.replace(layout, name=name)
+
+
+# -- the range column of the conversion table (10th-90th percentile of model risk per total) ------------------
+
+
+@pytest.fixture(scope="module")
+def spread_sheet():
+    return sheet_dict(compact_model_dict(), lpp=0.5, spread=True)
+
+
+@pytest.fixture(scope="module")
+def spread_clean(spread_sheet):
+    return render_pdf(spread_sheet, load_layout(LAYOUT), short_fingerprint(spread_sheet))
+
+
+def operands_of(ops, i):
+    return ops[i][0][0]
+
+
+def test_an_edited_range_cell_is_caught_in_its_row(spread_sheet, spread_clean):
+    from scorecard.sheet.printed import spread_text
+
+    assert verify_printed(spread_sheet, spread_clean, "sheet.pdf")[0] == []
+    entry = spread_sheet["conversion"][3]
+    printed = spread_text(entry)
+    page = next(i for i, p in enumerate(PdfReader(io.BytesIO(spread_clean)).pages) if printed in p.extract_text())
+    low, high = printed.split("\u2013")
+    other = "0.1\u2013" + high  # another low end, same look otherwise
+
+    def change(ops):
+        # the dash is drawn from the font subset's own code, so the cell is found by its two ends
+        i = next(i for i, (operands, op) in enumerate(ops) if op == b"Tj" and str(operands[0]).startswith(low)
+                 and str(operands[0]).endswith(high))
+        text = str(operands_of(ops, i))
+        ops[i] = ([TextStringObject("0.1" + text[len(low):])], b"Tj")
+
+    mismatches, _ = verify_printed(spread_sheet, edit_page(spread_clean, page, change), "t.pdf")
+    rows = [m for m in mismatches if m.block == "conversion table"]
+    assert any(m.row == f"total {entry['total']} range" and m.printed == other for m in rows), [m.line() for m in mismatches]
+    assert any(m.block == "picture" for m in mismatches)
+
+
+def test_a_print_without_the_range_column_is_caught(spread_sheet, tmp_path):
+    from dataclasses import replace
+
+    from scorecard.audit.readback import verify_pages
+
+    # rendered as if the layout had no room for it: the page says so, so the read-back accepts the table, but the
+    # fresh render of ward-a4 has the column: the print is not the sheet's
+    dropped = render_pdf(spread_sheet, replace(load_layout(LAYOUT), conversion_spread=False), short_fingerprint(spread_sheet))
+    assert verify_pages(spread_sheet, read_pdf_bytes(dropped)).mismatches == []
+    assert "picture" in blocks(spread_sheet, dropped) or "text layer" in blocks(spread_sheet, dropped)
+    # a sheet document without the spread, printed: the read-back itself names the column (both ways round)
+    bare = {k: v for k, v in spread_sheet.items()}
+    bare["conversion"] = [{k: v for k, v in c.items() if k != "spread"} for c in spread_sheet["conversion"]]
+    plain = render_pdf(bare, load_layout(LAYOUT), short_fingerprint(spread_sheet))
+    found = verify_pages(spread_sheet, read_pdf_bytes(plain)).mismatches
+    assert any(m.row == "Range column" and m.printed == "(missing)" for m in found), [m.line() for m in found]
+    found = verify_pages(bare, read_pdf_bytes(render_pdf(spread_sheet, load_layout(LAYOUT), short_fingerprint(spread_sheet)))).mismatches
+    assert any(m.row == "Range column" and m.printed == "printed" for m in found), [m.line() for m in found]

@@ -112,6 +112,7 @@ def _spread_matches_numpy_percentiles(doc, cohort, model):
     p = 1 / (1 + np.exp(-lo))
     totals = np.array([sheet_total(doc, {k: (np.nan if v is None else float(v) if k != "residence" else v) for k, v in row.items()})
                        for row in frame.to_dict("records")])
+    printed = _printed_ranges(doc)
     checked = 0
     for c in doc["conversion"]:
         sel = totals == c["total"]
@@ -119,10 +120,57 @@ def _spread_matches_numpy_percentiles(doc, cohort, model):
         if sel.sum() >= 10:
             low, high = np.percentile(p[sel], [10, 90])
             assert c["spread"]["low"] == pytest.approx(low, abs=1e-9) and c["spread"]["high"] == pytest.approx(high, abs=1e-9)
+            # and on paper: the range cell beside this total reads numpy's percentiles at the printed precision
+            # (one decimal below 10 %, whole percent above: the sheet's risk rule); a percentile within 1e-6
+            # of a rounding boundary may print either way
+            lo_ok = {_pct(low - 1e-6), _pct(low + 1e-6)}
+            hi_ok = {_pct(high - 1e-6), _pct(high + 1e-6)}
+            lo_text, hi_text = printed[c["total"]].split("\u2013")
+            assert lo_text + "%" in lo_ok and hi_text in hi_ok, (c["total"], printed[c["total"]], low, high)
             checked += 1
         else:
-            assert c["spread"]["low"] is None
+            assert c["spread"]["low"] is None and printed[c["total"]] == "\u2013"
     assert checked >= 5
+
+
+def _pct(risk: float) -> str:
+    """A risk as the sheet prints it, written here from docs/sheet-document.md: one decimal place below 10 %,
+    whole percent from 10 %, rounded half up."""
+    from decimal import ROUND_HALF_UP, Decimal
+
+    risk = float(risk)
+    one = (Decimal(repr(risk)) * 100).quantize(Decimal("0.1"), rounding=ROUND_HALF_UP)
+    if one < 10:
+        return f"{one}%"
+    return f"{(Decimal(repr(risk)) * 100).quantize(Decimal('1'), rounding=ROUND_HALF_UP)}%"
+
+
+def _printed_ranges(doc) -> dict[int, str]:
+    """{total: the range cell printed beside it} read from the ward-a4 PDF with pdfplumber: each conversion
+    row's words, grouped under the Total | Risk | Range headings."""
+    import io
+
+    import pdfplumber
+
+    from scorecard.render import load_layout, render_pdf
+    from scorecard.sheet import sheet_fingerprint, short_fingerprint
+
+    sheet = {**doc, "fingerprint": doc.get("fingerprint") or sheet_fingerprint(doc)}
+    data = render_pdf(sheet, load_layout("ward-a4"), short_fingerprint(sheet))
+    out: dict[int, str] = {}
+    with pdfplumber.open(io.BytesIO(data)) as pdf:
+        for page in pdf.pages:
+            words = page.extract_words()
+            heads = [w for w in words if w["text"] == "Range"]
+            for head in heads:  # one Range heading per group of columns
+                totals = [w for w in words if w["top"] > head["top"] + 2 and w["x1"] < head["x0"] - 40
+                          and w["x1"] > head["x0"] - 140 and w["text"].lstrip("-\u2212").isdigit()]
+                for t in totals:
+                    cell = [w for w in words if abs(w["top"] - t["top"]) < 2 and head["x0"] - 25 < w["x1"] <= head["x1"] + 2]
+                    if cell:
+                        out.setdefault(int(t["text"]), cell[-1]["text"])
+    assert set(out) == {c["total"] for c in doc["conversion"]}, sorted(out)
+    return out
 
 
 def test_infeasible_bound_exits_3_with_best_figures(model_file, tmp_path):
