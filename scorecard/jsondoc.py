@@ -16,6 +16,7 @@ import json
 import math
 import os
 import re
+import sys
 import tempfile
 from decimal import ROUND_DOWN, Decimal
 from functools import lru_cache
@@ -26,6 +27,7 @@ from typing import Any
 import jsonschema
 
 from scorecard.errors import UserError
+from scorecard.outputs import check_target, is_stdout
 
 
 # 11 significant digits (docs/model-document.md "Canonical numbers"): measured on the demo's true model,
@@ -94,12 +96,20 @@ def pretty_text(document: dict) -> str:
     return json.dumps(normalise(document), sort_keys=True, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
 
 
-def atomic_write_bytes(path: str | os.PathLike, data: bytes, protect: tuple[str | os.PathLike, ...] = ()) -> None:
+def atomic_write_bytes(path: str | os.PathLike, data: bytes, protect: tuple[str | os.PathLike, ...] = (),
+                       text: bool = False) -> None:
     """Write to a temporary file beside `path`, then rename, so a reader never sees half a file.
 
-    `protect` lists input files this output must not overwrite (DESIGN: never silently overwrite an input).
+    The target follows scorecard.outputs (a regular file or a new path; `-` is standard output when the
+    output is `text`). `protect` lists input files this output must not overwrite (never silently overwrite
+    an input).
     """
-    target = Path(path)
+    target = check_target(path, text=text)
+    if is_stdout(target):
+        sys.stdout.flush()
+        sys.stdout.buffer.write(data)
+        sys.stdout.buffer.flush()
+        return
     for other in protect:
         try:
             if target.exists() and Path(other).exists() and target.resolve() == Path(other).resolve():
@@ -107,9 +117,10 @@ def atomic_write_bytes(path: str | os.PathLike, data: bytes, protect: tuple[str 
         except OSError:
             pass
     directory = target.parent if str(target.parent) else Path(".")
-    if not directory.is_dir():
-        raise UserError(f"{target}: folder {directory} does not exist; create it or choose another -o path")
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=directory)
+    try:
+        fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=directory)
+    except OSError as exc:
+        raise UserError(f"{target}: cannot write in folder {directory} ({exc.strerror or exc}); choose another folder") from None
     try:
         # mkstemp makes the file private (0600); give it the permissions a plain open() would
         os.chmod(tmp, 0o666 & ~_current_umask())
@@ -131,7 +142,7 @@ def _current_umask() -> int:
 
 
 def atomic_write_text(path: str | os.PathLike, text: str, protect: tuple[str | os.PathLike, ...] = ()) -> None:
-    atomic_write_bytes(path, text.encode("utf-8"), protect=protect)
+    atomic_write_bytes(path, text.encode("utf-8"), protect=protect, text=True)
 
 
 def read_input_bytes(path: str | os.PathLike, what: str) -> bytes:
