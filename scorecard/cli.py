@@ -11,6 +11,7 @@ import click
 
 from scorecard import __version__
 from scorecard.errors import CheckFailed, UserError
+from scorecard.outputs import force_overwrite
 from scorecard.suggest import did_you_mean
 
 # other spellings a user may type: British "quantise" (the help speaks of quantising) for `quantize`
@@ -19,6 +20,21 @@ ALIASES = {"quantise": "quantize"}
 # the order a newcomer meets the verbs in `scorecard --help`: along the pipeline
 PIPELINE_ORDER = ["demo", "fit", "import", "predict", "review", "edit", "explain", "quantize", "keygen", "approve", "render", "score", "check", "verify",
                   "compare", "recalibrate", "exercise", "mark", "export"]
+
+
+def _set_force(ctx: click.Context, param: click.Parameter, value: bool) -> bool:
+    force_overwrite.set(bool(value))
+    return value
+
+
+def _with_force(command: click.Command) -> click.Command:
+    """Every verb that writes files takes --force: replace an output file that is read-only (scorecard.outputs
+    refuses it otherwise). Added here so the option and its wording have one home."""
+    writes = any("-o" in getattr(p, "opts", ()) for p in command.params)
+    if writes and not any(p.name == "force" for p in command.params):
+        command.params.append(click.Option(["--force"], is_flag=True, expose_value=False, callback=_set_force,
+                                           help="Replace an output file even if it is read-only."))
+    return command
 
 
 class PipelineGroup(click.Group):
@@ -38,7 +54,7 @@ class PipelineGroup(click.Group):
         name = ALIASES.get(name, name)
         for module_name in self._modules():
             if module_name.replace("_", "-").removesuffix("-cmd") == name:
-                return importlib.import_module(f"scorecard.commands.{module_name}").command
+                return _with_force(importlib.import_module(f"scorecard.commands.{module_name}").command)
         return None
 
     def resolve_command(self, ctx: click.Context, args: list[str]):

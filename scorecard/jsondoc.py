@@ -17,6 +17,7 @@ import json
 import math
 import os
 import re
+import sys
 import tempfile
 from decimal import ROUND_DOWN, Decimal
 from functools import lru_cache
@@ -27,6 +28,7 @@ from typing import Any
 import jsonschema
 
 from scorecard.errors import UserError
+from scorecard.outputs import check_target, is_stdout
 
 
 # 11 significant digits (docs/model-document.md "Canonical numbers"): measured on the demo's true model,
@@ -95,21 +97,38 @@ def pretty_text(document: dict) -> str:
     return json.dumps(normalise(document), sort_keys=True, indent=2, ensure_ascii=False, allow_nan=False) + "\n"
 
 
-def atomic_write_bytes(path: str | os.PathLike, data: bytes, protect: tuple[str | os.PathLike, ...] = ()) -> None:
+def atomic_write_bytes(path: str | os.PathLike, data: bytes, protect: tuple[str | os.PathLike, ...] = (),
+                       text: bool = False) -> None:
     """Write to a temporary file beside `path`, then rename, so a reader never sees half a file.
 
-    `protect` lists input files this output must not overwrite (DESIGN: never silently overwrite an input).
+    The target follows scorecard.outputs (a regular file or a new path; `-` is standard output when the
+    output is `text`). `protect` lists input files this output must not overwrite (never silently overwrite
+    an input).
     """
-    with atomic_output(path, protect) as tmp:
+    with atomic_output(path, protect, text=text) as tmp:
         with open(tmp, "wb") as handle:
             handle.write(data)
 
 
 @contextlib.contextmanager
-def atomic_output(path: str | os.PathLike, protect: tuple[str | os.PathLike, ...] = ()):
+def atomic_output(path: str | os.PathLike, protect: tuple[str | os.PathLike, ...] = (), text: bool = False):
     """A temporary path beside `path` to write into (in pieces, by any writer); renamed to `path` when the
-    block ends, removed if it raises: a streamed output is whole or absent. `protect` as in atomic_write_bytes."""
-    target = Path(path)
+    block ends, removed if it raises: a streamed output is whole or absent. `protect` and `text` as in
+    atomic_write_bytes; for `-` the finished file goes to standard output."""
+    target = check_target(path, text=text)
+    if is_stdout(target):
+        fd, tmp = tempfile.mkstemp(prefix=".scorecard-stdout.", suffix=".tmp")
+        os.close(fd)
+        try:
+            yield Path(tmp)
+            sys.stdout.flush()
+            with open(tmp, "rb") as handle:
+                while block := handle.read(1 << 20):
+                    sys.stdout.buffer.write(block)
+            sys.stdout.buffer.flush()
+        finally:
+            os.unlink(tmp)
+        return
     for other in protect:
         try:
             if target.exists() and Path(other).exists() and target.resolve() == Path(other).resolve():
@@ -117,9 +136,10 @@ def atomic_output(path: str | os.PathLike, protect: tuple[str | os.PathLike, ...
         except OSError:
             pass
     directory = target.parent if str(target.parent) else Path(".")
-    if not directory.is_dir():
-        raise UserError(f"{target}: folder {directory} does not exist; create it or choose another -o path")
-    fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=directory)
+    try:
+        fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=directory)
+    except OSError as exc:
+        raise UserError(f"{target}: cannot write in folder {directory} ({exc.strerror or exc}); choose another folder") from None
     try:
         # mkstemp makes the file private (0600); give it the permissions a plain open() would
         os.chmod(tmp, 0o666 & ~_current_umask())
@@ -141,7 +161,7 @@ def _current_umask() -> int:
 
 
 def atomic_write_text(path: str | os.PathLike, text: str, protect: tuple[str | os.PathLike, ...] = ()) -> None:
-    atomic_write_bytes(path, text.encode("utf-8"), protect=protect)
+    atomic_write_bytes(path, text.encode("utf-8"), protect=protect, text=True)
 
 
 def read_input_bytes(path: str | os.PathLike, what: str) -> bytes:

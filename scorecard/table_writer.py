@@ -22,7 +22,7 @@ class TableWriter:
     def __init__(self, path: str | os.PathLike, protect: tuple[str | os.PathLike, ...] = ()):
         self.path = path
         self.parquet = is_parquet(path)
-        self._context = atomic_output(path, protect)
+        self._context = atomic_output(path, protect, text=not self.parquet)  # CSV may go to standard output
         self._writer = None
         self._handle = None
         self._schema = None

@@ -7,22 +7,22 @@ from pathlib import Path
 import click
 
 from scorecard.errors import UserError
+from scorecard.outputs import check_preview_folder, check_target, is_stdout
 
 
-def output_path(path: str, *inputs: str, option: str = "-o") -> Path:
-    """Refuse an output that would overwrite one of the inputs (DESIGN: never silently overwrite an input).
+def output_path(path: str, *inputs: str, option: str = "-o", binary: bool = False) -> Path:
+    """Check an output before any work: never one of the inputs (never silently overwrite an input), and the
+    rules of scorecard.outputs (a regular file or a new path in a writable folder; `-` is standard output
+    unless the output is `binary`, a PDF or an image).
 
     `option` is the option the user typed for this output (e.g. --json), so the message names it."""
+    if is_stdout(path):
+        return check_target(path, option, text=not binary)
     out = Path(path)
     for given in inputs:
         if given and Path(given).exists() and out.exists() and out.resolve() == Path(given).resolve():
             raise UserError(f"{out}: is also an input of this command; choose another path with {option}")
-    if out.is_dir():
-        raise UserError(f"{out}: is a folder; give a file name with {option}")
-    parent = out.parent if str(out.parent) else Path(".")
-    if not parent.is_dir():
-        raise UserError(f"{out}: folder {parent} does not exist; create it or choose another {option} path")
-    return out
+    return check_target(out, option, text=not binary)
 
 
 def say(message: str) -> None:
@@ -31,13 +31,9 @@ def say(message: str) -> None:
 
 
 def preview_folder(path: str | None) -> Path | None:
-    """Check --preview before any work, so a file given as the folder stops the command before the PDF is written."""
-    if not path:
-        return None
-    folder = Path(path)
-    if folder.exists() and not folder.is_dir():
-        raise UserError(f"--preview {folder}: is a file; give a folder for the page previews (it is created if absent)")
-    return folder
+    """Check --preview before any work (scorecard.outputs), so a file given as the folder, or a folder that
+    cannot be written, stops the command before the PDF is written."""
+    return check_preview_folder(path) if path else None
 
 
 class BadValue(ValueError):

@@ -73,7 +73,7 @@ def command(sheet_path, model_path, cohort_path, output, json_path, outcome, rep
       scorecard check demo_output/sheet.json --model demo_output/edited.model.json --data demo_output/audit-cohort.csv \\
           -o check-report.pdf --json check-report.json
     """
-    out = output_path(output, sheet_path, model_path, cohort_path)
+    out = output_path(output, sheet_path, model_path, cohort_path, binary=True)
     json_out = output_path(json_path, sheet_path, model_path, cohort_path, option="--json") if json_path else None
     if json_out is not None and json_out.resolve() == out.resolve():
         raise UserError(f"{json_path}: --json and -o name the same file; choose two paths")

@@ -57,7 +57,7 @@ def command(old_path: str, new_path: str, cohort_path: str | None, output: str |
     if not output and not json_path:
         raise UserError("compare: give -o CHANGES.pdf and/or --json CHANGES.json for the comparison")
     inputs = (old_path, new_path) + ((cohort_path,) if cohort_path else ())
-    out = output_path(output, *inputs) if output else None
+    out = output_path(output, *inputs, binary=True) if output else None
     json_out = output_path(json_path, *inputs, option="--json") if json_path else None
     if out is not None and json_out is not None and out.resolve() == json_out.resolve():
         raise UserError(f"{json_path}: --json and -o name the same file; choose two paths")

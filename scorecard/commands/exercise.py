@@ -37,7 +37,7 @@ def command(sheet_path, count, output, key_path, template_path, seed) -> None:
     Example:
       scorecard exercise demo_output/sheet.json -n 20 -o exercise.pdf --key key.csv --template answers.csv --seed 1
     """
-    outs = [output_path(output, sheet_path), output_path(key_path, sheet_path, option="--key")]
+    outs = [output_path(output, sheet_path, binary=True), output_path(key_path, sheet_path, option="--key")]
     if template_path:
         outs.append(output_path(template_path, sheet_path, option="--template"))
     if len({p.resolve() for p in outs}) < len(outs):

@@ -32,6 +32,6 @@ def command(sheet_path: str, fmt: str, output: str) -> None:
     """
     out = output_path(output, sheet_path)
     sheet = load_sheet(sheet_path)
-    atomic_write_bytes(out, FORMATS[fmt](sheet), protect=(sheet_path,))
+    atomic_write_bytes(out, FORMATS[fmt](sheet), protect=(sheet_path,), text=True)  # PMML is XML text
     say(f"wrote {out} ({fmt.upper()}, sheet fingerprint {short_fingerprint(sheet)}); score a few patients with it and compare "
         "with `scorecard score` before another system relies on it")

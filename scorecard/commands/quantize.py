@@ -281,7 +281,7 @@ def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_shar
     shown, data, conversions = display_model(model, data, display_units, molar_masses)
     protect = (model_path, data_path) if data_path else (model_path,)
     near = output_path(nearest_path, *protect, option="--write-nearest") if nearest_path else None
-    png = output_path(frontier_png, *protect, option="--frontier-plot") if frontier_png else None
+    png = output_path(frontier_png, *protect, option="--frontier-plot", binary=True) if frontier_png else None
     options = dict(data=data, bands=band_list, allow_negative=allow_negative, merge_equal_levels=merge_equal_levels,
                    bootstrap=bootstrap, title=title)
     try:

@@ -40,7 +40,7 @@ def command(sheet_path: str, layout_name: str, output: str, preview_dir: str | N
       scorecard render demo_output/sheet.json -o sheet.pdf --preview sheet-previews
       scorecard render demo_output/sheet.json --layout pocket-card -o card.pdf
     """
-    out = output_path(output, sheet_path)
+    out = output_path(output, sheet_path, binary=True)
     preview_folder(preview_dir)
     if not out.name.lower().endswith(".pdf"):
         raise UserError(f"{out}: the output must be a .pdf file; give -o NAME.pdf")

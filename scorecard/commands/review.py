@@ -41,7 +41,7 @@ def command(model_path: str, cohort_path: str | None, output: str, preview_dir: 
     Example:
       scorecard review demo_output/fitted.model.json --data demo_output/cohort.csv -o review.pdf --preview review-previews
     """
-    out = output_path(output, model_path, cohort_path or "")
+    out = output_path(output, model_path, cohort_path or "", binary=True)
     previews = preview_folder(preview_dir)
     model = load_model(model_path)
     cohort = read_table(cohort_path) if cohort_path else None
