@@ -11,6 +11,7 @@ auditor's machines. Rounding is idempotent (load -> save -> load never changes a
 
 from __future__ import annotations
 
+import contextlib
 import hashlib
 import json
 import math
@@ -99,6 +100,15 @@ def atomic_write_bytes(path: str | os.PathLike, data: bytes, protect: tuple[str 
 
     `protect` lists input files this output must not overwrite (DESIGN: never silently overwrite an input).
     """
+    with atomic_output(path, protect) as tmp:
+        with open(tmp, "wb") as handle:
+            handle.write(data)
+
+
+@contextlib.contextmanager
+def atomic_output(path: str | os.PathLike, protect: tuple[str | os.PathLike, ...] = ()):
+    """A temporary path beside `path` to write into (in pieces, by any writer); renamed to `path` when the
+    block ends, removed if it raises: a streamed output is whole or absent. `protect` as in atomic_write_bytes."""
     target = Path(path)
     for other in protect:
         try:
@@ -113,8 +123,8 @@ def atomic_write_bytes(path: str | os.PathLike, data: bytes, protect: tuple[str 
     try:
         # mkstemp makes the file private (0600); give it the permissions a plain open() would
         os.chmod(tmp, 0o666 & ~_current_umask())
-        with os.fdopen(fd, "wb") as handle:
-            handle.write(data)
+        os.close(fd)
+        yield Path(tmp)
         os.replace(tmp, target)
     except BaseException:
         try:

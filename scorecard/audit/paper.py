@@ -239,7 +239,7 @@ def _with_no_row(texts: list[str], points: list[int], idx: np.ndarray, code: int
     return np.where(hit, len(texts) - 1, idx)
 
 
-def _single_term(term: dict, x: np.ndarray, source: str, report: ScoredCohort) -> TermChoices:
+def _single_term(term: dict, x: np.ndarray, source: str, report: ScoredCohort, first: int = 0) -> TermChoices:
     rows = term["rows"]
     texts = [r["text"] for r in rows]
     points = [int(r["points"]) for r in rows]
@@ -261,7 +261,7 @@ def _single_term(term: dict, x: np.ndarray, source: str, report: ScoredCohort) -
                 row = int(np.flatnonzero(unseen)[0])
                 known = ", ".join(lv for r in rows for lv in r.get("levels", []))
                 raise UserError(
-                    f"{source}: row {row + 1}, column {name!r}: level {x[row]!r} is on no row of the sheet ({known}); "
+                    f"{source}: row {first + row + 1}, column {name!r}: level {x[row]!r} is on no row of the sheet ({known}); "
                     "correct the spelling, or score the patient by hand with local guidance"
                 )
             target = next((i for i, r in enumerate(rows) if r.get("other" if policy == "other" else "missing")), None)
@@ -272,7 +272,7 @@ def _single_term(term: dict, x: np.ndarray, source: str, report: ScoredCohort) -
                 report.notes.append(f"{name}: levels on no row of the sheet, scored 0 points: {listed}")
             idx = _with_no_row(texts, points, idx, -2, NOT_LISTED_TEXT)
     if (idx == -1).any():
-        _refuse_not_measured(source, int(np.flatnonzero(idx == -1)[0]), name, "its table has no 'not measured' row")
+        _refuse_not_measured(source, first + int(np.flatnonzero(idx == -1)[0]), name, "its table has no 'not measured' row")
     return TermChoices(term["name"], term["label"], [name], texts, np.asarray(points, dtype=np.int64), idx)
 
 
@@ -296,7 +296,7 @@ def _refuse_not_measured(source: str, row: int, name: str, why: str) -> None:
     )
 
 
-def _pair_term(term: dict, values: dict[str, np.ndarray], source: str) -> TermChoices:
+def _pair_term(term: dict, values: dict[str, np.ndarray], source: str, first: int = 0) -> TermChoices:
     a0, a1 = term["axes"]
     for axis in term["axes"]:
         # an axis marked measure_first (or every axis of an older grid printed without a not-measured option)
@@ -304,7 +304,7 @@ def _pair_term(term: dict, values: dict[str, np.ndarray], source: str) -> TermCh
             x = values[axis["feature"]]
             absent = np.array([v is None for v in x]) if x.dtype == object else np.isnan(x)
             if absent.any():
-                _refuse_not_measured(source, int(np.flatnonzero(absent)[0]), axis["feature"],
+                _refuse_not_measured(source, first + int(np.flatnonzero(absent)[0]), axis["feature"],
                                      f"the grid {term['label']!r} has no 'not measured' option for it")
     i = _axis_choice(a0, values[a0["feature"]])
     j = _axis_choice(a1, values[a1["feature"]])
@@ -375,15 +375,16 @@ def score_cohort(sheet: dict, frame: pd.DataFrame, values: dict[str, np.ndarray]
     """Apply the printed sheet to every patient in `frame` (one row per patient); `values` are the columns
     already parsed by `parse_cohort`, when the caller has them."""
     source = source_of(frame)
+    first_row = int(frame.attrs.get("first_row", 0))  # a chunk of a streamed file: errors name the file's row
     values = parse_cohort(sheet, frame) if values is None else values
     scored = ScoredCohort(terms=[], total=np.zeros(len(frame), dtype=np.int64), risk=np.empty(0), risk_text=np.empty(0), band=None)
     scored.warnings, scored.outside_training = units_warnings(sheet, values)
     total = np.zeros(len(frame), dtype=np.int64)
     for term in sheet["terms"]:
         if term["kind"] == "pair":
-            choices = _pair_term(term, values, source)
+            choices = _pair_term(term, values, source, first_row)
         else:
-            choices = _single_term(term, values[term["feature"]], source, scored)
+            choices = _single_term(term, values[term["feature"]], source, scored, first_row)
         scored.terms.append(choices)
         total += choices.patient_points()
     first, risk, text = conversion_arrays(sheet)
@@ -392,7 +393,7 @@ def score_cohort(sheet: dict, frame: pd.DataFrame, values: dict[str, np.ndarray]
     if bad.any():
         row = int(np.flatnonzero(bad)[0])
         raise UserError(
-            f"{source}: row {row + 1}: total {total[row]} is not in the sheet's conversion table "
+            f"{source}: row {first_row + row + 1}: total {total[row]} is not in the sheet's conversion table "
             f"({first} to {first + len(risk) - 1}); the sheet is inconsistent, rebuild it with `scorecard quantize`"
         )
     scored.total = total

@@ -15,7 +15,7 @@ from scorecard.errors import CheckFailed, UserError
 from scorecard.jsondoc import atomic_write_bytes, atomic_write_text, pretty_text
 from scorecard.model import load_model
 from scorecard.sheet import CAUTIONS, load_sheet, validate_sheet_dict
-from scorecard.tabular import read_csv, require_columns
+from scorecard.tabular import read_table, require_columns
 from scorecard.suggest import did_you_mean
 
 
@@ -82,7 +82,7 @@ def command(sheet_path, model_path, cohort_path, output, json_path, outcome, rep
     sheet, bound_source, unsigned = bound_to_judge(sheet, sheet_path, approval, bound_items)
     model = load_model(model_path)
     matches = model_matches_sheet(model, sheet, model_path, allow_other, say)
-    cohort = read_csv(cohort_path)
+    cohort = read_table(cohort_path)
     require_columns(cohort, sheet_features(sheet), "the sheet")  # before the outcome note: a bad cohort is one line
     if outcome is None:
         outcome = guess_outcome_column(sheet, list(cohort.columns))

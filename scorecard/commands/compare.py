@@ -12,7 +12,7 @@ from scorecard.invented import is_invented
 from scorecard.jsondoc import atomic_write_bytes, atomic_write_text, pretty_text, read_json_file
 from scorecard.model import load_model
 from scorecard.sheet import CAUTIONS, load_sheet
-from scorecard.tabular import read_csv
+from scorecard.tabular import read_table
 
 
 def _kind(path: str) -> str:
@@ -70,7 +70,7 @@ def command(old_path: str, new_path: str, cohort_path: str | None, output: str |
         report = sheet_changes(old, new)
         cautions = new.get("cautions") or CAUTIONS
         if cohort_path:
-            report["cohort"] = cohort_changes(old, new, read_csv(cohort_path))
+            report["cohort"] = cohort_changes(old, new, read_table(cohort_path))
             for line in report["cohort"]["warnings"]:
                 say(line)
     else:

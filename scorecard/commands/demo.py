@@ -9,22 +9,24 @@ from __future__ import annotations
 from pathlib import Path
 
 import click
-import pandas as pd
 
 from scorecard.commands._common import say
-from scorecard.demo import OUTCOME, cohort_csv_text, generate_cohort, true_model
+from scorecard.demo import OUTCOME, cohort_arrow_table, cohort_chunks, cohort_csv_text, true_model
+from scorecard.demo.cohort import CHUNK_ROWS
 from scorecard.demo.population import RESIDENCE_LEVELS
 from scorecard.demo.true_model import COMPLETED_UNITS, FEATURE_INFO, OUTCOME_TEXT
 from scorecard.invented import MARK
 from scorecard.errors import UserError
-from scorecard.jsondoc import atomic_write_text
 from scorecard.model import save_model
 from scorecard.render import load_layout
+from scorecard.table_writer import TableWriter
+from scorecard.tabular import PARQUET_SUFFIXES
 
 COHORT_FILE = "cohort.csv"
 AUDIT_COHORT_FILE = "audit-cohort.csv"
 TRUE_MODEL_FILE = "true.model.json"
-MAX_ROWS = 5_000_000
+MAX_ROWS = 5_000_000  # the whole pipeline fits and audits in memory
+MAX_COHORT_ROWS = 100_000_000  # --cohort-only streams the cohort to disk
 
 
 def prepare_output_folder(path: str, force: bool) -> Path:
@@ -41,19 +43,40 @@ def prepare_output_folder(path: str, force: bool) -> Path:
     return folder
 
 
-def write_cohort(folder: Path, rows: int, seed: int, interaction: bool, name: str = COHORT_FILE) -> tuple[Path, pd.DataFrame]:
-    """Step 1: an invented cohort (one row per patient, `delirium` is the outcome)."""
-    cohort = generate_cohort(rows, seed=seed, interaction=interaction)
+def write_cohort(folder: Path, rows: int, seed: int, interaction: bool, name: str = COHORT_FILE) -> Path:
+    """Step 1: an invented cohort (one row per patient, `delirium` is the outcome), as CSV or Parquet by the
+    file's suffix; drawn and written a million patients at a time, so any size needs bounded memory."""
     path = folder / name
-    atomic_write_text(path, cohort_csv_text(cohort))
-    rate = cohort["delirium"].mean()
-    say(f"wrote {rows} invented patients to {path} (seed {seed}; delirium in {rate:.1%})")
-    return path, cohort
+    events = 0
+    with TableWriter(path) as out:
+        for k, chunk in enumerate(cohort_chunks(rows, seed=seed, interaction=interaction)):
+            if out.parquet:
+                out.write_frame(cohort_arrow_table(chunk))
+            else:
+                out.write_text(cohort_csv_text(chunk, header=k == 0))
+            events += int(chunk[OUTCOME].sum())
+            if rows > CHUNK_ROWS:
+                say(f"  {chunk['patient_id'].iloc[-1]} of {rows} patients drawn")
+    say(f"wrote {rows} invented patients to {path} (seed {seed}; delirium in {events / rows:.1%})")
+    return path
 
 
-def write_true_model(folder: Path, interaction: bool) -> Path:
+def cohort_file_target(output: str) -> tuple[Path, str] | None:
+    """(folder, file name) when --cohort-only's -o names a .csv or .parquet file rather than a folder."""
+    target = Path(output)
+    if target.suffix.lower() not in (".csv", *PARQUET_SUFFIXES):
+        return None
+    if target.is_dir():
+        raise UserError(f"{target}: is a folder; give --cohort-only a file name ending in .csv or .parquet, or a new folder")
+    folder = target.parent if str(target.parent) else Path(".")
+    if not folder.is_dir():
+        raise UserError(f"{target}: folder {folder} does not exist; create it or choose another -o path")
+    return folder, target.name
+
+
+def write_true_model(folder: Path, interaction: bool, name: str = TRUE_MODEL_FILE) -> Path:
     """Step 2: the generator's true additive model as a model document (for comparing fitted models with)."""
-    path = folder / TRUE_MODEL_FILE
+    path = folder / name
     fingerprint = save_model(true_model(interaction), path)
     say(f"wrote the true model of the generator to {path} (fingerprint {fingerprint[:12]})")
     return path
@@ -152,16 +175,20 @@ def audit_sheet(ctx: click.Context, folder: Path, sheet: Path, pdf: Path, model:
 
 @click.command()
 @click.option("-o", "--output", "output", required=True, metavar="DIR",
-              help="Folder to write into; created if absent. An existing non-empty folder needs --force.")
-@click.option("--rows", default=40000, show_default=True, type=click.IntRange(100, MAX_ROWS),
-              help="Number of invented patients to fit on (the audit cohort is half as many, drawn separately).")
+              help="Folder to write into; created if absent. An existing non-empty folder needs --force. With "
+                   "--cohort-only also a file name ending in .csv or .parquet.")
+@click.option("--rows", default=40000, show_default=True, type=click.IntRange(100, MAX_COHORT_ROWS),
+              help=f"Number of invented patients to fit on (the audit cohort is half as many, drawn separately); "
+                   f"at most {MAX_ROWS:,} for the whole pipeline, {MAX_COHORT_ROWS:,} with --cohort-only.")
 @click.option("--seed", default=0, show_default=True, type=click.IntRange(min=0),
               help="Random seed; the same rows and seed always give the same cohorts, byte for byte.")
 @click.option("--without-pair", is_flag=True,
               help="Generate from the additive truth without the age x cognition interaction.")
 @click.option("--layout", default="ward-a4", show_default=True, metavar="NAME|FILE",
               help="Page layout of the printed sheet (see `scorecard render --help`).")
-@click.option("--cohort-only", is_flag=True, help="Only write the invented cohort and the generator's true model.")
+@click.option("--cohort-only", is_flag=True,
+              help="Only write the invented cohort and the generator's true model; -o FILE.parquet (or .csv) writes "
+                   "the cohort to that file and the true model beside it as FILE.true.model.json.")
 @click.option("--force", is_flag=True, help="Write into a non-empty folder, replacing the demo's own files there.")
 @click.pass_context
 def command(ctx: click.Context, output: str, rows: int, seed: int, without_pair: bool, layout: str,
@@ -195,17 +222,31 @@ def command(ctx: click.Context, output: str, rows: int, seed: int, without_pair:
       scorecard demo -o demo_output
       scorecard demo -o small_demo --rows 5000 --seed 7 --layout ward-letter
       scorecard demo -o data_only --cohort-only
+      scorecard demo --cohort-only --rows 20000000 -o big.parquet
     """
     interaction = not without_pair
-    if not cohort_only:
+    if cohort_only:
+        into_file = cohort_file_target(output)
+        if into_file:
+            folder, name = into_file
+            stem = name.rsplit(".", 1)[0]
+            if (folder / name).exists() and not force:
+                raise UserError(f"{folder / name}: exists; choose a new file with -o, or add --force to replace it")
+            write_cohort(folder, rows, seed, interaction, name=name)
+            write_true_model(folder, interaction, name=f"{stem}.{TRUE_MODEL_FILE}")
+            return
+    else:
+        if rows > MAX_ROWS:
+            raise UserError(f"--rows {rows}: the whole pipeline takes at most {MAX_ROWS:,} patients; ask for fewer, or "
+                            "write a larger cohort with --cohort-only and fit it with `scorecard fit`")
         load_layout(layout)  # a wrong --layout is refused now, not after a minute of fitting with half the files written
     folder = prepare_output_folder(output, force)
-    cohort, _ = write_cohort(folder, rows, seed, interaction)
+    cohort = write_cohort(folder, rows, seed, interaction)
     write_true_model(folder, interaction)
     if cohort_only:
         return
     # a separate draw the model never sees, so the audit is not graded on the training patients
-    audit_cohort, _ = write_cohort(folder, max(rows // 2, 100), seed + 1_000_003, interaction, name=AUDIT_COHORT_FILE)
+    audit_cohort = write_cohort(folder, max(rows // 2, 100), seed + 1_000_003, interaction, name=AUDIT_COHORT_FILE)
     fitted = fit_model(ctx, folder, cohort)
     declared = review_model(ctx, folder, fitted, cohort)
     edited = edit_model(ctx, folder, declared, cohort)

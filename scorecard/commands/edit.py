@@ -25,7 +25,7 @@ from scorecard.review.edits import (
     pool_levels,
     remove_effect,
 )
-from scorecard.tabular import read_csv
+from scorecard.tabular import read_table
 
 
 def _edit_time() -> str:
@@ -168,7 +168,7 @@ def command(model_path, declarations, pools, holds_below, holds_above, direction
     model = load_model(model_path)
     if not isinstance(model.provenance.get("edits", []), list):
         raise UserError(f"{model_path}: provenance.edits must be a list of earlier edits; fix or remove it")
-    cohort = read_csv(cohort_path) if cohort_path else None
+    cohort = read_table(cohort_path) if cohort_path else None
     column = _outcome_column(model, outcome) if cohort is not None else None
     if outcome and cohort is None:
         raise UserError("--outcome names a column of --data; give --data COHORT.csv too")

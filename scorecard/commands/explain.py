@@ -15,7 +15,7 @@ from scorecard.commands._common import FeatureValue
 from scorecard.errors import UserError
 from scorecard.model import explain, load_model
 from scorecard.model.document import AdditiveModel
-from scorecard.tabular import is_missing_text, read_csv
+from scorecard.tabular import is_missing_text, read_table
 from scorecard.suggest import did_you_mean
 
 
@@ -122,7 +122,7 @@ def command(model_path: str, row: int | None, cohort_path: str | None, pairs: tu
     else:
         if row is None or not cohort_path:
             raise UserError("name the patient: --row N --data COHORT.csv, or --values FEATURE=VALUE ...")
-        frame = read_csv(cohort_path)
+        frame = read_table(cohort_path)
         if not 1 <= row <= len(frame):
             raise UserError(f"{cohort_path}: --row {row} does not exist; the file has data rows 1 to {len(frame)}")
         index, where = row - 1, f"row {row} of {cohort_path}"

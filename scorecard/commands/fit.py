@@ -15,7 +15,7 @@ from scorecard.model import save_model
 from scorecard.model.declare import declare_completed, declare_level_order
 from scorecard.suggest import did_you_mean
 from scorecard.fit.columns import feature_column, looks_like_identifier, outcome_values, uninformative_reason
-from scorecard.tabular import numeric_column, read_csv
+from scorecard.tabular import numeric_column, read_table
 
 def _names(values: tuple[str, ...]) -> list[str]:
     """Repeatable options that also accept comma-separated lists."""
@@ -116,7 +116,7 @@ def command(data_path, outcome, features, exclude, categorical, weights_column, 
     """
     out = output_path(output, data_path)
     pairs = _pairs_option(pairs_text)  # before reading: a typo in an option should not wait for the data
-    frame = read_csv(data_path, "patient data")
+    frame = read_table(data_path, "patient data")
     source = str(data_path)
     columns = list(frame.columns)
     if outcome not in columns:

@@ -6,7 +6,7 @@ import click
 
 from scorecard.commands._common import output_path, say
 from scorecard.model import save_model
-from scorecard.tabular import read_csv
+from scorecard.tabular import read_table
 
 
 def _outcome_options(func):
@@ -79,7 +79,7 @@ def coefficients(table, output, name, model_version, event, horizon, population,
     from scorecard.model.importers.coefficients import import_coefficient_table
 
     out = output_path(output, table, *( [centre_on] if centre_on else []))
-    cohort = read_csv(centre_on, what="centring cohort") if centre_on else None
+    cohort = read_table(centre_on, what="centring cohort") if centre_on else None
     model = import_coefficient_table(
         table, name=name, version=model_version, event=event, horizon=horizon, population=population, centre_on=cohort
     )

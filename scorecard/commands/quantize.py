@@ -13,7 +13,7 @@ from scorecard.jsondoc import atomic_write_bytes
 from scorecard.model import load_model
 from scorecard.quantize import Bound, parse_bands, quantize_model
 from scorecard.sheet import save_sheet, short_fingerprint
-from scorecard.tabular import read_csv
+from scorecard.tabular import read_table
 
 _DEFAULT = Bound()
 
@@ -277,7 +277,7 @@ def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_shar
     bound.check()
     band_list = parse_bands(bands)
     model = load_model(model_path)
-    data = read_csv(data_path) if data_path else None
+    data = read_table(data_path) if data_path else None
     shown, data, conversions = display_model(model, data, display_units, molar_masses)
     protect = (model_path, data_path) if data_path else (model_path,)
     near = output_path(nearest_path, *protect, option="--write-nearest") if nearest_path else None

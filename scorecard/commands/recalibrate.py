@@ -13,7 +13,7 @@ from scorecard.model import load_model
 from scorecard.recalibrate import assess, recalibrated_sheet
 from scorecard.recalibrate.adequacy import SLOPE_FAR_HIGH, SLOPE_FAR_LOW
 from scorecard.sheet import load_sheet, save_sheet, short_fingerprint
-from scorecard.tabular import read_csv
+from scorecard.tabular import read_table
 
 
 @click.command()
@@ -61,7 +61,7 @@ def command(sheet_path, data_path, outcome, output, model_path, json_path) -> No
         if model.fingerprint != sheet["model"]["fingerprint"]:
             raise UserError(f"{model_path}: model fingerprint {model.fingerprint[:12]} is not the one the sheet was built from "
                             f"({sheet['model']['fingerprint'][:12]}); give the sheet's own model with --model, or leave --model out")
-    frame = read_csv(data_path)
+    frame = read_table(data_path)
     figures = assess(sheet, frame, outcome, model)
     for line in figures["warnings"]:
         say(line)

@@ -10,7 +10,7 @@ from scorecard.commands._common import output_path, say, preview_folder
 from scorecard.jsondoc import atomic_write_bytes
 from scorecard.model import load_model
 from scorecard.review.report import build_review, pdf_bytes, write_previews
-from scorecard.tabular import read_csv, require_columns
+from scorecard.tabular import read_table, require_columns
 
 
 @click.command()
@@ -44,7 +44,7 @@ def command(model_path: str, cohort_path: str | None, output: str, preview_dir: 
     out = output_path(output, model_path, cohort_path or "")
     previews = preview_folder(preview_dir)
     model = load_model(model_path)
-    cohort = read_csv(cohort_path) if cohort_path else None
+    cohort = read_table(cohort_path) if cohort_path else None
     if cohort is not None:
         require_columns(cohort, model.used_features, "the model")  # refused before the progress line
     say(f"reviewing {len(model.terms)} terms of {model.name} version {model.version}...")

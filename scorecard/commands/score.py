@@ -6,13 +6,15 @@ import click
 
 from scorecard.audit.matching import OVERRIDE_OPTION, model_matches_sheet
 from scorecard.audit.paper import score_cohort
-from scorecard.audit.table import csv_text, scored_columns
+from scorecard.audit.table import scored_columns, scored_table
+from scorecard.csv_cells import csv_text
 from scorecard.commands._common import approved_by_option, output_path, require_approval, say
 from scorecard.errors import UserError
 from scorecard.jsondoc import atomic_write_text
 from scorecard.model import load_model, predict_logodds, logistic
 from scorecard.sheet import load_sheet
-from scorecard.tabular import read_csv
+from scorecard.table_writer import TableWriter
+from scorecard.tabular import is_parquet, read_table
 from scorecard.suggest import did_you_mean
 
 
@@ -52,7 +54,7 @@ def command(sheet_path: str, cohort_path: str, output: str, model_path: str | No
     out = output_path(output, sheet_path, cohort_path, model_path or "")
     sheet = load_sheet(sheet_path)
     require_approval(sheet, sheet_path, approved_by)
-    cohort = read_csv(cohort_path)
+    cohort = read_table(cohort_path)
     for name in keep:
         if name not in cohort.columns:
             raise UserError(f"{cohort_path}: --keep column {name!r} is not in the file{did_you_mean(name, list(cohort.columns))}")
@@ -70,6 +72,11 @@ def command(sheet_path: str, cohort_path: str, output: str, model_path: str | No
         say(line)
     for line in scored.notes:
         say(f"note: {line}")
-    columns = scored_columns(scored, sheet, cohort[list(keep)] if keep else None, model_risk)
-    atomic_write_text(out, csv_text(columns), protect=(sheet_path, cohort_path) + ((model_path,) if model_path else ()))
+    protect = (sheet_path, cohort_path) + ((model_path,) if model_path else ())
+    kept = cohort[list(keep)] if keep else None
+    if is_parquet(out):
+        with TableWriter(out, protect=protect) as writer:
+            writer.write_frame(scored_table(scored, sheet, kept, model_risk))
+    else:
+        atomic_write_text(out, csv_text(scored_columns(scored, sheet, kept, model_risk)), protect=protect)
     say(f"wrote {scored.n} scored patients to {out}")

@@ -23,6 +23,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
+from scorecard.csv_cells import frame_csv_text
 from scorecard.demo import population as pop
 from scorecard.demo.truth import raw_logodds
 from scorecard.errors import UserError
@@ -66,6 +67,13 @@ def _logistic(z: np.ndarray) -> np.ndarray:
     return 1.0 / (1.0 + np.exp(-z))
 
 
+def _check_size_and_seed(n, seed) -> None:
+    if isinstance(n, bool) or not isinstance(n, (int, np.integer)) or n < 1:
+        raise UserError(f"rows: {n!r} is not a positive whole number; ask for at least 1 patient")
+    if isinstance(seed, bool) or not isinstance(seed, (int, np.integer)) or seed < 0:
+        raise UserError(f"seed: {seed!r} is not a whole number >= 0; give a seed such as 0")
+
+
 def generate_cohort(n: int, seed: int = 0, interaction: bool = True) -> pd.DataFrame:
     """An invented cohort of `n` older adults after hip-fracture surgery, one row per patient.
 
@@ -75,12 +83,31 @@ def generate_cohort(n: int, seed: int = 0, interaction: bool = True) -> pd.DataF
     residence are strings, flags and the outcome are 0/1 int64. The expected event rate is about 20 %
     (see scorecard.demo.EVENT_RATE_BOUNDS).
     """
-    if isinstance(n, bool) or not isinstance(n, (int, np.integer)) or n < 1:
-        raise UserError(f"rows: {n!r} is not a positive whole number; ask for at least 1 patient")
-    if isinstance(seed, bool) or not isinstance(seed, (int, np.integer)) or seed < 0:
-        raise UserError(f"seed: {seed!r} is not a whole number >= 0; give a seed such as 0")
+    _check_size_and_seed(n, seed)
+    return _draw_cohort(int(n), np.random.default_rng(int(seed)), interaction, first_id=1)
+
+
+CHUNK_ROWS = 1_000_000
+
+
+def cohort_chunks(n: int, seed: int = 0, interaction: bool = True, chunk_rows: int = CHUNK_ROWS):
+    """The same kind of cohort in frames of at most `chunk_rows` patients, so any size needs bounded memory.
+
+    Up to `chunk_rows` patients this is exactly `generate_cohort(n, seed)` (one frame). Above, chunk b is drawn
+    from its own generator, default_rng([seed, b]) (numpy's SeedSequence keeps the streams independent), and
+    patient_id runs on across chunks: the same (n, seed) always gives the same rows, whatever reads them.
+    """
+    _check_size_and_seed(n, seed)
     n = int(n)
-    rng = np.random.default_rng(int(seed))
+    if n <= chunk_rows:
+        yield generate_cohort(n, seed, interaction)
+        return
+    for b, start in enumerate(range(0, n, chunk_rows)):
+        size = min(chunk_rows, n - start)
+        yield _draw_cohort(size, np.random.default_rng([int(seed), b]), interaction, first_id=start + 1)
+
+
+def _draw_cohort(n: int, rng: np.random.Generator, interaction: bool, first_id: int) -> pd.DataFrame:
     age_index = np.minimum(np.searchsorted(np.cumsum(pop.AGE_PROBS), rng.random(n), side="right"), len(pop.AGES) - 1)
     data: dict[str, np.ndarray] = {"age": pop.AGES[age_index]}
     for name in _DRAW_ORDER:
@@ -92,7 +119,7 @@ def generate_cohort(n: int, seed: int = 0, interaction: bool = True) -> pd.DataF
     # the review is drawn after the outcome (see the module docstring); its log-odds effect is 0, so while the
     # outcome is drawn its column can hold zeros
     data["geriatric_review"] = np.zeros(n, dtype=np.int64)
-    frame = pd.DataFrame({"patient_id": np.arange(1, n + 1, dtype=np.int64), **{f: data[f] for f in FEATURES}})
+    frame = pd.DataFrame({"patient_id": np.arange(first_id, first_id + n, dtype=np.int64), **{f: data[f] for f in FEATURES}})
     for name in ("age", "cognition", "sodium", "haemoglobin", "hours_to_surgery", "medicines", "prior_delirium", "hearing_impairment"):
         frame[name] = frame[name].astype(np.int64)
     for name in ("anaesthesia", "residence"):
@@ -106,9 +133,20 @@ def generate_cohort(n: int, seed: int = 0, interaction: bool = True) -> pd.DataF
     return frame[COLUMNS]
 
 
-def cohort_csv_text(frame: pd.DataFrame) -> str:
-    """The cohort as CSV text: integers without decimals, temperature at one decimal, empty = not measured."""
+def cohort_csv_text(frame: pd.DataFrame, header: bool = True) -> str:
+    """The cohort as CSV text: integers without decimals, temperature at one decimal, empty = not measured
+    (header=False for a chunk after the first)."""
     out = frame.copy()
     out["albumin"] = out["albumin"].astype("Int64")
-    out["temperature"] = out["temperature"].map(lambda v: f"{v:.1f}")
-    return out.to_csv(index=False, lineterminator="\n")
+    text = frame_csv_text(out, formats={"temperature": "%.1f"})
+    return text if header else text.split("\n", 1)[1]
+
+
+def cohort_arrow_table(frame: pd.DataFrame):
+    """The cohort as an Arrow table for Parquet: albumin a nullable integer (null = not measured), temperature
+    float, the rest as generated; read back it gives the same values as the CSV."""
+    import pyarrow as pa
+
+    columns = {name: pa.array(frame[name].to_numpy()) for name in frame.columns}
+    columns["albumin"] = pa.array(frame["albumin"].astype("Int64"), type=pa.int64())
+    return pa.table(columns)

@@ -15,7 +15,7 @@ import numpy as np
 import pandas as pd
 
 from scorecard.audit.paper import ScoredCohort, score_cohort
-from scorecard.audit.table import csv_text
+from scorecard.csv_cells import cell, csv_text
 from scorecard.exercise.vignettes import Target
 from scorecard.invented import MARK, is_invented
 
@@ -47,26 +47,25 @@ def answer_key(sheet: dict, features: list[str], vignettes: list[dict[str, Targe
 def key_csv_text(key: Key) -> str:
     n = len(key.ids)
     cols: list[tuple[list[str], np.ndarray]] = [(["id"], np.array(key.ids, dtype=object))]
-    from scorecard.audit.table import _quote
-
     for name in key.features:
-        cols.append(([name], np.array([_quote(v[name].text) for v in key.vignettes], dtype=object)))
+        cols.append(([name], np.array([cell(v[name].text) for v in key.vignettes], dtype=object)))
     cols.append((["total_points"], np.array([str(int(t)) for t in key.scored.total], dtype=object)))
-    cols.append((["risk"], np.array([_quote(str(t)) for t in key.scored.risk_text], dtype=object)))
-    cols.append((["band"], np.array([_quote(key.band_name(i)) for i in range(n)], dtype=object)))
+    cols.append((["risk"], np.array([cell(str(t)) for t in key.scored.risk_text], dtype=object)))
+    cols.append((["band"], np.array([cell(key.band_name(i)) for i in range(n)], dtype=object)))
     for t in key.scored.terms:
-        cols.append(([f"row:{t.name}"], np.array([_quote(t.texts[j]) for j in t.index], dtype=object)))
+        cols.append(([f"row:{t.name}"], np.array([cell(t.texts[j]) for j in t.index], dtype=object)))
         cols.append(([f"points:{t.name}"], np.array([str(int(t.points[j])) for j in t.index], dtype=object)))
     scale = key.sheet["scale"]
     cols.append((["sheet_fingerprint"], np.array([key.sheet["fingerprint"]] * n, dtype=object)))
     cols.append((["offset"], np.array([repr(float(scale["offset"]))] * n, dtype=object)))
     cols.append((["logodds_per_point"], np.array([repr(float(scale["logodds_per_point"]))] * n, dtype=object)))
     if is_invented(key.sheet):
-        cols.append((["note"], np.array([_quote(MARK)] * n, dtype=object)))
+        cols.append((["note"], np.array([cell(MARK)] * n, dtype=object)))
     return csv_text(cols)
 
 
 def template_csv_text(key: Key) -> str:
     """An empty answers sheet for the trainer to fill in: id, points per table, total, risk, band."""
     headers = ["id"] + [f"points:{t.name}" for t in key.scored.terms] + ["total_points", "risk", "band"]
-    return ",".join(headers) + "\n" + "".join(i + "," * (len(headers) - 1) + "\n" for i in key.ids)
+    blank = np.full(len(key.ids), "", dtype=object)
+    return csv_text([(["id"], np.array([cell(i) for i in key.ids], dtype=object))] + [([h], blank) for h in headers[1:]])

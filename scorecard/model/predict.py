@@ -30,6 +30,18 @@ class PredictionReport:
     averaged: dict[str, int] = field(default_factory=dict)
     unseen_levels: dict[str, dict[str, int]] = field(default_factory=dict)
 
+    def add(self, other: "PredictionReport") -> None:
+        """Count another chunk of the same cohort in (a streamed run reports what one pass would)."""
+        self.rows += other.rows
+        for mine, theirs in ((self.out_of_range, other.out_of_range), (self.not_measured, other.not_measured),
+                             (self.averaged, other.averaged)):
+            for name, n in theirs.items():
+                mine[name] = mine.get(name, 0) + n
+        for name, levels in other.unseen_levels.items():
+            mine = self.unseen_levels.setdefault(name, {})
+            for level, n in levels.items():
+                mine[level] = mine.get(level, 0) + n
+
     def lines(self) -> list[str]:
         out = []
         for name, n in self.out_of_range.items():
