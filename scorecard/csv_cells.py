@@ -94,14 +94,18 @@ def frame_columns(frame: pd.DataFrame, fmt: str = "%.10g",
     return columns
 
 
-def csv_text(columns: list[tuple[list[str], np.ndarray]]) -> str:
+def csv_text(columns: list[tuple[list[str], np.ndarray]], header: bool = True) -> str:
     """The CSV file for (headers, fields) column groups; a group's fields may already join several columns
-    with commas (each part made by `cell`). Headers go through `cell` here."""
-    header = ",".join(cell(name) for names, _ in columns for name in names)
+    with commas (each part made by `cell`). Headers go through `cell` here; header=False for a chunk of a
+    streamed file after the first."""
     body = "\n".join(map(",".join, zip(*(fields for _, fields in columns))))
-    return header + "\n" + body + ("\n" if body else "")
+    body += "\n" if body else ""
+    if not header:
+        return body
+    return ",".join(cell(name) for names, _ in columns for name in names) + "\n" + body
 
 
-def frame_csv_text(frame: pd.DataFrame, fmt: str = "%.10g", formats: dict[str, str] | None = None) -> str:
+def frame_csv_text(frame: pd.DataFrame, fmt: str = "%.10g", formats: dict[str, str] | None = None,
+                   header: bool = True) -> str:
     """`frame` as a safe CSV file (see the module's rules)."""
-    return csv_text(frame_columns(frame, fmt, formats))
+    return csv_text(frame_columns(frame, fmt, formats), header=header)

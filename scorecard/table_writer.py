@@ -58,8 +58,5 @@ class TableWriter:
             if self._handle is not None:
                 self._handle.close()
         finally:
-            if kind is None:
-                self._context.__exit__(None, None, None)
-            else:
-                self._context.__exit__(kind, value, trace)
+            self._context.__exit__(kind, value, trace)  # renames the file, or removes it on an error
         return False

@@ -10,6 +10,7 @@ chunk carries its first row's position in the file, so errors still name the fil
 
 from __future__ import annotations
 
+import contextlib
 from collections.abc import Iterator
 from pathlib import Path
 
@@ -51,12 +52,8 @@ def read_csv(path: str | Path, what: str = "cohort") -> pd.DataFrame:
     """Read a CSV as text cells (parsing happens per feature, so errors can name the cell). Cells that
     scorecard.csv_cells made inert for spreadsheets are read back as the text they hold."""
     p = _existing_file(path, what, "CSV")
-    try:
+    with _csv_read_errors(p, what):
         frame = pd.read_csv(p, dtype=str, keep_default_na=False, skipinitialspace=True)
-    except pd.errors.EmptyDataError:
-        raise UserError(f"{p}: file is empty; expected a {what} CSV with a header row") from None
-    except (pd.errors.ParserError, UnicodeDecodeError) as exc:
-        raise UserError(f"{p}: not a readable CSV ({str(exc).splitlines()[0]}); save it as comma-separated UTF-8") from None
     return _checked_header(_unescaped(frame), p, what)
 
 
@@ -151,19 +148,40 @@ def _frame_from_arrow(table, p: Path, names: list[str]) -> pd.DataFrame:
     return frame
 
 
-def read_parquet(path: str | Path, what: str = "cohort") -> pd.DataFrame:
-    """A whole Parquet file as a DataFrame (see `_frame_from_arrow` for the column types)."""
-    import pyarrow as pa
-
+def _open_parquet(path: str | Path, what: str):
+    """(path, opened file, column names) of a Parquet table with at least one row, or its one-line error."""
     p = _existing_file(path, what, "Parquet")
     handle = _parquet_file(p, what)
     names = _parquet_names(handle, p, what)
     if handle.metadata.num_rows == 0:
         raise UserError(f"{p}: has columns but no data rows; expected at least one patient")
+    return p, handle, names
+
+
+def _unreadable_parquet(p: Path, exc: Exception, what: str) -> UserError:
+    return UserError(f"{p}: not a readable Parquet file ({str(exc).splitlines()[0]}); write the {what} again, or give it as CSV")
+
+
+@contextlib.contextmanager
+def _csv_read_errors(p: Path, what: str):
+    """pandas' errors while reading a CSV as the one line a user can act on."""
+    try:
+        yield
+    except pd.errors.EmptyDataError:
+        raise UserError(f"{p}: file is empty; expected a {what} CSV with a header row") from None
+    except (pd.errors.ParserError, UnicodeDecodeError) as exc:
+        raise UserError(f"{p}: not a readable CSV ({str(exc).splitlines()[0]}); save it as comma-separated UTF-8") from None
+
+
+def read_parquet(path: str | Path, what: str = "cohort") -> pd.DataFrame:
+    """A whole Parquet file as a DataFrame (see `_frame_from_arrow` for the column types)."""
+    import pyarrow as pa
+
+    p, handle, names = _open_parquet(path, what)
     try:
         table = handle.read()
     except (pa.ArrowException, OSError, ValueError) as exc:
-        raise UserError(f"{p}: not a readable Parquet file ({str(exc).splitlines()[0]}); write the {what} again, or give it as CSV") from None
+        raise _unreadable_parquet(p, exc, what) from None
     return _frame_from_arrow(table, p, names)
 
 
@@ -184,11 +202,7 @@ def iter_table(path: str | Path, chunk_rows: int = DEFAULT_CHUNK_ROWS, what: str
         raise ValueError("chunk_rows must be at least 1")
     first = 0
     if is_parquet(path):
-        p = _existing_file(path, what, "Parquet")
-        handle = _parquet_file(p, what)
-        names = _parquet_names(handle, p, what)
-        if handle.metadata.num_rows == 0:
-            raise UserError(f"{p}: has columns but no data rows; expected at least one patient")
+        p, handle, names = _open_parquet(path, what)
         try:
             for batch in handle.iter_batches(batch_size=chunk_rows):
                 frame = _frame_from_arrow(pa.Table.from_batches([batch]), p, names)
@@ -196,20 +210,16 @@ def iter_table(path: str | Path, chunk_rows: int = DEFAULT_CHUNK_ROWS, what: str
                 first += len(frame)
                 yield frame
         except (pa.ArrowException, OSError) as exc:
-            raise UserError(f"{p}: not a readable Parquet file ({str(exc).splitlines()[0]}); write the {what} again, or give it as CSV") from None
+            raise _unreadable_parquet(p, exc, what) from None
         return
     p = _existing_file(path, what, "CSV")
-    try:
+    with _csv_read_errors(p, what):
         reader = pd.read_csv(p, dtype=str, keep_default_na=False, skipinitialspace=True, chunksize=chunk_rows)
         for chunk in reader:
             frame = _checked_header(_unescaped(chunk), p, what) if first == 0 else _renamed_like(_unescaped(chunk), p)
             frame.attrs["first_row"] = first
             first += len(frame)
             yield frame
-    except pd.errors.EmptyDataError:
-        raise UserError(f"{p}: file is empty; expected a {what} CSV with a header row") from None
-    except (pd.errors.ParserError, UnicodeDecodeError) as exc:
-        raise UserError(f"{p}: not a readable CSV ({str(exc).splitlines()[0]}); save it as comma-separated UTF-8") from None
     if first == 0:
         raise UserError(f"{p}: has a header but no data rows; expected at least one patient")
 
@@ -218,13 +228,6 @@ def _renamed_like(chunk: pd.DataFrame, p: Path) -> pd.DataFrame:
     chunk.columns = [str(c).strip() for c in chunk.columns]
     chunk.attrs["source"] = str(p)
     return chunk
-
-
-def frame_to_parquet_table(frame: pd.DataFrame):
-    """A DataFrame as an Arrow table for writing: object columns as text (None stays null)."""
-    import pyarrow as pa
-
-    return pa.Table.from_pandas(frame, preserve_index=False)
 
 
 def _is_pandas_dupe(name: str, header: list[str]) -> bool:

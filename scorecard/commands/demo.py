@@ -18,6 +18,7 @@ from scorecard.demo.true_model import COMPLETED_UNITS, FEATURE_INFO, OUTCOME_TEX
 from scorecard.invented import MARK
 from scorecard.errors import UserError
 from scorecard.model import save_model
+from scorecard.outputs import check_target
 from scorecard.render import load_layout
 from scorecard.table_writer import TableWriter
 from scorecard.tabular import PARQUET_SUFFIXES
@@ -68,10 +69,8 @@ def cohort_file_target(output: str) -> tuple[Path, str] | None:
         return None
     if target.is_dir():
         raise UserError(f"{target}: is a folder; give --cohort-only a file name ending in .csv or .parquet, or a new folder")
-    folder = target.parent if str(target.parent) else Path(".")
-    if not folder.is_dir():
-        raise UserError(f"{target}: folder {folder} does not exist; create it or choose another -o path")
-    return folder, target.name
+    target = check_target(target, text=target.suffix.lower() == ".csv")  # the output-path rules, before any drawing
+    return (target.parent if str(target.parent) else Path(".")), target.name
 
 
 def write_true_model(folder: Path, interaction: bool, name: str = TRUE_MODEL_FILE) -> Path:

@@ -50,8 +50,7 @@ def command(model_path: str, cohort_path: str, output: str, with_parts: bool, ke
             if writer.parquet:
                 writer.write_frame(table)
             else:
-                text = frame_csv_text(table)
-                writer.write_text(text if k == 0 else text.split("\n", 1)[1])
+                writer.write_text(frame_csv_text(table, header=k == 0))
     for line in report.lines():
         say(f"note: {line}")
     say(f"wrote {report.rows} patients to {out}")

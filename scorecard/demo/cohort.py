@@ -138,8 +138,7 @@ def cohort_csv_text(frame: pd.DataFrame, header: bool = True) -> str:
     (header=False for a chunk after the first)."""
     out = frame.copy()
     out["albumin"] = out["albumin"].astype("Int64")
-    text = frame_csv_text(out, formats={"temperature": "%.1f"})
-    return text if header else text.split("\n", 1)[1]
+    return frame_csv_text(out, formats={"temperature": "%.1f"}, header=header)
 
 
 def cohort_arrow_table(frame: pd.DataFrame):
