@@ -73,12 +73,25 @@ class PipelineGroup(click.Group):
             ctx.exit(UserError.exit_code)
         except click.UsageError as exc:
             # click's own usage errors (missing -o, a value out of range) as one line too, naming the verb
+            exc = _renamed_option_hint(exc)
             where = exc.ctx.command_path if exc.ctx else "scorecard"
             click.echo(f"error: {where}: {exc.format_message()} (see {where} --help)", err=True)
             ctx.exit(UserError.exit_code)
         except CheckFailed as exc:
             click.echo(f"check failed: {exc}", err=True)
             ctx.exit(CheckFailed.exit_code)
+
+
+def _renamed_option_hint(exc: click.UsageError) -> click.UsageError:
+    """An option a verb renamed (its command's `renamed_options`, old -> new) gets the new name as the
+    did-you-mean; spelling alone would not find it ('--bags' is nothing like '--repeats')."""
+    if not isinstance(exc, click.NoSuchOption) or exc.ctx is None:
+        return exc
+    renamed = getattr(exc.ctx.command, "renamed_options", {})
+    new = renamed.get(exc.option_name.split("=", 1)[0])
+    if new is None:
+        return exc
+    return click.UsageError(f"No such option {exc.option_name!r}; did you mean {new!r}? (renamed)", exc.ctx)
 
 
 @click.group("scorecard", cls=PipelineGroup, context_settings={"help_option_names": ["-h", "--help"], "max_content_width": 100})

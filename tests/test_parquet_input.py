@@ -76,7 +76,7 @@ def test_fit_on_parquet_equals_fit_on_csv_and_records_the_file_hash(tmp_path):
     cohort.to_parquet(tmp_path / "c.parquet", index=False)
     docs = {}
     for kind in ("csv", "parquet"):
-        result = run("fit", tmp_path / f"c.{kind}", "--outcome", "delirium", "--exclude", "patient_id", "--bags", "2",
+        result = run("fit", tmp_path / f"c.{kind}", "--outcome", "delirium", "--exclude", "patient_id", "--repeats", "2",
                      "--pairs", "0", "-o", tmp_path / f"{kind}.model.json")
         assert result.exit_code == 0, result.output
         docs[kind] = json.loads((tmp_path / f"{kind}.model.json").read_text())

@@ -16,6 +16,7 @@ from scorecard.model.declare import declare_completed, declare_level_order
 from scorecard.suggest import did_you_mean
 from scorecard.fit.columns import feature_column, looks_like_identifier, outcome_values, uninformative_reason
 from scorecard.tabular import numeric_column, read_table
+from scorecard.fit import defaults
 
 def _names(values: tuple[str, ...]) -> list[str]:
     """Repeatable options that also accept comma-separated lists."""
@@ -55,6 +56,24 @@ def _pairs_option(text: str):
     return n
 
 
+# options of earlier releases: a user typing one is told the new name (scorecard/cli.py)
+RENAMED_OPTIONS = {"--bags": "--repeats", "--max-bins": "--bins", "--validation-fraction": "--held-out-share",
+                   "--l2-regularization": "--shrinkage"}
+
+
+def _auto_or_number(option: str, text: str, kind, low: float, high: float, what: str, low_open=False, high_open=False):
+    """'auto', or a number within [low, high] (open ends as asked), else a one-line error naming the option."""
+    if text.strip().lower() == "auto":
+        return "auto"
+    try:
+        value = kind(text)
+    except ValueError:
+        value = None
+    if value is None or not np.isfinite(value) or (value <= low if low_open else value < low) or (value >= high if high_open else value > high):
+        raise UserError(f"{option} {text!r}: give {what}, or 'auto'")
+    return value
+
+
 @click.command()
 @click.argument("data_path", metavar="DATA.csv", type=click.Path())
 @click.option("--outcome", required=True, metavar="COLUMN", help="The 0/1 (or yes/no) outcome column: 1 = the event happened.")
@@ -62,13 +81,21 @@ def _pairs_option(text: str):
 @click.option("--exclude", multiple=True, metavar="NAMES", help="Columns never to use, such as a patient id (comma-separated or repeated).")
 @click.option("--categorical", multiple=True, metavar="NAMES", help="Columns to treat as categories even if they hold numbers (text columns always are).")
 @click.option("--weights", "weights_column", metavar="COLUMN", help="Column of non-negative patient weights (sample weights).")
-@click.option("--pairs", "pairs_text", default="auto", show_default=True, metavar="N|auto", help="Number of two-feature terms; 'auto' keeps those that pass a held-out interaction test (at most --max-pairs).")
-@click.option("--max-pairs", default=3, show_default=True, type=click.IntRange(0, 20), help="Most pairs 'auto' may keep.")
-@click.option("--bags", default=8, show_default=True, type=click.IntRange(1, 100), help="Bags (repeat fits on different held-out splits); shapes are their mean, spread bands their standard deviation.")
-@click.option("--seed", default=0, show_default=True, type=click.IntRange(0), help="Seed of the bags' splits; the same seed and data give the same bytes.")
-@click.option("--learning-rate", default=0.1, show_default=True, type=click.FloatRange(0, 1, min_open=True), help="Scale of each boosting step.")
-@click.option("--min-leaf", default=5, show_default=True, type=click.FloatRange(1), help="Fewest patients in any leaf of any step (raise it for small cohorts).")
-@click.option("--max-bins", default=256, show_default=True, type=click.IntRange(2, 1024), help="Most bins per continuous feature.")
+@click.option("--pairs", "pairs_text", default="auto", show_default=True, metavar="N|auto", help="Number of two-feature terms; 'auto' keeps those that pass a held-out interaction test and gain at least --pair-min-gain (at most --max-pairs).")
+@click.option("--max-pairs", default=defaults.MAX_PAIRS, show_default=True, type=click.IntRange(0, 20), help="Most pairs 'auto' may keep.")
+@click.option("--pair-min-gain", default=defaults.PAIR_MIN_GAIN, show_default=True, type=click.FloatRange(0),
+              help="Held-out log-likelihood gain (nats per patient) a pair needs for 'auto': a pair can pass the test and still be too small to matter on a sheet.")
+@click.option("--repeats", "repeats_text", default="auto", show_default=True, metavar="N|auto",
+              help="Repeat fits, each on its own held-out split; shapes are their mean, spread bands their standard deviation. 'auto': " + defaults.auto_rule(defaults.repeats_for) + ".")
+@click.option("--seed", default=0, show_default=True, type=click.IntRange(0), help="Seed of the repeats' splits; the same seed and data give the same bytes.")
+@click.option("--learning-rate", default=defaults.LEARNING_RATE, show_default=True, type=click.FloatRange(0, 1, min_open=True), help="Scale of each boosting step.")
+@click.option("--held-out-share", "held_out_text", default="auto", show_default=True, metavar="SHARE|auto",
+              help="Share of patients each repeat holds out to decide when to stop, from 0 to below 1. 'auto': " + defaults.auto_rule(defaults.held_out_share_for) + ".")
+@click.option("--shrinkage", "shrinkage_text", default="auto", show_default=True, metavar="VALUE|auto",
+              help=f"Added to every leaf's sum of hessians: pulls leaves of few patients toward zero (0 or more). 'auto': chosen from "
+                   f"{', '.join(f'{v:g}' for v in defaults.SHRINKAGE_CHOICES)} by held-out deviance under {defaults.CHOOSE_SHRINKAGE_BELOW:,} patients, else {defaults.SHRINKAGE:g}.")
+@click.option("--min-leaf", default=defaults.MIN_LEAF_PATIENTS, show_default=True, type=click.FloatRange(1), help="Fewest patients in any leaf of any step (raise it for small cohorts).")
+@click.option("--bins", default=defaults.BINS, show_default=True, type=click.IntRange(2, 1024), help="Most bins per continuous feature.")
 @click.option("--name", default=None, help="Model name (default: the data file's name).")
 @click.option("--event", default=None, help="What the outcome is, printed on the sheet (default: the outcome column's name).")
 @click.option("--horizon", default="not stated", show_default=True, help="Over what time the event is counted, e.g. '5 days after surgery'.")
@@ -90,19 +117,20 @@ def _pairs_option(text: str):
 @click.option("--invented-data", "invented", is_flag=True,
               help="The data is invented (a demo, a test): the model, its sheets and every page made from them say "
                    "INVENTED DATA - NOT FOR CLINICAL USE.")
-@click.option("--jobs", default=None, type=click.IntRange(1), help="Processes for the bags (default: all usable cores); the result does not depend on it.")
+@click.option("--jobs", default=None, type=click.IntRange(1), help="Processes for the repeats (default: all usable cores); the result does not depend on it.")
 @click.option("-o", "--output", required=True, type=click.Path(), help="Model document to write (*.model.json).")
-def command(data_path, outcome, features, exclude, categorical, weights_column, pairs_text, max_pairs, bags, seed,
-            learning_rate, min_leaf, max_bins, name, event, horizon, population, labels, units, decimals, score_at,
+def command(data_path, outcome, features, exclude, categorical, weights_column, pairs_text, max_pairs, pair_min_gain,
+            repeats_text, seed, learning_rate, held_out_text, shrinkage_text, min_leaf, bins, name, event, horizon, population, labels, units, decimals, score_at,
             completed, orders, invented, jobs, output):
     """Fit an additive risk model to DATA.csv and write it as a model document.
 
     \b
     The method (see docs/fitting.md): every feature gets a shape curve, grown by cyclic gradient boosting
-    of tiny trees with a low learning rate and early stopping; this is repeated on --bags different
-    held-out splits and averaged (the spread between bags is stored as each shape's band); pairs of
-    features are ranked by the FAST interaction test and the strongest are added as purified grids; every
-    term is centred to population mean zero.
+    of tiny trees with a low learning rate and early stopping; this is repeated on --repeats different
+    held-out splits and averaged (the spread between repeats is stored as each shape's band); pairs of
+    features are ranked by the FAST interaction test and those that pass a held-out test and gain enough
+    are added as purified grids; every term is centred to population mean zero. The defaults were chosen
+    by a study (docs/fitting.md); 'auto' settings follow the number of patients.
 
     \b
     Cells: numbers with a decimal point, 0/1 or yes/no flags, or text categories. Empty cells (or NA,
@@ -116,6 +144,9 @@ def command(data_path, outcome, features, exclude, categorical, weights_column, 
     """
     out = output_path(output, data_path)
     pairs = _pairs_option(pairs_text)  # before reading: a typo in an option should not wait for the data
+    repeats = _auto_or_number("--repeats", repeats_text, int, 1, 1000, "a whole number from 1 to 1000")
+    held_out_share = _auto_or_number("--held-out-share", held_out_text, float, 0, 1, "a share from 0 to below 1", high_open=True)
+    shrinkage = _auto_or_number("--shrinkage", shrinkage_text, float, 0, 1e6, "a number of 0 or more")
     frame = read_table(data_path, "patient data")
     source = str(data_path)
     columns = list(frame.columns)
@@ -173,8 +204,8 @@ def command(data_path, outcome, features, exclude, categorical, weights_column, 
 
     table = pd.DataFrame({c: pd.Series(v, dtype=object if v.dtype == object else float) for c, v in data.items()})
     estimator = AdditiveRiskClassifier(
-        learning_rate=learning_rate, bags=bags, pairs=pairs, max_pairs=max_pairs, max_bins=max_bins,
-        min_samples_leaf=min_leaf, categorical_features=[c for c in kept if kinds[c] == "categorical"],
+        learning_rate=learning_rate, repeats=repeats, held_out_share=held_out_share, shrinkage=shrinkage, pairs=pairs,
+        max_pairs=max_pairs, pair_min_gain=pair_min_gain, bins=bins, min_leaf_patients=min_leaf, categorical_features=[c for c in kept if kinds[c] == "categorical"],
         n_jobs=jobs, random_state=seed, verbose=1,
     )
     try:
@@ -207,3 +238,6 @@ def command(data_path, outcome, features, exclude, categorical, weights_column, 
     fingerprint = save_model(model, out, protect=(data_path,))
     pairs_kept = [t.name for t in model.terms if t.kind == "pair"]
     say(f"wrote {out}: {len(model.terms) - len(pairs_kept)} shapes, pairs: {', '.join(pairs_kept) or 'none'}; fingerprint {fingerprint[:12]}")
+
+
+command.renamed_options = RENAMED_OPTIONS

@@ -13,7 +13,7 @@ from __future__ import annotations
 import multiprocessing
 import os
 from concurrent.futures import ProcessPoolExecutor
-from dataclasses import dataclass, field
+from dataclasses import dataclass, field, replace
 from typing import Callable
 
 import numpy as np
@@ -56,7 +56,7 @@ def usable_cores() -> int:
 
 def _bag_rows(y, settings: BoostSettings, bag_fraction: float, seed: np.random.SeedSequence):
     rng = np.random.default_rng(seed)
-    fit_rows, held_rows = split_rows(y, settings.validation_fraction, rng)
+    fit_rows, held_rows = split_rows(y, settings.held_out_share, rng)
     if bag_fraction < 1.0 and len(fit_rows) > 0:
         keep = max(int(round(bag_fraction * len(fit_rows))), 1)
         fit_rows = np.sort(fit_rows[rng.permutation(len(fit_rows))[:keep]])
@@ -110,15 +110,21 @@ def _run(function, common: tuple, seeds, n_jobs, progress, what):
                 for i, result in enumerate(stream, start=1):
                     results.append(result)
                     if progress:
-                        progress(f"{what}: bag {i}/{len(seeds)} done, best at round {result['rounds']}")
+                        progress(f"{what}: repeat {i}/{len(seeds)} done, best at round {result['rounds']}")
         finally:
             _SHARED.clear()
         return results
     for i, seed in enumerate(seeds, start=1):
         results.append(function(*common, seed))
         if progress:
-            progress(f"{what}: bag {i}/{len(seeds)} done, best at round {results[-1]['rounds']}")
+            progress(f"{what}: repeat {i}/{len(seeds)} done, best at round {results[-1]['rounds']}")
     return results
+
+
+def _mean_held_loss(bags: list[dict]) -> float:
+    """Mean held-out log-loss of the repeats at their best rounds (inf without held-out rows)."""
+    losses = [b["held_loss"] for b in bags]
+    return float(np.mean(losses)) if losses and np.all(np.isfinite(losses)) else np.inf
 
 
 def logodds_of(intercept, mains, codes, grids=(), pair_codes=()):
@@ -151,6 +157,9 @@ def fit_additive_terms(
     pairs="auto",
     max_pairs: int = 3,
     alpha: float = 0.01,
+    min_gain: float = 0.0,
+    shrinkage_choices: tuple = (),
+    trial_repeats: int = 8,
     bag_fraction: float = 1.0,
     n_jobs: int | None = None,
     progress: Callable[[str], None] | None = None,
@@ -159,7 +168,24 @@ def fit_additive_terms(
     """Fit every term; see the module doc for the method and its sources."""
     jobs = min(usable_cores() if n_jobs is None or n_jobs < 1 else n_jobs, n_bags)
     seeds = np.random.SeedSequence(seed).spawn(n_bags)
-    stage1 = _run(_stage1_bag, (codes, y, w, n_slots, ordered, settings, bag_fraction), seeds, jobs, progress, "one-feature terms")
+    trials = {}
+    trial_seeds = seeds[: max(1, min(trial_repeats, n_bags))] if len(shrinkage_choices) > 1 else seeds
+    for shrinkage in shrinkage_choices or (settings.l2,):
+        trial = replace(settings, l2=float(shrinkage))
+        bags = _run(_stage1_bag, (codes, y, w, n_slots, ordered, trial, bag_fraction), trial_seeds, jobs, progress,
+                    f"one-feature terms (shrinkage {shrinkage:g})" if shrinkage_choices else "one-feature terms")
+        trials[float(shrinkage)] = (_mean_held_loss(bags), bags)
+    # the shrinkage whose repeats have the lowest mean held-out deviance (the smaller one on a tie); its
+    # trial repeats are kept and the rest of its repeats are fitted now
+    chosen_l2 = min(trials, key=lambda value: (trials[value][0], value))
+    settings = replace(settings, l2=chosen_l2)
+    stage1 = trials[chosen_l2][1]
+    if len(stage1) < n_bags:
+        stage1 = stage1 + _run(_stage1_bag, (codes, y, w, n_slots, ordered, settings, bag_fraction), seeds[len(stage1):],
+                               jobs, progress, "one-feature terms")
+    if progress and shrinkage_choices:
+        progress(f"shrinkage {chosen_l2:g} chosen by held-out deviance: "
+                 + ", ".join(f"{value:g}: {loss:.5f}" for value, (loss, _) in trials.items()))
     slot_weight = [np.bincount(c, weights=w, minlength=n) for c, n in zip(codes, n_slots)]
 
     # stage 2: rank pairs on the residuals of the bag-mean one-feature model
@@ -174,7 +200,7 @@ def fit_additive_terms(
         widths = [int(m.max()) + 1 for m in coarse_maps]
         half = np.random.default_rng(np.random.SeedSequence([seed, 2013])).random(len(y)) < 0.5
         ranking = rank_pairs(coarse, widths, w * (p - y), w * p * (1 - p), w, half, settings.l2, settings.min_leaf)
-        chosen = choose_pairs(ranking, pairs, max_pairs, alpha)
+        chosen = choose_pairs(ranking, pairs, max_pairs, alpha, min_gain)
         if progress:
             label = names or [str(j) for j in range(len(codes))]
             picked = ", ".join(f"{label[s.first]} x {label[s.second]}" for s in chosen) or "none"
@@ -229,6 +255,8 @@ def fit_additive_terms(
         oob_sum[held] += logodds_of(b_intercept, b_mains, held_codes, b_grids, held_pairs)
         oob_n[held] += 1
     report = {
+        "shrinkage": chosen_l2,
+        "shrinkage_held_out_log_loss": {f"{value:g}": float(loss) for value, (loss, _) in trials.items()} if shrinkage_choices else None,
         "rounds_one_feature": [int(b["rounds"]) for b in stage1],
         "rounds_pairs": [int(b["rounds"]) for b in stage2],
         "held_out_log_loss": [float(b["held_loss"]) for b in stage2],

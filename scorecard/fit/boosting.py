@@ -26,14 +26,16 @@ from scorecard.fit.trees import quadrant_step, step_tree
 
 @dataclass(frozen=True)
 class BoostSettings:
-    learning_rate: float = 0.1
-    leaves: int = 3
-    max_rounds: int = 1000
-    patience: int = 15
-    tolerance: float = 1e-3  # a round counts as better only if it lowers the held-out loss by this share
-    l2: float = 1.0
-    min_leaf: float = 5.0
-    validation_fraction: float = 0.15
+    """One repeat's settings (the estimator fills them from `scorecard.fit.defaults`)."""
+
+    learning_rate: float
+    leaves: int
+    max_rounds: int
+    patience: int
+    tolerance: float  # a round counts as better only if it lowers the held-out loss by this share
+    l2: float  # the shrinkage
+    min_leaf: float
+    held_out_share: float
 
 
 def split_rows(y: np.ndarray, fraction: float, rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray]:

@@ -18,55 +18,60 @@ from sklearn.utils.validation import _check_sample_weight, check_is_fitted, colu
 
 from scorecard.fit.bagging import fit_additive_terms, logodds_of, pair_code
 from scorecard.fit.binning import UNSEEN, bin_categorical, bin_numeric, coarse_bins
+from scorecard.fit import defaults
 from scorecard.fit.boosting import BoostSettings
 
 
 class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
     """A generalized additive risk model with a few pairwise terms, fitted by cyclic gradient boosting.
 
-    Parameters
+    Parameters (defaults and why: `scorecard.fit.defaults`; "auto" means chosen from the number of rows)
     ----------
     learning_rate : scale of every boosting step (low, so all shapes grow together).
     leaves_per_step : leaves of the tiny tree each step adds to a one-feature term (2 or 3).
-    max_rounds : most rounds over all features per bag.
-    n_iter_no_change : rounds without improvement on the held-out rows before a bag stops.
-    tol : an improvement counts only if it lowers the held-out log-loss by this share (relative).
-    validation_fraction : share of rows each bag holds out for early stopping.
-    bags : number of bags; terms are bag means, spread bands their standard deviation.
-    bag_fraction : share of the non-held-out rows each bag fits on (1.0 = all of them); "auto" is 1.0 up to
-        20,000 rows and 0.5 above, where half the rows already pin the shapes down and the fit is twice as fast.
-    pairs : "auto" (pairs that pass a held-out interaction test, at most `max_pairs`), or a number of pairs.
+    max_rounds : most rounds over all features per repeat.
+    patience : rounds without a better held-out deviance before a repeat stops.
+    min_improvement : a round counts as better only if it lowers the held-out deviance by this share.
+    held_out_share : share of rows each repeat holds out for early stopping; "auto" by rows.
+    repeats : number of repeat fits, each on its own held-out split; terms are their mean, spread bands
+        their standard deviation; "auto" by rows.
+    repeat_share : share of the non-held-out rows each repeat fits on (1.0 = all of them); "auto" by rows.
+    pairs : "auto" (pairs that pass a held-out interaction test and gain at least `pair_min_gain`, at most
+        `max_pairs`), or a number of pairs.
     max_pairs : cap for "auto".
-    pair_alpha : family-wise significance level of the "auto" test (Bonferroni over all pairs).
-    max_bins : most bins per continuous feature (plus one for "not measured").
+    pair_significance : family-wise significance level of the "auto" test (Bonferroni over all pairs).
+    pair_min_gain : held-out log-likelihood gain per patient (nats) a pair needs for "auto".
+    bins : most bins per continuous feature (plus one for "not measured").
     pair_bins : most bins per feature on a pair grid.
-    min_samples_leaf : fewest patients (sum of weights) in any leaf of any step.
-    l2_regularization : added to every leaf's hessian: shrinks leaves with few patients toward zero.
+    min_leaf_patients : fewest patients (sum of weights) in any leaf of any step.
+    shrinkage : added to every leaf's hessian (L2 on leaf values): shrinks leaves with few patients toward
+        zero; "auto" lets small cohorts choose it by held-out deviance (see `scorecard.fit.defaults`).
     min_level_count : categorical levels seen fewer times are pooled into one shared bin.
     categorical_features : column names or indices to treat as categories (text columns always are).
-    n_jobs : processes for the bags (None: all usable cores). The result does not depend on it.
-    random_state : seed of the bags' splits and the pair test's halves.
-    verbose : 1 prints progress (bags, rounds, pairs) on stderr.
+    n_jobs : processes for the repeats (None: all usable cores). The result does not depend on it.
+    random_state : seed of the repeats' splits and the pair test's halves.
+    verbose : 1 prints progress (repeats, rounds, pairs) on stderr.
     """
 
     def __init__(
         self,
-        learning_rate=0.1,
-        leaves_per_step=3,
-        max_rounds=500,
-        n_iter_no_change=15,
-        tol=1e-3,
-        validation_fraction=0.15,
-        bags=8,
-        bag_fraction="auto",
+        learning_rate=defaults.LEARNING_RATE,
+        leaves_per_step=defaults.LEAVES_PER_STEP,
+        max_rounds=defaults.MAX_ROUNDS,
+        patience=defaults.PATIENCE,
+        min_improvement=defaults.MIN_IMPROVEMENT,
+        held_out_share="auto",
+        repeats="auto",
+        repeat_share="auto",
         pairs="auto",
-        max_pairs=3,
-        pair_alpha=0.01,
-        max_bins=256,
-        pair_bins=32,
-        min_samples_leaf=5,
-        l2_regularization=1.0,
-        min_level_count=10,
+        max_pairs=defaults.MAX_PAIRS,
+        pair_significance=defaults.PAIR_SIGNIFICANCE,
+        pair_min_gain=defaults.PAIR_MIN_GAIN,
+        bins=defaults.BINS,
+        pair_bins=defaults.PAIR_BINS,
+        min_leaf_patients=defaults.MIN_LEAF_PATIENTS,
+        shrinkage="auto",
+        min_level_count=defaults.MIN_LEVEL_COUNT,
         categorical_features=None,
         n_jobs=None,
         random_state=0,
@@ -75,18 +80,19 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
         self.learning_rate = learning_rate
         self.leaves_per_step = leaves_per_step
         self.max_rounds = max_rounds
-        self.n_iter_no_change = n_iter_no_change
-        self.tol = tol
-        self.validation_fraction = validation_fraction
-        self.bags = bags
-        self.bag_fraction = bag_fraction
+        self.patience = patience
+        self.min_improvement = min_improvement
+        self.held_out_share = held_out_share
+        self.repeats = repeats
+        self.repeat_share = repeat_share
         self.pairs = pairs
         self.max_pairs = max_pairs
-        self.pair_alpha = pair_alpha
-        self.max_bins = max_bins
+        self.pair_significance = pair_significance
+        self.pair_min_gain = pair_min_gain
+        self.bins = bins
         self.pair_bins = pair_bins
-        self.min_samples_leaf = min_samples_leaf
-        self.l2_regularization = l2_regularization
+        self.min_leaf_patients = min_leaf_patients
+        self.shrinkage = shrinkage
         self.min_level_count = min_level_count
         self.categorical_features = categorical_features
         self.n_jobs = n_jobs
@@ -136,16 +142,30 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
                 out.append(x)
         return out
 
-    def _settings(self) -> BoostSettings:
+    def resolved_settings(self, rows: int) -> dict:
+        """Every size-dependent setting as this fit uses it on `rows` patients ("auto" replaced by its value;
+        shrinkage stays "auto" where the data will choose it)."""
+        shrinkage = self.shrinkage
+        if shrinkage == "auto":
+            shrinkage = "auto" if rows < defaults.CHOOSE_SHRINKAGE_BELOW else defaults.SHRINKAGE
+        return {
+            "learning_rate": float(self.learning_rate),
+            "held_out_share": defaults.held_out_share_for(rows) if self.held_out_share == "auto" else float(self.held_out_share),
+            "repeats": defaults.repeats_for(rows) if self.repeats == "auto" else int(self.repeats),
+            "repeat_share": defaults.repeat_share_for(rows) if self.repeat_share == "auto" else float(self.repeat_share),
+            "shrinkage": shrinkage if shrinkage == "auto" else float(shrinkage),
+        }
+
+    def _settings(self, resolved: dict) -> BoostSettings:
         return BoostSettings(
-            learning_rate=float(self.learning_rate),
+            learning_rate=resolved["learning_rate"],
             leaves=int(self.leaves_per_step),
             max_rounds=int(self.max_rounds),
-            patience=int(self.n_iter_no_change),
-            l2=float(self.l2_regularization),
-            min_leaf=float(self.min_samples_leaf),
-            validation_fraction=float(self.validation_fraction),
-            tolerance=float(self.tol),
+            patience=int(self.patience),
+            l2=defaults.SHRINKAGE if resolved["shrinkage"] == "auto" else resolved["shrinkage"],
+            min_leaf=float(self.min_leaf_patients),
+            held_out_share=resolved["held_out_share"],
+            tolerance=float(self.min_improvement),
         )
 
     # -- fitting -----------------------------------------------------------------------------------
@@ -170,25 +190,29 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
             if kind == "categorical":
                 self.bins_.append(bin_categorical(name, col, w, int(self.min_level_count)))
             else:
-                self.bins_.append(bin_numeric(name, col, w, int(self.max_bins)))
+                self.bins_.append(bin_numeric(name, col, w, int(self.bins)))
         codes = [b.codes(col) for b, col in zip(self.bins_, columns)]
         counts = [np.bincount(c, weights=w, minlength=b.n_slots) for c, b in zip(codes, self.bins_)]
         coarse = [coarse_bins(b, cnt, int(self.pair_bins)) for b, cnt in zip(self.bins_, counts)]
         self.pair_maps_ = [m for m, _ in coarse]
         self.pair_edges_ = [e for _, e in coarse]
         progress = (lambda msg: print(msg, file=sys.stderr, flush=True)) if self.verbose else None
+        resolved = self.resolved_settings(len(y))
         terms = fit_additive_terms(
             codes, target, w,
             n_slots=[b.n_slots for b in self.bins_],
             ordered=[b.kind != "categorical" for b in self.bins_],
             coarse_maps=self.pair_maps_,
-            settings=self._settings(),
-            n_bags=int(self.bags),
+            settings=self._settings(resolved),
+            shrinkage_choices=defaults.SHRINKAGE_CHOICES if resolved["shrinkage"] == "auto" else (),
+            trial_repeats=defaults.SHRINKAGE_TRIAL_REPEATS,
+            n_bags=resolved["repeats"],
             seed=int(self.random_state or 0),
             pairs=self.pairs,
             max_pairs=int(self.max_pairs),
-            alpha=float(self.pair_alpha),
-            bag_fraction=self._bag_fraction(len(y)),
+            alpha=float(self.pair_significance),
+            min_gain=float(self.pair_min_gain),
+            bag_fraction=resolved["repeat_share"],
             n_jobs=self.n_jobs,
             progress=progress,
             names=self.column_names_,
@@ -201,8 +225,11 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
         self.pair_scores_ = terms.pair_grids
         self.pair_spread_ = terms.pair_spread
         self.pair_weight_ = terms.pair_weight
-        self.pair_ranking_ = [(self.column_names_[s.first], self.column_names_[s.second], s.gain, s.p_value) for s in terms.ranking]
+        self.pair_ranking_ = [(self.column_names_[s.first], self.column_names_[s.second], s.gain, s.p_value, s.held_out_gain)
+                              for s in terms.ranking]
         self.fit_report_ = {k: v for k, v in terms.report.items() if not k.startswith("oob")}
+        resolved["shrinkage"] = terms.report["shrinkage"]
+        self.settings_used_ = resolved
         self.fit_report_["rows"] = int(len(y))
         self.fit_report_["events"] = float(np.sum(w * target))
         oob = terms.report["oob_rows"]
@@ -222,11 +249,6 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
         self.data_fingerprint_ = _fingerprint(self.column_names_, columns, target, w)
         return self
 
-    def _bag_fraction(self, rows: int) -> float:
-        if self.bag_fraction == "auto":
-            return 1.0 if rows <= 20_000 else 0.5
-        return float(self.bag_fraction)
-
     def _check_params(self) -> None:
         if not (isinstance(self.pairs, (int, np.integer)) and self.pairs >= 0) and self.pairs != "auto":
             raise ValueError(f"pairs must be 'auto' or a non-negative integer, got {self.pairs!r}")
@@ -234,14 +256,15 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
             raise ValueError(f"leaves_per_step must be 2 or 3, got {self.leaves_per_step!r}")
         if not 0 < self.learning_rate <= 1:
             raise ValueError(f"learning_rate must be in (0, 1], got {self.learning_rate!r}")
-        if int(self.bags) < 1:
-            raise ValueError(f"bags must be at least 1, got {self.bags!r}")
-        if not 0 <= self.validation_fraction < 1:
-            raise ValueError(f"validation_fraction must be in [0, 1), got {self.validation_fraction!r}")
-        if self.bag_fraction != "auto" and not (isinstance(self.bag_fraction, (int, float)) and 0 < self.bag_fraction <= 1):
-            raise ValueError(f"bag_fraction must be in (0, 1], got {self.bag_fraction!r}")
-        if int(self.max_bins) < 2 or int(self.pair_bins) < 2:
-            raise ValueError("max_bins and pair_bins must be at least 2")
+        _auto_or_within("held_out_share", self.held_out_share, 0, 1, high_open=True)
+        _auto_or_within("repeat_share", self.repeat_share, 0, 1, low_open=True)
+        _auto_or_within("shrinkage", self.shrinkage, 0, np.inf)
+        if self.repeats != "auto" and not (isinstance(self.repeats, (int, np.integer)) and self.repeats >= 1):
+            raise ValueError(f"repeats must be 'auto' or at least 1, got {self.repeats!r}")
+        if int(self.bins) < 2 or int(self.pair_bins) < 2:
+            raise ValueError("bins and pair_bins must be at least 2")
+        if not self.pair_min_gain >= 0:
+            raise ValueError(f"pair_min_gain must be at least 0, got {self.pair_min_gain!r}")
 
     # -- prediction --------------------------------------------------------------------------------
     def decision_function(self, X) -> np.ndarray:
@@ -279,6 +302,17 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
         tags.input_tags.allow_nan = True
         tags.classifier_tags.multi_class = False
         return tags
+
+
+def _auto_or_within(name: str, value, low: float, high: float, low_open: bool = False, high_open: bool = False) -> None:
+    if value == "auto":
+        return
+    ok = isinstance(value, (int, float, np.integer, np.floating)) and not isinstance(value, bool)
+    if ok:
+        ok = (value > low if low_open else value >= low) and (value < high if high_open else value <= high)
+    if not ok:
+        interval = f"{'(' if low_open else '['}{low}, {high}{')' if high_open else ']'}"
+        raise ValueError(f"{name} must be 'auto' or in {interval}, got {value!r}")
 
 
 def _as_levels(col) -> np.ndarray:

@@ -127,6 +127,7 @@ def model_document(
         "method": METHOD,
         "software": f"scorecard {__version__}",
         "settings": _plain_settings(est.get_params()),
+        "settings_used": _plain_settings(est.settings_used_),
         "data": {
             "fingerprint": est.data_fingerprint_,
             "rows": est.fit_report_["rows"],
@@ -135,11 +136,13 @@ def model_document(
         },
         "validation": {
             k: _finite_or_none(est.fit_report_[k])
-            for k in ("out_of_bag_auc", "out_of_bag_log_loss", "out_of_bag_rows", "held_out_log_loss", "rounds_one_feature", "rounds_pairs")
+            for k in ("out_of_bag_auc", "out_of_bag_log_loss", "out_of_bag_rows", "held_out_log_loss", "rounds_one_feature",
+                      "rounds_pairs", "shrinkage_held_out_log_loss")
             if k in est.fit_report_
         },
         "pair_ranking": [
-            {"pair": f"{a} x {b}", "fast_gain": float(g), "held_out_p": float(p)} for a, b, g, p in est.pair_ranking_[:10]
+            {"pair": f"{a} x {b}", "fast_gain": float(g), "held_out_p": float(p), "held_out_gain": float(d)}
+            for a, b, g, p, d in est.pair_ranking_[:10]
         ],
     }
     record.update(provenance or {})

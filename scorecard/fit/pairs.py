@@ -10,7 +10,9 @@ judged on the other half by the interaction contrast of its four cells, delta = 
 t = -G/H the Newton value of each cell; delta^2 / sum(1/H) is the one-degree-of-freedom score statistic for
 interaction in a 2x2 table (common practice for logistic models). Doing this both ways (cross-fitting) and
 adding the two independent statistics gives a chi-square with 2 df under no interaction. A pair is kept
-when its p-value is below `alpha` / (number of pairs ranked), Bonferroni's correction.
+when its p-value is below `alpha` / (number of pairs ranked), Bonferroni's correction, and its effect is large
+enough to matter: the score statistic is about twice the log-likelihood gain of the judged contrast, so
+statistic / (2 x patients) is the pair's held-out gain in nats per patient, which must reach `min_gain`.
 """
 
 from __future__ import annotations
@@ -30,6 +32,7 @@ class PairScore:
     gain: float  # FAST gain on all rows
     statistic: float  # cross-fitted held-out interaction statistic (2 df)
     p_value: float
+    held_out_gain: float  # statistic / (2 x patients): held-out log-likelihood gain, nats per patient
 
 
 def pair_histograms(row_code, col_code, shape, values):
@@ -93,6 +96,7 @@ def rank_pairs(
     multiplying every weight by a constant or by an arbitrary column cannot manufacture significance."""
     scores = []
     effective = float(np.sum(w) / np.sum(w * w)) if np.sum(w * w) > 0 else 1.0
+    total = float(np.sum(w))
     p = len(coarse_codes)
     other = ~half
     codes_a = [c[half] for c in coarse_codes]
@@ -116,16 +120,19 @@ def rank_pairs(
                 _, a, b = best_quadrant_cut(*chooser, l2, min_leaf)
                 if a >= 0:
                     statistic += interaction_statistic(judge[0], judge[1], a, b)
+            held_out_gain = statistic / (2.0 * total) if total > 0 else 0.0
             statistic *= effective
-            scores.append(PairScore(j, k, gain, statistic, float(chi2.sf(statistic, 2))))
+            scores.append(PairScore(j, k, gain, statistic, float(chi2.sf(statistic, 2)), held_out_gain))
     scores.sort(key=lambda s: (-s.gain, s.first, s.second))
     return scores
 
 
-def choose_pairs(ranking: list[PairScore], pairs, max_pairs: int, alpha: float) -> list[PairScore]:
-    """`pairs` = an integer (take the top N) or "auto" (those passing the Bonferroni-corrected held-out
-    test, in FAST order, at most `max_pairs`)."""
+def choose_pairs(ranking: list[PairScore], pairs, max_pairs: int, alpha: float, min_gain: float = 0.0) -> list[PairScore]:
+    """`pairs` = an integer (take the top N) or "auto": those passing the Bonferroni-corrected held-out
+    test whose held-out gain is at least `min_gain` nats per patient (a pair can be real and still too small
+    to matter on a sheet, which at large n the test alone cannot tell), in FAST order, at most `max_pairs`."""
     if pairs == "auto":
         bound = alpha / max(len(ranking), 1)
-        return [s for s in ranking if s.p_value < bound and s.gain > 0][:max_pairs]
+        kept = [s for s in ranking if s.p_value < bound and s.gain > 0 and s.held_out_gain >= min_gain]
+        return kept[:max_pairs]
     return [s for s in ranking if s.gain > 0][: int(pairs)]

@@ -1,6 +1,6 @@
 """Quality and speed of `scorecard fit` against scikit-learn in the same run (prints figures, asserts nothing).
 
-    /work/venv/bin/python tests/benchmarks/bench_fit.py [--rows 100000] [--bags 8] [--skip-breast-cancer]
+    /work/venv/bin/python tests/benchmarks/bench_fit.py [--rows 100000] [--repeats auto] [--skip-breast-cancer]
 
 Figures (issue 3):
 - demo cohort (invented, with the age x cognition pair), 80/20 split: test AUC of our model, of
@@ -74,7 +74,7 @@ def demo_figures(rows: int, bags: int, seed: int) -> dict:
     X_train, y_train = train[FEATURES], train[OUTCOME].to_numpy()
     X_test, y_test = test[FEATURES], test[OUTCOME].to_numpy()
 
-    ours = AdditiveRiskClassifier(bags=bags, pairs="auto", random_state=seed)
+    ours = AdditiveRiskClassifier(repeats=bags, pairs="auto", random_state=seed)
     _, t_ours = timed(lambda: ours.fit(X_train, y_train))
     cpu_ours = CPU_SECONDS[-1]
     auc_ours = roc_auc_score(y_test, ours.decision_function(X_test))
@@ -96,7 +96,7 @@ def demo_figures(rows: int, bags: int, seed: int) -> dict:
     _, t_lr = timed(lambda: lr.fit(X_train, y_train))
     auc_lr = roc_auc_score(y_test, lr.predict_proba(X_test)[:, 1])
 
-    ranking = [f"{a} x {b}" for a, b, _, _ in ours.pair_ranking_]
+    ranking = [f"{a} x {b}" for a, b, *_ in ours.pair_ranking_]
     pair_rank = ranking.index(PAIR_TERM) + 1 if PAIR_TERM in ranking else None
     model = ours.to_model(name="benchmark", event="delirium within 5 days", horizon="5 days", population="demo")
     parts, _ = contributions(model, X_test.reset_index(drop=True))
@@ -125,7 +125,7 @@ def demo_figures(rows: int, bags: int, seed: int) -> dict:
 def additive_cohort_pairs(rows: int, bags: int, seed: int) -> dict:
     frame = generate_cohort(rows, seed=seed + 1, interaction=False)
     cut = int(0.8 * rows)
-    ours = AdditiveRiskClassifier(bags=bags, pairs="auto", random_state=seed)
+    ours = AdditiveRiskClassifier(repeats=bags, pairs="auto", random_state=seed)
     _, seconds = timed(lambda: ours.fit(frame[FEATURES].iloc[:cut], frame[OUTCOME].iloc[:cut]))
     top = ours.pair_ranking_[0] if ours.pair_ranking_ else None
     return {"pairs_fitted": len(ours.pairs_), "fit_seconds": seconds, "top_pair": top and f"{top[0]} x {top[1]} (p={top[3]:.3g})"}
@@ -135,7 +135,7 @@ def breast_cancer_figures(bags: int) -> dict:
     # scikit-learn's bundled Wisconsin diagnostic breast-cancer data (569 patients, 30 measurements)
     X, y = load_breast_cancer(return_X_y=True, as_frame=True)
     folds = StratifiedKFold(n_splits=5, shuffle=True, random_state=0)
-    ours, t_ours = timed(lambda: cross_val_score(AdditiveRiskClassifier(bags=bags), X, y, cv=folds, scoring="roc_auc"))
+    ours, t_ours = timed(lambda: cross_val_score(AdditiveRiskClassifier(repeats=bags), X, y, cv=folds, scoring="roc_auc"))
     lr, _ = timed(lambda: cross_val_score(make_pipeline(StandardScaler(), LogisticRegression(max_iter=5000)), X, y, cv=folds, scoring="roc_auc"))
     hgb, _ = timed(lambda: cross_val_score(HistGradientBoostingClassifier(), X, y, cv=folds, scoring="roc_auc"))
     best = max(lr.mean(), hgb.mean())
@@ -151,7 +151,7 @@ def breast_cancer_figures(bags: int) -> dict:
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
     parser.add_argument("--rows", type=int, default=100_000)
-    parser.add_argument("--bags", type=int, default=8)
+    parser.add_argument("--repeats", dest="bags", type=lambda t: t if t == "auto" else int(t), default="auto")
     parser.add_argument("--seed", type=int, default=0)
     parser.add_argument("--skip-additive", action="store_true")
     parser.add_argument("--skip-breast-cancer", action="store_true")
@@ -159,7 +159,7 @@ def main() -> None:
 
     demo = demo_figures(args.rows, args.bags, args.seed)
     auc = demo["auc"]
-    print(f"demo cohort, {demo['rows']} rows (80/20 split), {args.bags} bags")
+    print(f"demo cohort, {demo['rows']} rows (80/20 split), {args.bags} repeats")
     for key in ("ours", "hist_gradient_boosting", "logistic_regression"):
         print(f"  {key:24s} test AUC {auc[key]:.4f}   fit {demo['fit_seconds'][key]:7.2f} s")
     print(f"  AUC ours - HGB: {auc['ours'] - auc['hist_gradient_boosting']:+.4f} (target >= -0.003); "
@@ -169,7 +169,7 @@ def main() -> None:
           f"(ratio {demo['cpu_seconds']['ours'] / demo['cpu_seconds']['hist_gradient_boosting']:.2f}; both use the 2 cores)")
     print(f"  machine load average while measuring: {os.getloadavg()[0]:.2f} on {os.cpu_count()} cores")
     print(f"  true pair {PAIR_TERM!r} rank: {demo['true_pair_rank']} (target 1); top: {demo['top_pairs']}; fitted: {demo['pairs_fitted']}")
-    print(f"  rounds per bag (one-feature terms): {demo['rounds_one_feature']}")
+    print(f"  rounds per repeat (one-feature terms): {demo['rounds_one_feature']}")
     print("  shape correlation with the true shape (density-weighted, target >= 0.95):")
     for name, r in demo["shape_correlation"].items():
         print(f"    {name:20s} {'flat true term' if r is None else f'{r:.4f}'}")

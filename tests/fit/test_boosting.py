@@ -20,8 +20,8 @@ def test_boosting_converges_to_the_maximum_likelihood_additive_logistic_model():
     y = (rng.random(n) < 1 / (1 + np.exp(-logit))).astype(int)
     X = pd.DataFrame({"a": a, "b": b, "flag": flag})
     est = AdditiveRiskClassifier(
-        bags=1, n_jobs=1, validation_fraction=0.0, learning_rate=0.5, max_rounds=400, min_samples_leaf=1,
-        l2_regularization=1e-9, min_level_count=1, pairs=0,
+        repeats=1, n_jobs=1, held_out_share=0.0, learning_rate=0.5, max_rounds=400, min_leaf_patients=1,
+        shrinkage=1e-9, min_level_count=1, pairs=0,
     ).fit(X, y)
     design = pd.get_dummies(X[["a", "b"]], drop_first=True).astype(float)
     design["flag"] = flag

@@ -12,7 +12,7 @@ from sklearn.utils.estimator_checks import parametrize_with_checks
 
 from scorecard.fit import AdditiveRiskClassifier
 
-SMALL = AdditiveRiskClassifier(bags=2, n_jobs=1, max_rounds=40, n_iter_no_change=5)
+SMALL = AdditiveRiskClassifier(repeats=2, n_jobs=1, max_rounds=40, patience=5, shrinkage=1.0)
 
 # Checks that cannot hold for this model, with the reason (scikit-learn's own mechanism for such cases).
 EXPECTED_FAILURES = {
@@ -29,11 +29,11 @@ def test_scikit_learn_estimator_checks(estimator, check):
 
 
 def test_params_round_trip_and_clone():
-    est = AdditiveRiskClassifier(bags=3, pairs=2, learning_rate=0.1)
+    est = AdditiveRiskClassifier(repeats=3, pairs=2, learning_rate=0.1)
     params = est.get_params()
-    assert params["bags"] == 3 and params["pairs"] == 2
-    est.set_params(bags=5, pairs="auto")
-    assert clone(est).get_params()["bags"] == 5
+    assert params["repeats"] == 3 and params["pairs"] == 2
+    est.set_params(repeats=5, pairs="auto")
+    assert clone(est).get_params()["repeats"] == 5
 
 
 def test_small_cohort_auc_against_scikit_learn_on_breast_cancer():
@@ -41,7 +41,7 @@ def test_small_cohort_auc_against_scikit_learn_on_breast_cancer():
     # LogisticRegression on standardised features in the same folds. Pipeline + cross_val_score must work.
     X, y = load_breast_cancer(return_X_y=True)
     folds = StratifiedKFold(n_splits=3, shuffle=True, random_state=0)
-    ours = cross_val_score(make_pipeline(StandardScaler(), AdditiveRiskClassifier(bags=4, n_jobs=1)), X, y, cv=folds, scoring="roc_auc")
+    ours = cross_val_score(make_pipeline(StandardScaler(), AdditiveRiskClassifier(repeats=4, n_jobs=1)), X, y, cv=folds, scoring="roc_auc")
     reference = cross_val_score(make_pipeline(StandardScaler(), LogisticRegression(max_iter=5000)), X, y, cv=folds, scoring="roc_auc")
     assert ours.mean() >= reference.mean() - 0.02, (ours.mean(), reference.mean())
 
@@ -50,7 +50,7 @@ def test_string_labels_and_bad_parameters():
     rng = np.random.default_rng(0)
     X = rng.normal(size=(300, 2))
     y = np.where(X[:, 0] + rng.normal(size=300) > 0, "event", "none")
-    est = AdditiveRiskClassifier(bags=1, n_jobs=1).fit(X, y)
+    est = AdditiveRiskClassifier(repeats=1, n_jobs=1).fit(X, y)
     assert set(est.predict(X)) <= {"event", "none"} and list(est.classes_) == ["event", "none"]
     with pytest.raises(ValueError, match="pairs"):
         AdditiveRiskClassifier(pairs="many").fit(X, y)

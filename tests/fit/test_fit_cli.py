@@ -12,7 +12,7 @@ from scorecard.demo import cohort_csv_text, generate_cohort
 from scorecard.model import load_model, predict_logodds
 from scorecard.tabular import read_csv
 
-QUICK = ["--bags", "2", "--jobs", "1", "--learning-rate", "0.1"]
+QUICK = ["--repeats", "2", "--jobs", "1", "--learning-rate", "0.1", "--shrinkage", "10"]
 
 
 def run(*args):
@@ -43,7 +43,7 @@ def test_fit_writes_a_model_that_scores_the_cohort(cohort, tmp_path):
                  "--decimals", "temperature=1", "--label", "age=Age", "--horizon", "5 days after surgery",
                  "--event", "delirium", "-o", out, *QUICK)
     assert result.exit_code == 0, result.output
-    assert "bag 2/2" in result.stderr and "wrote" in result.stderr
+    assert "repeat 2/2" in result.stderr and "wrote" in result.stderr
     model = load_model(out)
     assert model.feature("sodium").unit == "mmol/L" and model.feature("age").label == "Age"
     assert model.feature("temperature").decimals == 1

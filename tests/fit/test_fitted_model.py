@@ -70,7 +70,7 @@ def test_document_records_ranges_spread_and_provenance(pair_fit, pair_cohort):
     distinct = np.unique(pair_cohort["age"])
     assert np.allclose(edges, (distinct[:-1] + distinct[1:]) / 2)  # midpoints of adjacent training values
     prov = model.provenance
-    assert prov["settings"]["bags"] == 2 and len(prov["data"]["fingerprint"]) == 64
+    assert prov["settings"]["repeats"] == 2 and len(prov["data"]["fingerprint"]) == 64
     assert 0.7 < prov["validation"]["out_of_bag_auc"] < 0.95
 
 
@@ -90,7 +90,7 @@ def test_sample_weights_act_like_repeated_rows():
     X, y = cohort[FEATURES], cohort[OUTCOME].to_numpy()
     twice = np.r_[np.arange(600), np.arange(600)]
     weights = np.r_[np.full(600, 2.0), np.zeros(600)]
-    settings = dict(bags=1, n_jobs=1, validation_fraction=0.0, max_rounds=60, pairs=0, min_samples_leaf=1)
+    settings = dict(repeats=1, n_jobs=1, held_out_share=0.0, max_rounds=60, pairs=0, min_leaf_patients=1)
     weighted = AdditiveRiskClassifier(**settings).fit(X, y, sample_weight=weights)
     repeated = AdditiveRiskClassifier(**settings).fit(X.iloc[twice], y[twice])
     assert np.allclose(weighted.decision_function(X), repeated.decision_function(X), atol=1e-8)
