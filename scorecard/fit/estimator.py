@@ -145,12 +145,13 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
     def resolved_settings(self, rows: int) -> dict:
         """Every size-dependent setting as this fit uses it on `rows` patients ("auto" replaced by its value;
         shrinkage stays "auto" where the data will choose it)."""
+        held_out_share = defaults.held_out_share_for(rows) if self.held_out_share == "auto" else float(self.held_out_share)
         shrinkage = self.shrinkage
-        if shrinkage == "auto":
-            shrinkage = "auto" if rows < defaults.CHOOSE_SHRINKAGE_BELOW else defaults.SHRINKAGE
+        if shrinkage == "auto":  # without held-out rows there is no deviance to choose by
+            shrinkage = "auto" if rows < defaults.CHOOSE_SHRINKAGE_BELOW and held_out_share > 0 else defaults.SHRINKAGE
         return {
             "learning_rate": float(self.learning_rate),
-            "held_out_share": defaults.held_out_share_for(rows) if self.held_out_share == "auto" else float(self.held_out_share),
+            "held_out_share": held_out_share,
             "repeats": defaults.repeats_for(rows) if self.repeats == "auto" else int(self.repeats),
             "repeat_share": defaults.repeat_share_for(rows) if self.repeat_share == "auto" else float(self.repeat_share),
             "shrinkage": shrinkage if shrinkage == "auto" else float(shrinkage),
