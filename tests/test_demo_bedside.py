@@ -111,13 +111,13 @@ def test_levels_in_clinical_order_other_explained_and_left_off_terms_with_their_
             assert all(word in text for word in term["single_row_note"].split())
 
 
-def test_a_left_off_pair_is_named_as_the_combined_effect_of_its_two_features():
+def test_a_left_off_pair_is_named_in_words_as_the_combined_effect_of_its_two_features():
     from types import SimpleNamespace
 
     from scorecard.quantize.quantizer import _term_label
 
     pair = SimpleNamespace(features=[SimpleNamespace(label="Age"), SimpleNamespace(label="Cognitive screen")])
-    assert _term_label(pair) == "the combined effect of Age and Cognitive screen, beyond each alone"
+    assert _term_label(pair) == "Age with cognitive screen (their combined effect beyond each alone)"
 
 
 def test_large_print_keeps_the_total_box_and_the_conversion_table_together(demo, tmp_path):
