@@ -117,7 +117,7 @@ def test_a_left_off_pair_is_named_in_words_as_the_combined_effect_of_its_two_fea
     from scorecard.quantize.quantizer import _term_label
 
     pair = SimpleNamespace(features=[SimpleNamespace(label="Age"), SimpleNamespace(label="Cognitive screen")])
-    assert _term_label(pair) == "Age with cognitive screen (their combined effect beyond each alone)"
+    assert _term_label(pair) == "Age with cognitive screen, their combined effect beyond each alone"
 
 
 def test_large_print_keeps_the_total_box_and_the_conversion_table_together(demo, tmp_path):
@@ -132,3 +132,13 @@ def test_large_print_keeps_the_total_box_and_the_conversion_table_together(demo,
     # the same page, or facing pages of a bound copy (an even left page and the odd right page after it)
     assert table[0] == box[0] or (box[0] % 2 == 0 and table[0] == box[0] + 1)
     assert min(t for t in texts if "Nomogram" in t)  # the nomogram still follows
+
+
+@pytest.mark.parametrize("name", ["sheet.pdf", "review.pdf", "check-report.pdf"])
+def test_the_pair_is_named_in_words_on_every_demo_pdf_and_in_the_messages(demo, name):
+    # issue 13: "Age with cognitive screen score (0–10)", never the JSON name "age x cognition"
+    out, output = demo
+    text = " ".join(" ".join(_page_texts(out / name)).split())
+    assert "Age with cognitive screen score (0–10)" in text
+    assert "age x cognition" not in text and "Age × " not in text
+    assert "Age with cognitive screen score (0–10)" in output and "dropped age x cognition" not in output

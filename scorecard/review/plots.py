@@ -245,7 +245,8 @@ def _effect_note(effect: TermEffect, shown: TermPreview | None) -> str:
         return "Effect: " + spread
     if shown.left_off:
         return f"Effect on the sheet: left off the default sheet ({shown.left_off}); " + spread
-    return f"Effect on the sheet: {shown.points_range} points from its lowest to its highest row on the default sheet; " + spread
+    plural = "" if shown.points_range == 1 else "s"
+    return f"Effect on the sheet: {shown.points_range} point{plural} from its lowest to its highest row on the default sheet; " + spread
 
 
 def _title(feature) -> str:

@@ -153,7 +153,7 @@ def pair_name(labels) -> str:
 
 def pair_effect_name(labels) -> str:
     """A left-off pair, named so it never reads as if its features were left off."""
-    return f"{pair_name(labels)} (their combined effect beyond each alone)"
+    return f"{pair_name(labels)}, their combined effect beyond each alone"
 
 
 def term_label(model, term) -> str:

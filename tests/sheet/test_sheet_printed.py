@@ -121,7 +121,7 @@ def test_a_pair_is_named_in_words(labels, name):
     from scorecard.sheet.printed import pair_effect_name, pair_name
 
     assert pair_name(labels) == name
-    assert pair_effect_name(labels).startswith(name + " (") and " x " not in pair_name(labels)
+    assert pair_effect_name(labels).startswith(name + ", ") and " x " not in pair_name(labels)
 
 
 def test_model_terms_are_named_by_their_labels(tmp_path):
