@@ -220,6 +220,9 @@ def test_pair_steps_follow_the_sheet_grid_when_the_pair_is_printed(small_model_p
                            bound=Bound(max_auc_loss=0.002, max_percentile_risk_error=0.03, max_total_points=100))
     grid = next((t for t in sheet["terms"] if t["kind"] == "pair"), None)
     assert grid is not None, "the tighter bound should keep the pair"
+    from scorecard.sheet.printed import term_label
+
+    assert grid["label"] == term_label(model, grid["name"]) == "Age with cognitive screen score (0–10)"  # the sheet's heading
     preview = preview_of_sheet(model, cohort_frame, sheet)
     pair = model.term(grid["name"])
     effect = {r.term: r for r in rank_terms(model, cohort_frame, preview)}[pair.name]
