@@ -16,7 +16,7 @@ from sklearn.base import BaseEstimator, ClassifierMixin
 from sklearn.utils.multiclass import check_classification_targets
 from sklearn.utils.validation import _check_sample_weight, check_is_fitted, column_or_1d, validate_data
 
-from scorecard.fit.bagging import fit_additive_terms, logodds_of, pair_code
+from scorecard.fit.bagging import TableInMemory, fit_additive_terms, logodds_of, pair_code
 from scorecard.fit.binning import UNSEEN, bin_categorical, bin_numeric, coarse_bins
 from scorecard.fit.boosting import BoostSettings
 
@@ -178,7 +178,7 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
         self.pair_edges_ = [e for _, e in coarse]
         progress = (lambda msg: print(msg, file=sys.stderr, flush=True)) if self.verbose else None
         terms = fit_additive_terms(
-            codes, target, w,
+            TableInMemory(codes, target, w, self.n_jobs),
             n_slots=[b.n_slots for b in self.bins_],
             ordered=[b.kind != "categorical" for b in self.bins_],
             coarse_maps=self.pair_maps_,
@@ -189,7 +189,6 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
             max_pairs=int(self.max_pairs),
             alpha=float(self.pair_alpha),
             bag_fraction=self._bag_fraction(len(y)),
-            n_jobs=self.n_jobs,
             progress=progress,
             names=self.column_names_,
         )
