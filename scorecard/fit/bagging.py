@@ -18,7 +18,7 @@ from typing import Callable
 
 import numpy as np
 
-from scorecard.fit.boosting import BoostSettings, RowsInMemory, one_feature_terms, pair_terms, split_rows
+from scorecard.fit.boosting import BoostSettings, RowsInMemory, answer_with, one_feature_terms, pair_terms, split_rows
 from scorecard.fit.pairs import PairScore, choose_pairs, pair_histogram_sums, rank_from_histograms
 from scorecard.fit.purify import centre, purify_grid
 
@@ -122,16 +122,22 @@ class TableInMemory:
 
     def run_bags(self, function, common: tuple, bags: list, progress, what) -> list[dict]:
         jobs = min(usable_cores() if self.n_jobs is None or self.n_jobs < 1 else self.n_jobs, len(bags))
-        return _run(function, (self, *common), bags, jobs, progress, what)
+        return _run(_fit_bag, (function, self, *common), bags, jobs, progress, what)
 
 
 def _stage1_bag(table, n_slots, ordered, settings, rows):
-    return one_feature_terms(table.one_feature_source(rows, n_slots), ordered, settings)
+    """One bag's stage 1: its histogram source and the requests that fit it (`boosting.one_feature_terms`)."""
+    return table.one_feature_source(rows, n_slots), one_feature_terms(n_slots, ordered, settings)
 
 
 def _stage2_bag(table, layouts, settings, bag):
     rows, intercept, shapes = bag
-    return pair_terms(table.pair_source(rows, layouts, intercept, shapes), [lay.shape for lay in layouts], settings)
+    return table.pair_source(rows, layouts, intercept, shapes), pair_terms([lay.shape for lay in layouts], settings)
+
+
+def _fit_bag(bag, *arguments):
+    """Open bag `bag` (`_stage1_bag` or `_stage2_bag`) and fit it here, one request at a time."""
+    return answer_with(*bag(*arguments))
 
 
 _SHARED: dict = {}  # the data of the stage being run, inherited by forked workers (never pickled)

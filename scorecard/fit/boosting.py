@@ -15,14 +15,14 @@ plus the tree on the histogram, O(bins). The odds exp(F) are updated multiplicat
 exponential per row.
 
 The loop (`boost_terms`) never touches rows: it asks a histogram source (`RowsInMemory` here, the Dask
-engine's per-partition source in `scorecard/fit/dask_engine.py`) for the sums it needs and tells it each
-step, so the algorithm has one home whatever holds the rows.
+engine's partitions in `scorecard/fit/dask_engine.py`) for the sums it needs and tells it each step, so the
+algorithm has one home whatever holds the rows.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
-from typing import Callable, Protocol
+from typing import Callable, Generator, Protocol
 
 import numpy as np
 
@@ -126,6 +126,9 @@ class HistogramSource(Protocol):
     def held_loss(self) -> float:
         """Weighted mean log-loss on the held-out rows at the current model."""
 
+    def finish(self) -> None:
+        """The loop is done: let go of the per-row state."""
+
 
 class RowsInMemory:
     """A bag's rows held in this process: code columns, outcome and weights of the fitting and held-out rows,
@@ -137,6 +140,7 @@ class RowsInMemory:
         self.n_slots = list(n_slots)
         self.start_fit, self.start_held = start_fit, start_held
         self._w = None if np.all(w_fit == 1.0) else w_fit
+        self._held = len(y_held) > 0 and np.sum(w_held) > 0
         self._work = None
 
     def totals(self):
@@ -163,30 +167,33 @@ class RowsInMemory:
 
     def move(self, j, delta):
         self.odds *= np.exp(delta).take(self.columns_fit[j])
-        if self.has_held():
+        if self._held:
             self.held_f += delta.take(self.columns_held[j])
 
     def has_held(self):
-        return len(self.y_held) > 0 and np.sum(self.w_held) > 0
+        return self._held
 
     def held_loss(self):
         return weighted_log_loss(self.held_f, self.y_held, self.w_held)
+
+    def held_sums(self) -> tuple[float, float]:
+        """The held-out loss as its two sums (`log_loss_sums`), for adding up blocks of rows."""
+        return log_loss_sums(self.held_f, self.y_held, self.w_held)
+
+    def finish(self):
+        self.odds = self.held_f = self._work = None
 
 
 class _BestRound:
     """Early stopping on the held-out rows: keeps a copy of the terms at the round with the lowest held-out
     log-loss, and says when `patience` rounds have passed without lowering it by the `tolerance` share."""
 
-    def __init__(self, source: HistogramSource, terms: list[np.ndarray], settings: BoostSettings):
-        self.source, self.settings = source, settings
-        self.active = source.has_held()
-        self.best = (source.held_loss() if self.active else np.inf, [a.copy() for a in terms], 0)
+    def __init__(self, active: bool, loss: float, terms: list[np.ndarray], settings: BoostSettings):
+        self.active, self.settings = active, settings
+        self.best = (loss if active else np.inf, [a.copy() for a in terms], 0)
         self.since_best = 0
 
-    def stop_after(self, rounds: int, terms: list[np.ndarray]) -> bool:
-        if not self.active:
-            return False
-        loss = self.source.held_loss()
+    def stop_after(self, rounds: int, loss: float, terms: list[np.ndarray]) -> bool:
         if loss < self.best[0] * (1.0 - self.settings.tolerance):
             self.best = (loss, [a.copy() for a in terms], rounds)
             self.since_best = 0
@@ -199,56 +206,76 @@ class _BestRound:
         return self.best if self.active else (np.nan, terms, rounds)
 
 
+# The loop is written as a generator of requests to a histogram source: ("method", *arguments) is answered
+# by `source.method(*arguments)`. `answer_with` answers them one by one; the Dask engine answers many bags'
+# requests in one call per partition. Either way the algorithm below is the only copy.
+Requests = Generator[tuple, object, object]
+
 # A step rule: (column, G, H, fixed weight per slot) -> the Newton value of every slot of the column, or None.
 StepRule = Callable[[int, np.ndarray, np.ndarray, np.ndarray], "np.ndarray | None"]
 
 
+def answer_with(source: HistogramSource, requests: Requests):
+    """Run a request generator against `source` to its end; its return value, the source finished."""
+    answer = None
+    try:
+        while True:
+            try:
+                method, *arguments = requests.send(answer)
+            except StopIteration as done:
+                return done.value
+            answer = getattr(source, method)(*arguments)
+    finally:
+        source.finish()
+
+
 @np.errstate(divide="ignore", invalid="ignore")
-def boost_terms(source: HistogramSource, step: StepRule, columns: list[int], offset: float, settings: BoostSettings):
+def boost_terms(step: StepRule, columns: list[int], n_slots: list[int], offset: float, settings: BoostSettings) -> Requests:
     """The cyclic boosting loop: every round, each of `columns` in turn gets one step fitted to its histogram.
 
     Returns (terms: one array per column of the source, one value per slot; rounds; held-out loss) of the
     best round."""
     s = settings
-    source.start(offset)
-    weights, events = source.fixed_histograms()
-    terms = [np.zeros(n) for n in source.n_slots]
-    stopper = _BestRound(source, terms, s)
+    yield ("start", offset)
+    weights, events = yield ("fixed_histograms",)
+    terms = [np.zeros(n) for n in n_slots]
+    has_held = yield ("has_held",)
+    stopper = _BestRound(has_held, (yield ("held_loss",)) if has_held else np.inf, terms, s)
     rounds = 0
     for rounds in range(1, s.max_rounds + 1):
         moved = False
         for j in columns:
-            P, H = source.gradient_hessian(j)
+            P, H = yield ("gradient_hessian", j)
             values = step(j, P - events[j], H, weights[j])
             if values is None:
                 continue
             delta = s.learning_rate * values
             terms[j] += delta
-            source.move(j, delta)
+            yield ("move", j, delta)
             moved = True
-        if not moved or stopper.stop_after(rounds, terms):
+        if not moved or (has_held and stopper.stop_after(rounds, (yield ("held_loss",)), terms)):
             break
     held_loss, best, best_rounds = stopper.result(rounds, terms)
     return best, best_rounds, held_loss
 
 
-def one_feature_terms(source: HistogramSource, ordered: list[bool], settings: BoostSettings) -> dict:
+def one_feature_terms(n_slots: list[int], ordered: list[bool], settings: BoostSettings) -> Requests:
     """Stage 1 on one bag's source (columns = features' bins): {"intercept", "shapes" (one array per feature,
     one value per slot), "rounds", "held_loss"}. Without held-out rows, all `max_rounds` rounds are run."""
     s = settings
-    weight, events = source.totals()
+    weight, events = yield ("totals",)
     intercept = logodds_of_rate(events, weight)
-    counts, _ = source.fixed_histograms()
+    counts, _ = yield ("fixed_histograms",)
     active = [j for j, c in enumerate(counts) if np.count_nonzero(c) > 1]
 
     def step(j, G, H, C):
         return step_tree(G, H, C, ordered[j], s.leaves, s.l2, s.min_leaf)
 
-    shapes, rounds, held_loss = boost_terms(source, step, active, intercept, s)
+    shapes, rounds, held_loss = yield from boost_terms(step, active, n_slots, intercept, s)
     return {"intercept": intercept, "shapes": shapes, "rounds": rounds, "held_loss": held_loss}
 
 
-def pair_terms(source: HistogramSource, grid_shapes: list[tuple[int, int]], settings: BoostSettings) -> dict:
+def pair_terms(grid_shapes: list[tuple[int, int]], settings: BoostSettings) -> Requests:
     """Stage 2 on one bag's source (columns = pairs' cells, each with one last slot for a patient with either
     feature not measured, which never moves), on top of the source's own starting model (the bag's stage-1
     log-odds). Each step adds the best 2x2 cut of the pair's gradient histogram (the same tree the FAST ranking
@@ -261,7 +288,7 @@ def pair_terms(source: HistogramSource, grid_shapes: list[tuple[int, int]], sett
         values = quadrant_step(G[:n].reshape(shape), H[:n].reshape(shape), C[:n].reshape(shape), s.l2, s.min_leaf)
         return None if values is None else np.append(values.ravel(), 0.0)
 
-    flat, rounds, held_loss = boost_terms(source, step, list(range(len(grid_shapes))), 0.0, s)
+    flat, rounds, held_loss = yield from boost_terms(step, list(range(len(grid_shapes))), [n + 1 for n in sizes], 0.0, s)
     grids = [t[:n].reshape(shape) for t, n, shape in zip(flat, sizes, grid_shapes)]
     return {"grids": grids, "rounds": rounds, "held_loss": held_loss}
 
@@ -269,7 +296,7 @@ def pair_terms(source: HistogramSource, grid_shapes: list[tuple[int, int]], sett
 def boost_one_feature_terms(codes_fit, y_fit, w_fit, codes_held, y_held, w_held, n_slots, ordered, settings) -> dict:
     """Stage 1 on one bag held in memory (see `one_feature_terms`)."""
     source = RowsInMemory(codes_fit, y_fit, w_fit, codes_held, y_held, w_held, n_slots)
-    return one_feature_terms(source, ordered, settings)
+    return answer_with(source, one_feature_terms(n_slots, ordered, settings))
 
 
 def boost_pair_terms(pair_codes_fit, start_fit, y_fit, w_fit, pair_codes_held, start_held, y_held, w_held,
@@ -278,4 +305,4 @@ def boost_pair_terms(pair_codes_fit, start_fit, y_fit, w_fit, pair_codes_held, s
     n_rows * n_columns for a patient with either feature not measured (see `pair_terms`)."""
     slots = [a * b + 1 for a, b in grid_shapes]
     source = RowsInMemory(pair_codes_fit, y_fit, w_fit, pair_codes_held, y_held, w_held, slots, start_fit, start_held)
-    return pair_terms(source, grid_shapes, settings)
+    return answer_with(source, pair_terms(grid_shapes, settings))
