@@ -64,10 +64,12 @@ def _dask_engine(scheduler: str | None, workers: int):
     try:
         return DaskEngine(scheduler=scheduler, workers=workers, timeout=10)
     except (OSError, ValueError, TypeError) as exc:  # refused, timed out, or not an address
-        where = f"the Dask scheduler at {scheduler!r}" if scheduler else "a local Dask cluster"
         detail = " ".join(str(exc).split())[:160]
-        raise UserError(f"--scheduler: cannot reach {where} ({detail}); give a running scheduler's address "
-                        "such as tcp://host:8786, or leave --scheduler out to start a local cluster") from None
+        if not scheduler:
+            raise UserError(f"--engine dask: cannot start a local Dask cluster ({detail}); give --scheduler ADDRESS "
+                            "of a running one, or fit in memory without --engine") from None
+        raise UserError(f"--scheduler: cannot reach the Dask scheduler at {scheduler!r} ({detail}); give a running "
+                        "scheduler's address such as tcp://host:8786, or leave --scheduler out to start a local cluster") from None
 
 
 @click.command()
