@@ -17,7 +17,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from scorecard.audit.paper import ScoredCohort, band_index, conversion_arrays
+from scorecard.audit.paper import ScoredCohort, conversion_arrays, total_band_index
 
 
 def _row_neighbours(term: dict, n_choices: int) -> list[list[int]]:
@@ -64,7 +64,7 @@ def slip_figures(sheet: dict, scored: ScoredCohort) -> dict:
     has_bands = bool(sheet.get("bands"))
     n = scored.n
     right_risk = risk[scored.total - first]
-    right_band = band_index(sheet, right_risk) if has_bands else None
+    right_band = total_band_index(sheet, scored.total) if has_bands else None
 
     def risk_at(totals: np.ndarray) -> np.ndarray:
         return risk[np.clip(totals, first, last) - first]
@@ -85,7 +85,7 @@ def slip_figures(sheet: dict, scored: ScoredCohort) -> dict:
             e = risk_at(slipped) - right_risk[hit]
             errors.append(e)
             if has_bands:
-                moved[np.flatnonzero(hit)[band_index(sheet, risk_at(slipped)) != right_band[hit]]] = True
+                moved[np.flatnonzero(hit)[total_band_index(sheet, slipped) != right_band[hit]]] = True
         e = np.concatenate(errors) if errors else np.empty(0)
         per_term.append({"term": choices.name, "label": choices.label, **_summary(e, moved, int(measured.sum()))})
         all_errors.append(e)
@@ -97,7 +97,7 @@ def slip_figures(sheet: dict, scored: ScoredCohort) -> dict:
         e = risk_at(scored.total[hit] + step) - right_risk[hit]
         off_errors.append(e)
         if has_bands:
-            off_moved[np.flatnonzero(hit)[band_index(sheet, risk_at(scored.total[hit] + step)) != right_band[hit]]] = True
+            off_moved[np.flatnonzero(hit)[total_band_index(sheet, scored.total[hit] + step) != right_band[hit]]] = True
     return {
         "what": "risk error (risk of the slipped total - risk of the right total) for one slip at a time",
         "neighbour_row": {"per_term": per_term, "overall": overall},

@@ -258,5 +258,51 @@ def band_of(bands: list[dict], risk: float) -> int:
     return int(band_indices(bands, [risk])[0])
 
 
+def total_band_indices(sheet: dict, totals) -> np.ndarray:
+    """Band of each total on the sheet, the band a nurse reads: when the bands carry `first_total` (the
+    quantizer's band-edge search, docs/quantization.md), band b holds the totals first_total[b] <= t <
+    first_total[b + 1]; otherwise a total's band is that of its printed risk (`band_indices`). Totals outside
+    the conversion are clipped to its ends. The one rule for the band of a total (quantize, render, audit)."""
+    bands = sheet["bands"]
+    entry_totals = np.array([int(c["total"]) for c in sheet["conversion"]], dtype=np.int64)
+    t = np.clip(np.asarray(totals, dtype=np.int64), entry_totals.min(), entry_totals.max())
+    if by_total(bands):
+        return np.searchsorted(np.array([int(b["first_total"]) for b in bands[1:]], dtype=np.int64), t, side="right")
+    risks = np.array([float(c["risk"]) for c in sheet["conversion"]])
+    order = np.argsort(entry_totals, kind="stable")
+    at = order[np.minimum(np.searchsorted(entry_totals[order], t), len(order) - 1)]
+    return band_indices(bands, risks[at])
+
+
+def by_total(bands: list[dict]) -> bool:
+    """Whether the bands carry the totals where they begin (then a total's band is read from them)."""
+    return bool(bands) and all(b.get("first_total") is not None for b in bands)
+
+
+BAND_EDGE_NOTE = ("A band begins at the total where the exact model most often changes band, so the risk printed at "
+                  "a band's first or last total can lie just past the band's limit.")
+
+
+def band_edge_note(sheet: dict) -> str | None:
+    """The note under the band table when a searched band edge differs from where the printed risk crosses the
+    band's limit (BAND_EDGE_NOTE), else None."""
+    bands = sheet.get("bands") or []
+    if not by_total(bands):
+        return None
+    by_risk = [int(b) for b in band_indices(bands, [float(c["risk"]) for c in sheet["conversion"]])]
+    return BAND_EDGE_NOTE if by_risk != conversion_bands(sheet) else None
+
+
+def conversion_bands(sheet: dict) -> list[int]:
+    """The band of every conversion entry, in order (empty without bands): by its total when the bands carry
+    their first totals, else by its printed risk."""
+    bands = sheet.get("bands") or []
+    if not bands:
+        return []
+    if by_total(bands):
+        return [int(b) for b in total_band_indices(sheet, [c["total"] for c in sheet["conversion"]])]
+    return [int(b) for b in band_indices(bands, [float(c["risk"]) for c in sheet["conversion"]])]
+
+
 def flag_text(value: bool) -> str:
     return "Yes" if value else "No"
