@@ -6,12 +6,14 @@ from __future__ import annotations
 
 import importlib
 import pkgutil
+import sys
 
 import click
 
 from scorecard import __version__
 from scorecard.errors import CheckFailed, UserError
 from scorecard.outputs import force_overwrite
+from scorecard.shutdown import Interrupted, end_workers, handling_signals, interrupted_line, received
 from scorecard.suggest import did_you_mean
 
 # other spellings a user may type: British "quantise" (the help speaks of quantising) for `quantize`
@@ -39,6 +41,19 @@ def _with_force(command: click.Command) -> click.Command:
 
 class PipelineGroup(click.Group):
     """Discovers verb modules lazily and reports user errors as one line with the right exit code."""
+
+    def main(self, *args, **kwargs):
+        """SIGINT/SIGTERM handled from the very start (scorecard.shutdown): one line, exit 130/143."""
+        with handling_signals():
+            try:
+                return super().main(*args, **kwargs)
+            except (Interrupted, Exception) as exc:
+                signum = exc.signum if isinstance(exc, Interrupted) else received()
+                if signum is None:
+                    raise
+                end_workers()
+                click.echo(interrupted_line(signum), err=True)
+                sys.exit(128 + signum)
 
     def _modules(self) -> list[str]:
         import scorecard.commands as pkg

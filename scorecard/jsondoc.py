@@ -29,6 +29,7 @@ import jsonschema
 
 from scorecard.errors import UserError
 from scorecard.outputs import check_target, is_stdout
+from scorecard.shutdown import deferred, raise_if_received, track_temporary, untrack_temporary
 
 
 # 11 significant digits (docs/model-document.md "Canonical numbers"): measured on the demo's true model,
@@ -117,9 +118,12 @@ def atomic_output(path: str | os.PathLike, protect: tuple[str | os.PathLike, ...
     atomic_write_bytes; for `-` the finished file goes to standard output."""
     target = check_target(path, text=text)
     if is_stdout(target):
-        fd, tmp = tempfile.mkstemp(prefix=".scorecard-stdout.", suffix=".tmp")
-        os.close(fd)
+        tmp = None
         try:
+            with deferred():  # SIGINT/SIGTERM wait until the temporary file is inside the block that removes it
+                fd, tmp = tempfile.mkstemp(prefix=".scorecard-stdout.", suffix=".tmp")
+                track_temporary(tmp)
+                os.close(fd)
             yield Path(tmp)
             sys.stdout.flush()
             with open(tmp, "rb") as handle:
@@ -127,7 +131,9 @@ def atomic_output(path: str | os.PathLike, protect: tuple[str | os.PathLike, ...
                     sys.stdout.buffer.write(block)
             sys.stdout.buffer.flush()
         finally:
-            os.unlink(tmp)
+            if tmp is not None:
+                os.unlink(tmp)
+                untrack_temporary(tmp)
         return
     for other in protect:
         try:
@@ -136,22 +142,28 @@ def atomic_output(path: str | os.PathLike, protect: tuple[str | os.PathLike, ...
         except OSError:
             pass
     directory = target.parent if str(target.parent) else Path(".")
+    tmp = None
     try:
-        fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=directory)
-    except OSError as exc:
-        raise UserError(f"{target}: cannot write in folder {directory} ({exc.strerror or exc}); choose another folder") from None
-    try:
+        with deferred():  # SIGINT/SIGTERM wait until the temporary file is inside the block that removes it
+            try:
+                fd, tmp = tempfile.mkstemp(prefix=f".{target.name}.", suffix=".tmp", dir=directory)
+                track_temporary(tmp)
+            except OSError as exc:
+                raise UserError(f"{target}: cannot write in folder {directory} ({exc.strerror or exc}); choose another folder") from None
         # mkstemp makes the file private (0600); give it the permissions a plain open() would
         os.chmod(tmp, 0o666 & ~_current_umask())
         os.close(fd)
         yield Path(tmp)
+        raise_if_received()
         os.replace(tmp, target)
     except BaseException:
-        try:
-            os.unlink(tmp)
-        except FileNotFoundError:
-            pass
+        if tmp is not None:
+            with contextlib.suppress(FileNotFoundError):
+                os.unlink(tmp)
         raise
+    finally:
+        if tmp is not None:
+            untrack_temporary(tmp)
 
 
 def _current_umask() -> int:

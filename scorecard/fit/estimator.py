@@ -14,7 +14,7 @@ import numpy as np
 import pandas as pd
 from sklearn.base import BaseEstimator, ClassifierMixin
 from sklearn.utils.multiclass import check_classification_targets
-from sklearn.utils.validation import _check_sample_weight, check_is_fitted, column_or_1d, validate_data
+from sklearn.utils.validation import check_is_fitted, column_or_1d, validate_data
 
 from scorecard.fit import defaults
 from scorecard.fit.bagging import TableInMemory, fit_additive_terms, logodds_of, pair_code
@@ -185,9 +185,9 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
         if len(self.classes_) != 2:
             raise ValueError(f"Only binary classification is supported: the outcome must have exactly 2 classes; found {len(self.classes_)} class(es): {self.classes_.tolist()[:5]}")
         target = y_index.astype(float)
-        w = _check_sample_weight(sample_weight, columns[0].reshape(-1, 1) if columns[0].dtype != object else np.zeros((len(y), 1)), dtype=float)
+        w = _sample_weights(sample_weight, len(y))
         if np.any(w < 0) or np.sum(w) <= 0:
-            raise ValueError("sample_weight must be non-negative with a positive sum")
+            raise ValueError("sample_weight must be non-negative and not every weight zero")
         if engine is None:
             summaries = [ValueSummary.of(col, w) for col in columns]
             self._learn_bins(summaries)
@@ -326,6 +326,21 @@ def _auto_or_within(name: str, value, low: float, high: float, low_open: bool = 
     if not ok:
         interval = f"{'(' if low_open else '['}{low}, {high}{')' if high_open else ']'}"
         raise ValueError(f"{name} must be 'auto' or in {interval}, got {value!r}")
+
+
+def _sample_weights(sample_weight, n_rows: int) -> np.ndarray:
+    """One finite float weight per row: None is 1 for every row, a number the same for every row (written here:
+    scikit-learn's own helper for this is private)."""
+    if sample_weight is None:
+        return np.ones(n_rows)
+    w = np.asarray(sample_weight, dtype=float)
+    if w.ndim == 0:
+        w = np.full(n_rows, float(w))
+    elif w.ndim != 1 or len(w) != n_rows:
+        raise ValueError(f"sample_weight has shape {w.shape}, expected ({n_rows},)")
+    if not np.all(np.isfinite(w)):
+        raise ValueError("sample_weight contains NaN or infinity")
+    return w
 
 
 def _as_levels(col) -> np.ndarray:
