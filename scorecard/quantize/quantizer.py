@@ -101,7 +101,10 @@ class Bound:
         at = _judged(figs)
         if figs["auc_loss"] > self.max_auc_loss:
             out.append("auc_loss")
-        if at("share_over_risk_error") > self.risk_error_share:
+        # a share bound of 0 (no patient misstated) asks for exactness on the patients seen, which no confidence
+        # limit of a share can certify: it is judged at the share itself
+        share = figs["share_over_risk_error"] if self.risk_error_share == 0 else at("share_over_risk_error")
+        if share > self.risk_error_share:
             out.append("risk_error_share")
         if self.min_band_agreement is not None and figs.get("band_agreement") is not None \
                 and at("band_agreement") < self.min_band_agreement:
@@ -644,7 +647,8 @@ def bound_lines(bound: Bound, figs: dict) -> list[tuple[str, str, bool, str]]:
                 "--max-auc-loss"))
     out.append(("risk_error_share", f"{figs['share_over_risk_error']:.1%}{share_up} of patients misstated by more than "
                 f"{bound.max_risk_error * 100:g} percentage points (bound {bound.risk_error_share:.0%})",
-                at("share_over_risk_error") <= bound.risk_error_share, "--max-risk-error or --risk-error-share"))
+                (figs["share_over_risk_error"] if bound.risk_error_share == 0 else at("share_over_risk_error")) <= bound.risk_error_share,
+                "--max-risk-error or --risk-error-share"))
     return out
 
 
