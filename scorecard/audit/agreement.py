@@ -16,6 +16,7 @@ from scorecard.audit.paper import ScoredCohort, band_index, parse_cohort, score_
 from scorecard.errors import UserError
 from scorecard.model import AdditiveModel, contributions, logistic
 from scorecard.sheet import short_fingerprint
+from scorecard.sheet.printed import term_label
 from scorecard.tabular import flag_column, source_of
 from scorecard.suggest import did_you_mean
 
@@ -133,11 +134,6 @@ def _band_matrix(sheet: dict, model_risk: np.ndarray, scored: ScoredCohort) -> d
             "counts": counts.tolist(), "agreement": float(np.trace(counts) / counts.sum())}
 
 
-def _term_label(model: AdditiveModel, name: str) -> str:
-    """What a reader calls a term left off the sheet: its features' labels, not the column names."""
-    return " × ".join(model.feature(f).label or f for f in model.term(name).feature_names)
-
-
 def _largest(sheet: dict, model: AdditiveModel, scored: ScoredCohort, parts: pd.DataFrame,
              model_risk: np.ndarray, diff: np.ndarray, count: int) -> list[dict]:
     """The patients with the largest |sheet risk - model risk|, with each term's row and how far that row is
@@ -162,7 +158,7 @@ def _largest(sheet: dict, model: AdditiveModel, scored: ScoredCohort, parts: pd.
                           "model_logodds": model_part, "off_by": on_sheet - model_part - centre[t.name]})
         for name in dropped:
             model_part = float(parts[name].iloc[i])
-            terms.append({"term": name, "label": _term_label(model, name), "row": "(not on the sheet)", "points": 0,
+            terms.append({"term": name, "label": term_label(model, name), "row": "(not on the sheet)", "points": 0,
                           "model_logodds": model_part, "off_by": -model_part - centre[name]})
         rows.append({"row": int(i) + 1, "total": int(scored.total[i]), "sheet_risk": float(scored.risk[i]),
                      "sheet_risk_text": str(scored.risk_text[i]), "model_risk": float(model_risk[i]),

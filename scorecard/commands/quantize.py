@@ -318,7 +318,7 @@ def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_shar
     extra = doc["report"]["readability"]["extra_error_share"]
     say(f"readable cut-points cost {extra:+.0%} error before rounding (vs cuts anywhere between model bins)")
     for d in doc["dropped_terms"]:
-        say(f"dropped {d['name']}: {d['reason']}")
+        say(f"dropped {d.get('label') or d['name']}: {d['reason']}")
     slips = doc["report"].get("slips")
     if slips:  # scorecard.audit.slips, as `check` reports it
         row, off = slips["neighbour_row"]["overall"], slips["total_off_by_one"]

@@ -38,6 +38,7 @@ from scorecard.quantize.points import Quadratic, fit_scale_offset, polish_points
 from scorecard.quantize.refit import refit_row_values
 from scorecard.sheet.slips import slip_figures
 from scorecard.sheet import CAUTIONS, ROUNDING_RULE, band_indices, risk_text, total_band_indices
+from scorecard.sheet.printed import pair_effect_name
 
 PLACEHOLDER_WORDING = "Write your unit's agreed action here (local protocol)."
 
@@ -753,7 +754,7 @@ def _term_label(curve) -> str:
     of its two features beyond each alone (so a left-off pair never reads as if the features were left off)."""
     features = getattr(curve, "features", None)
     if features:
-        return f"the combined effect of {features[0].label} and {features[1].label}, beyond each alone"
+        return pair_effect_name([f.label for f in features])
     return curve.feature.label
 
 

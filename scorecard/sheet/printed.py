@@ -136,6 +136,35 @@ OTHER_EXPLAINED = ("Other: a category its table does not list (for example a new
                    "\u2018Other\u2019 row; check the spelling first.")
 
 
+PAIR_JOIN = "with"
+
+
+def pair_name(labels) -> str:
+    """The printed name of a two-feature term, in words: the first feature's label, 'with', the second's
+    begun in lower case ('Age with cognitive screen score (0\u201310)'), unless its first word is an
+    abbreviation or starts in lower case already ('Age with ASA grade', 'Age with pH'). The one naming rule
+    for every page, report and message; the term's JSON name ('age x cognition') stays an identifier."""
+    first, second = (str(label) for label in labels)
+    word = second.split(" ", 1)[0]
+    if word[:1].isupper() and not any(c.isupper() for c in word[1:]):
+        second = second[:1].lower() + second[1:]
+    return f"{first} {PAIR_JOIN} {second}"
+
+
+def pair_effect_name(labels) -> str:
+    """A left-off pair, named so it never reads as if its features were left off."""
+    return f"{pair_name(labels)}, their combined effect beyond each alone"
+
+
+def term_label(model, term) -> str:
+    """What a reader knows a model term by (`model` an AdditiveModel, `term` one of its terms or its name):
+    its feature's label, or `pair_name` of its two features' labels; a feature without a label reads as its
+    column name with '_' as spaces."""
+    term = model.term(term) if isinstance(term, str) else term
+    labels = [model.feature(n).label or n.replace("_", " ") for n in term.feature_names]
+    return pair_name(labels) if len(labels) == 2 else labels[0]
+
+
 def row_label(term: dict, row: dict) -> str:
     """The text printed for a row of a one-feature table: its `text`, and for the single measured row of a
     continuous table the sheet's reason for it in brackets ('any measured value (its effect is under one point)')."""
