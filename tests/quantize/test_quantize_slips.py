@@ -21,7 +21,8 @@ BANDS = [{"name": "low", "upper_risk": 0.15, "wording": "w"}, {"name": "moderate
 def test_quantize_reports_the_slips_check_measures_on_the_same_patients(with_pair):
     model = model_from_dict(small_model_dict(with_pair=with_pair))
     doc = quantize_model(model, bound=Bound(max_auc_loss=0.05, risk_error_share=0.3, max_rows=4, max_total_points=20,
-                                            max_percentile_risk_error=0.15), bands=BANDS, bootstrap=0)
+                                            max_percentile_risk_error=0.15, min_band_agreement=0.8),
+                         bands=BANDS, bootstrap=0)
     frame = synthetic_frame(model, 10000, 1)  # the held-out synthetic draw the sheet's figures are reported on
     audited = slip_figures(doc, score_cohort(doc, frame.astype(str).replace({"nan": "", "None": ""})))
     reported = doc["report"]["slips"]
