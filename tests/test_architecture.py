@@ -39,6 +39,15 @@ def test_the_audit_never_imports_quantize_or_render(path):
                 f"{path.relative_to(ROOT)}:{line} imports {full}: the audit recomputes from the sheet document alone")
 
 
+@pytest.mark.parametrize("path", _modules("quantize"), ids=lambda p: p.name)
+def test_quantize_never_imports_the_audit(path):
+    # the audit is the independent measurement of what quantize made; rules both need live in scorecard.sheet
+    for module, name, line in imports_of(path):
+        full = f"{module}.{name}" if name else module
+        assert not (full == "scorecard.audit" or full.startswith("scorecard.audit.")), (
+            f"{path.relative_to(ROOT)}:{line} imports {full}: put a rule both stages need in scorecard.sheet")
+
+
 @pytest.mark.parametrize("path", _modules("review"), ids=lambda p: p.name)
 def test_the_review_uses_the_quantizer_only_through_its_public_entry(path):
     # the review previews a default sheet (scorecard/review/preview.py) but never decides a row itself

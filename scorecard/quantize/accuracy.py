@@ -16,6 +16,7 @@ sheet's). With these weights:
 from __future__ import annotations
 
 import numpy as np
+from scipy import stats
 from sklearn.metrics import brier_score_loss, roc_auc_score
 
 from scorecard.discrimination import expected_auc
@@ -71,15 +72,55 @@ def band_agreement(bands: list[dict] | None, model_risk: np.ndarray, sheet_risk:
     return float(np.mean(band_indices(bands, model_risk) == on_sheet))
 
 
+CONFIDENCE = 0.95  # one-sided level of the limits a held-out part is judged at
+
+
+def wilson_limit(share: float, n: int, upper: bool) -> float:
+    """One-sided CONFIDENCE Wilson score limit of a share of n patients (Wilson, JASA 1927; equals one end of
+    statsmodels' two-sided `proportion_confint(method="wilson")` at alpha = 2 (1 - CONFIDENCE))."""
+    if n == 0:
+        return share
+    z = float(stats.norm.ppf(CONFIDENCE))
+    centre = (share + z * z / (2 * n)) / (1 + z * z / n)
+    half = z * np.sqrt(share * (1 - share) / n + z * z / (4 * n * n)) / (1 + z * z / n)
+    return float(min(1.0, centre + half) if upper else max(0.0, centre - half))
+
+
+def percentile_upper_limit(values: np.ndarray, percentile: float) -> float:
+    """Distribution-free one-sided CONFIDENCE upper limit of a percentile: the k-th smallest value, k - 1 the
+    CONFIDENCE quantile of Binomial(n, percentile / 100) (the count below the true percentile; order-statistic
+    interval, e.g. Conover, Practical Nonparametric Statistics, 1999, sec. 3.2)."""
+    x = np.sort(np.asarray(values, dtype=float))
+    n = len(x)
+    k = int(stats.binom.ppf(CONFIDENCE, n, percentile / 100)) + 1
+    return float(x[min(k, n) - 1])
+
+
 def quick_figures(model_logodds: np.ndarray, sheet_logodds: np.ndarray, max_risk_error: float, auc_model: float | None = None,
-                  bands: list[dict] | None = None, percentile: float = 95.0, sheet_band: np.ndarray | None = None) -> dict:
+                  bands: list[dict] | None = None, percentile: float = 95.0, sheet_band: np.ndarray | None = None,
+                  limits: bool = False) -> dict:
     """The figures the search judges a sheet by: ΔAUC, the share over the risk bound, the `percentile`-th
     percentile, mean and largest |Δrisk|, and band agreement (None without bands; see `band_agreement`).
+    With `limits` (a held-out part), also their one-sided CONFIDENCE limits the bound is then judged at: the
+    lower limit of band agreement, the upper limits of the percentile and of the share over the risk bound.
     Arrays in, so any caller holding per-patient model and sheet log-odds can reuse it."""
     p = logistic(model_logodds)
     q = logistic(sheet_logodds)
     auc_model = expected_auc(p, model_logodds) if auc_model is None else auc_model
     err = np.abs(q - p)
+    figs = _quick(p, q, err, model_logodds, sheet_logodds, auc_model, max_risk_error, bands, percentile, sheet_band)
+    if limits:
+        n = len(err)
+        figs["limits"] = {
+            "confidence": CONFIDENCE,
+            "share_over_risk_error": wilson_limit(figs["share_over_risk_error"], n, upper=True),
+            "percentile_abs_risk_error": percentile_upper_limit(err, percentile),
+            "band_agreement": None if figs["band_agreement"] is None else wilson_limit(figs["band_agreement"], n, upper=False),
+        }
+    return figs
+
+
+def _quick(p, q, err, model_logodds, sheet_logodds, auc_model, max_risk_error, bands, percentile, sheet_band) -> dict:
     return {
         "auc_loss": auc_model - expected_auc(p, sheet_logodds),
         "share_over_risk_error": float(np.mean(err > max_risk_error)),

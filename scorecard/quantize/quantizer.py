@@ -36,6 +36,7 @@ from scorecard.quantize.nice import MAX_CANDIDATES
 from scorecard.quantize.population import Population, evaluation_population
 from scorecard.quantize.points import Quadratic, fit_scale_offset, polish_points, round_points, weighted_error
 from scorecard.quantize.refit import refit_row_values
+from scorecard.sheet.slips import slip_figures
 from scorecard.sheet import CAUTIONS, ROUNDING_RULE, band_indices, risk_text, total_band_indices
 from scorecard.sheet.printed import pair_effect_name
 
@@ -58,11 +59,11 @@ class Bound:
     max_risk_error: float = 0.10
     risk_error_share: float = 0.05
     max_rows: int = 8
-    max_total_points: int = 40
+    max_total_points: int = 100  # the scale APACHE II / SAPS II use at the bedside; measured, docs/quantization.md
     max_row_error: float = 1.0
-    min_band_agreement: float | None = 0.80
+    min_band_agreement: float | None = 0.90
     risk_error_percentile: float = 95.0
-    max_percentile_risk_error: float | None = 0.10
+    max_percentile_risk_error: float | None = 0.07
     max_largest_risk_error: float | None = None  # opt-in: one cohort's worst patient is too unstable to promise by default
     max_certificate_risk_error: float | None = None
 
@@ -94,16 +95,22 @@ class Bound:
         return self if bands else replace(self, min_band_agreement=None)
 
     def misses(self, figs: dict) -> list[str]:
-        """Names of the bounds `figs` (see `figures.patient_figures`) does not meet; empty when all are met."""
+        """Names of the bounds `figs` (see `accuracy.quick_figures`) does not meet; empty when all are met. On a
+        held-out part (figures with `limits`) the shares and the percentile are judged at their one-sided
+        confidence limits, so a sheet offered as meeting a bound keeps a margin for the next patients."""
         out = []
+        at = _judged(figs)
         if figs["auc_loss"] > self.max_auc_loss:
             out.append("auc_loss")
-        if figs["share_over_risk_error"] > self.risk_error_share:
+        # a share bound of 0 (no patient misstated) asks for exactness on the patients seen, which no confidence
+        # limit of a share can certify: it is judged at the share itself
+        share = figs["share_over_risk_error"] if self.risk_error_share == 0 else at("share_over_risk_error")
+        if share > self.risk_error_share:
             out.append("risk_error_share")
         if self.min_band_agreement is not None and figs.get("band_agreement") is not None \
-                and figs["band_agreement"] < self.min_band_agreement:
+                and at("band_agreement") < self.min_band_agreement:
             out.append("band_agreement")
-        if self.max_percentile_risk_error is not None and figs["percentile_abs_risk_error"] > self.max_percentile_risk_error:
+        if self.max_percentile_risk_error is not None and at("percentile_abs_risk_error") > self.max_percentile_risk_error:
             out.append("percentile_risk_error")
         if self.max_largest_risk_error is not None and figs["max_abs_risk_error"] > self.max_largest_risk_error:
             out.append("largest_risk_error")
@@ -112,6 +119,12 @@ class Bound:
     def document(self) -> dict:
         """The sheet's `bound` block (the row cap is a setting of the search, recorded in provenance)."""
         return {k: v for k, v in asdict(self).items() if k != "max_row_error"}
+
+
+def _judged(figs: dict):
+    """The figure a bound is judged at: its confidence limit when the figures carry limits (held out)."""
+    limits = figs.get("limits") or {}
+    return lambda key: limits[key] if limits.get(key) is not None else figs[key]
 
 
 @dataclass
@@ -150,6 +163,7 @@ class Problem:
     confirm_curves: list[Curve] | None = None
     steps: list = field(default_factory=list)  # the allocation path (backfit.Step), set by `search`
     frontier: list = field(default_factory=list)  # alternative sheets (`frontier`)
+    slip_choice: list = field(default_factory=list)  # the roundings the chosen sheet was picked among (`_finish`)
     band_edge_search: bool = True  # band edges at the totals that maximise band agreement (`band_edges`)
 
     def figures(self, sheet_logodds: np.ndarray, held_out: bool = False, sheet_band: np.ndarray | None = None) -> dict:
@@ -157,7 +171,7 @@ class Problem:
         the held-out part); `sheet_band` is each patient's band by total when the band edges were searched."""
         pop = self.confirm if held_out else self.population
         return quick_figures(pop.logodds, sheet_logodds, self.bound.max_risk_error, None if held_out else self.auc_model,
-                             self.bands, self.bound.risk_error_percentile, sheet_band)
+                             self.bands, self.bound.risk_error_percentile, sheet_band, limits=held_out)
 
     def model_band(self, held_out: bool = False) -> np.ndarray:
         return band_indices(self.bands, (self.confirm if held_out else self.population).risk)
@@ -542,13 +556,67 @@ def search_by_term_error(problem: Problem, progress: Callable[[str], None] | Non
 
 def _finish(problem: Problem, design: Design, top: Candidate) -> Candidate:
     """The smallest total-points range for the chosen rows; the rows and total are chosen by the quick
-    rounding, then the chosen sheet gets the full rounding (pair moves, scale and offset refitted), kept
-    when it still meets the bound."""
+    rounding, then the chosen sheet gets the full rounding (pair moves, scale and offset refitted). Among the
+    roundings of these rows within that range that meet every bound and are about as accurate as the best
+    (`EQUALLY_WELL`), the least fragile to a bedside slip is kept (`least_fragile`)."""
     chosen = _smallest_total(problem, design, top)
-    polished = _attempt(problem, design, chosen.total_range if chosen.total_range > 0 else 1, polish=True)
-    if polished is not None and polished.passed and _weighted(problem, polished) <= _weighted(problem, chosen):
-        return polished
-    return chosen
+    target = chosen.total_range if chosen.total_range > 0 else 1
+    options = [chosen, _attempt(problem, design, target, polish=True)]
+    for shrink in _SHRINKS:  # each scale of the quick rounding on its own: other points for the same rows
+        found = round_points(design.q, design.values, design.term_of_row, design.span / (target * shrink), target,
+                             problem.allow_negative)
+        if found is not None:
+            options.append(_candidate_at(problem, design, design.span / (target * shrink), *found))
+    kept, seen = [], set()
+    for c in options:  # distinct roundings that meet every bound within the range
+        key = None if c is None else (round(c.scale, 12), tuple(int(v) for p in c.points for v in p))
+        if c is not None and c.passed and c.total_range <= target and key not in seen:
+            seen.add(key)
+            kept.append(c)
+    options = kept
+    scored = [(c, _weighted(problem, c), fragility(problem, c)) for c in options]
+    pick = least_fragile([(w, f) for _, w, f in scored])
+    problem.slip_choice = [{"weighted_error": w, "fragility": f, "total_range": c.total_range, "scale": c.scale,
+                            "chosen": i == pick} for i, (c, w, f) in enumerate(scored)]
+    return scored[pick][0]
+
+
+EQUALLY_WELL = 0.02  # roundings within 2 % of the smallest weighted error count as meeting the bound equally well
+
+
+def least_fragile(options: list[tuple[float, float]]) -> int:
+    """Index of the option to keep among (weighted error, fragility) of sheets that all meet the bound: the
+    least fragile of those within EQUALLY_WELL of the smallest weighted error (ties: the more accurate)."""
+    best = min(w for w, _ in options)
+    near = [i for i, (w, _) in enumerate(options) if w <= best * (1 + EQUALLY_WELL) + 1e-12]
+    return min(near, key=lambda i: (options[i][1], options[i][0], i))
+
+
+def fragility(problem: Problem, cand: Candidate) -> float:
+    """Mean |Δrisk| of one neighbouring-row slip plus that of a total off by one, on the patients the sheet is
+    chosen on (`scorecard.sheet.slips`): the figure `quantize` reports for the chosen sheet, as a number."""
+    terms = [c.sheet_term(lay, [int(p) for p in pts]) for c, lay, pts in zip(problem.curves, cand.layouts, cand.points)
+             if np.ptp(pts) != 0]
+    total, choices = printed_choices(problem, cand, terms, held_out=False)
+    lo, hi = int(total.min()), int(total.max())
+    lo = min(lo, int(sum(np.min(p) for p in cand.points)))
+    hi = max(hi, int(sum(np.max(p) for p in cand.points)))
+    risk = logistic(cand.offset + cand.scale * np.arange(lo, hi + 1, dtype=float))
+    sheet = {"terms": terms, "conversion": [{"total": lo + i, "risk": float(r)} for i, r in enumerate(risk)], "bands": []}
+    figs = slip_figures(sheet, total, choices)
+    return float(figs["neighbour_row"]["overall"]["mean_abs_risk_error"] + figs["total_off_by_one"]["mean_abs_risk_error"])
+
+
+def _candidate_at(problem: Problem, design: Design, scale: float, pts: np.ndarray, offset: float) -> Candidate | None:
+    """A candidate for given points (judged like `_attempt`'s)."""
+    sheet = offset + scale * pts[design.ids].sum(axis=1)
+    edges, figs, held = problem.judge(design, pts, scale, offset)
+    passed = not problem.bound.misses(figs) and (held is None or not problem.bound.misses(held))
+    s = design.starts
+    per_term = [pts[s[t]:s[t + 1]] for t in range(len(design.layouts))]
+    confirm_lo = None if held is None else offset + scale * pts[design.confirm_ids].sum(axis=1)
+    return Candidate(design.budget, design.choice, design.layouts, per_term, scale, offset, sheet, figs,
+                     int(sum(np.ptp(p) for p in per_term)), passed, held, confirm_lo, edges)
 
 
 def _weighted(problem: Problem, cand: Candidate) -> float:
@@ -560,21 +628,28 @@ def bound_lines(bound: Bound, figs: dict) -> list[tuple[str, str, bool, str]]:
     """(name, figure as words, met, option to relax) for every bound set, per-patient bounds first."""
     pct = lambda v: f"{v * 100:.1f} percentage points"  # noqa: E731
     q = f"{bound.risk_error_percentile:g}th percentile |Δrisk|"
+    at = _judged(figs)
+    limits = figs.get("limits") or {}
+    conf = f"{limits.get('confidence', 0.95):.0%}"
+    lower = "" if limits.get("band_agreement") is None else f", {conf} lower limit {at('band_agreement'):.1%}"
+    upper = "" if not limits else f", {conf} upper limit {pct(at('percentile_abs_risk_error'))}"
+    share_up = "" if not limits else f", {conf} upper limit {at('share_over_risk_error'):.1%}"
     out = []
     if bound.min_band_agreement is not None and figs.get("band_agreement") is not None:
-        out.append(("band_agreement", f"band agreement {figs['band_agreement']:.1%} (bound at least {bound.min_band_agreement:.0%})",
-                    figs["band_agreement"] >= bound.min_band_agreement, "--min-band-agreement"))
+        out.append(("band_agreement", f"band agreement {figs['band_agreement']:.1%}{lower} (bound at least {bound.min_band_agreement:.0%})",
+                    at("band_agreement") >= bound.min_band_agreement, "--min-band-agreement"))
     if bound.max_percentile_risk_error is not None:
-        out.append(("percentile_risk_error", f"{q} {pct(figs['percentile_abs_risk_error'])} (bound {bound.max_percentile_risk_error * 100:g})",
-                    figs["percentile_abs_risk_error"] <= bound.max_percentile_risk_error, "--max-percentile-risk-error"))
+        out.append(("percentile_risk_error", f"{q} {pct(figs['percentile_abs_risk_error'])}{upper} (bound {bound.max_percentile_risk_error * 100:g})",
+                    at("percentile_abs_risk_error") <= bound.max_percentile_risk_error, "--max-percentile-risk-error"))
     if bound.max_largest_risk_error is not None:
         out.append(("largest_risk_error", f"largest |Δrisk| {pct(figs['max_abs_risk_error'])} (bound {bound.max_largest_risk_error * 100:g})",
                     figs["max_abs_risk_error"] <= bound.max_largest_risk_error, "--max-largest-risk-error"))
     out.append(("auc_loss", f"ΔAUC {figs['auc_loss']:.4f} (bound {bound.max_auc_loss:g})", figs["auc_loss"] <= bound.max_auc_loss,
                 "--max-auc-loss"))
-    out.append(("risk_error_share", f"{figs['share_over_risk_error']:.1%} of patients misstated by more than "
+    out.append(("risk_error_share", f"{figs['share_over_risk_error']:.1%}{share_up} of patients misstated by more than "
                 f"{bound.max_risk_error * 100:g} percentage points (bound {bound.risk_error_share:.0%})",
-                figs["share_over_risk_error"] <= bound.risk_error_share, "--max-risk-error or --risk-error-share"))
+                (figs["share_over_risk_error"] if bound.risk_error_share == 0 else at("share_over_risk_error")) <= bound.risk_error_share,
+                "--max-risk-error or --risk-error-share"))
     return out
 
 
@@ -773,8 +848,12 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
         "readability": _readability(problem, cand),
         "total_points_tradeoff": _tradeoff(problem),
         "frontier": problem.frontier or frontier(problem),
+        "slip_choice": problem.slip_choice,
         "search": problem.tried,
     }
+    if held_out and cand.confirm_figures is not None and cand.confirm_figures.get("limits"):
+        # the one-sided confidence limits the bound was judged at on the held-out part (Bound.misses)
+        report["held_out_limits"] = cand.confirm_figures["limits"]
     if held_out:
         report["in_sample"] = full_figures(problem.population.logodds, cand.sheet_logodds, say_bound.max_risk_error, bands,
                                            bootstrap=0, percentile=say_bound.risk_error_percentile,
@@ -878,19 +957,68 @@ def quantize_model(model: AdditiveModel, data: pd.DataFrame | None = None, bound
                     "band_edges": "searched" if band_edge_search and bands else "at the band risk limits",
                     "band_edge_weight": BAND_EDGE_WEIGHT if band_edge_weight is None else band_edge_weight}
         doc = build_sheet(problem, cand, bands or [], merge_equal_levels, bootstrap, title, settings)
-        doc["report"]["slips"] = _slips(doc, problem)
+        doc["report"]["slips"] = _slips(doc, problem, cand, merge_equal_levels)
         return doc
 
 
-def _slips(doc: dict, problem: Problem) -> dict | None:
-    """Slip robustness of the chosen sheet on the patients it was judged on (`scorecard.audit.slips`, the same
-    figure `check` reports): the chosen sheet scored as the paper does, one bedside slip at a time."""
-    from scorecard.audit.paper import score_cohort
-    from scorecard.audit.slips import slip_figures
+@dataclass
+class PrintedChoices:
+    """One printed table as the quantizer's patients meet it (`scorecard.sheet.slips.Choices`)."""
 
-    frame = (problem.confirm or problem.population).frame  # the patients the sheet's figures are reported on
-    try:
-        scored = score_cohort(doc, frame.astype(str).replace({"nan": "", "None": ""}))
-    except UserError:
-        return None  # a population the paper cannot score (e.g. a missing value the sheet refuses): no figure
-    return slip_figures(doc, scored)
+    name: str
+    label: str
+    points: np.ndarray
+    index: np.ndarray
+
+
+def _choice_of_row(curve: Curve, lay: RowPlan, pts: np.ndarray, merge_equal_levels: bool) -> np.ndarray:
+    """For each row of the plan, its printed choice (`sheet.slips.Choices` order): the sheet prints
+    neighbouring ranges of equal points as one row (`ContinuousCurve.sheet_term`) and, with
+    --merge-equal-levels, categories of equal points as one (`LevelCurve.sheet_term`); specials follow."""
+    if isinstance(curve, ContinuousCurve):
+        (k,) = lay.detail["k"]
+        ranged = np.concatenate([[0], np.cumsum(pts[1:k] != pts[:k - 1])]).astype(np.int64)
+        return np.concatenate([ranged, ranged[-1] + 1 + np.arange(lay.n_rows - k)])
+    if isinstance(curve, LevelCurve) and curve.kind == "categorical" and merge_equal_levels:
+        groups: list[int] = []
+        out = []
+        for i in range(curve.n_main):
+            p = int(pts[i])
+            if p not in groups:
+                groups.append(p)
+            out.append(groups.index(p))
+        return np.array(out + [len(groups) + j for j in range(lay.n_rows - curve.n_main)], dtype=np.int64)
+    return np.arange(lay.n_rows, dtype=np.int64)  # flags, unmerged categories, pair cells then not measured
+
+
+def printed_choices(problem: Problem, cand: Candidate, terms: list[dict], held_out: bool,
+                    merge_equal_levels: bool = False) -> tuple[np.ndarray, list[PrintedChoices]]:
+    """(raw total, choices per printed term) of the patients (held out, or choosing) on a candidate sheet whose
+    printed terms are `terms` (the candidate's non-constant terms, as `sheet_term` writes them)."""
+    curves = problem.confirm_curves if held_out else problem.curves
+    out = []
+    n = (problem.confirm if held_out else problem.population).size
+    total = np.zeros(n, dtype=np.int64)
+    printed = iter(terms)
+    for curve, lay, pts in zip(curves, cand.layouts, cand.points):
+        rows = lay.row_of_piece[curve.patient_piece]
+        total += np.asarray(pts, dtype=np.int64)[rows]
+        if np.ptp(pts) == 0:
+            continue
+        term = next(printed)
+        if term["kind"] == "pair":
+            points = np.array([p for row in term["points"] for p in row] + [term["missing_points"]], dtype=np.int64)
+        else:
+            points = np.array([r["points"] for r in term["rows"]], dtype=np.int64)
+        index = _choice_of_row(curve, lay, np.asarray(pts), merge_equal_levels)[rows]
+        out.append(PrintedChoices(term["name"], term["label"], points, index))
+    return total, out
+
+
+def _slips(doc: dict, problem: Problem, cand: Candidate, merge_equal_levels: bool) -> dict:
+    """Slip robustness of the chosen sheet on the patients its figures are reported on (the sheet's rule,
+    `scorecard.sheet.slips`, which `check` applies to its own scoring of a cohort)."""
+    held_out = cand.confirm_logodds is not None
+    total, choices = printed_choices(problem, cand, doc["terms"], held_out, merge_equal_levels)
+    moved = sum(int(p[0]) for p in cand.points if np.ptp(p) == 0)
+    return slip_figures(doc, total - moved, choices)

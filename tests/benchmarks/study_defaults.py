@@ -49,7 +49,10 @@ GRID = [
 def pages_and_front(sheet: dict) -> tuple[int, bool]:
     """Pages on ward-a4, and whether the points tables and the total box fit on its first page."""
     layout = load_layout("ward-a4")
-    pdf = render_pdf(sheet, layout, short_fingerprint(sheet))
+    try:
+        pdf = render_pdf(sheet, layout, short_fingerprint(sheet))
+    except UserError:  # e.g. a pair grid wider than the layout's column
+        return 0, False
     import io
 
     from pypdf import PdfReader
@@ -85,7 +88,9 @@ def run(folder: Path, setting: tuple) -> None:
     report = check_agreement(doc, model, audit, replicates=20)
     a = report["agreement"]
     pages, fits = pages_and_front(doc)
-    print(f"{label}: {doc['report']['printed_rows']} rows, totals {doc['total']['min']}-{doc['total']['max']}, "
+    h = doc["achieved"]
+    print(f"{label}: held out band {h['band_agreement']:.3f} p95 {h['p95_abs_risk_error'] * 100:.1f} pp; "
+          f"{doc['report']['printed_rows']} rows, totals {doc['total']['min']}-{doc['total']['max']}, "
           f"ward-a4 {pages} pages, tables on one front: {'yes' if fits else 'NO'} | audit: band {a['band_agreement']:.3f}, "
           f"p95 {a['p95_abs_risk_error'] * 100:.1f} pp, largest {a['max_abs_risk_error'] * 100:.1f} pp, "
           f"mean {a['mean_abs_risk_error'] * 100:.2f} pp, ΔAUC {a['auc_loss']:.4f}, all bounds {'PASS' if report['passed'] else 'FAIL'} "

@@ -12,7 +12,7 @@ from scorecard.cli import main
 from scorecard.sheet import load_sheet
 
 FAST = ["--bootstrap", "0", "--max-rows", "6", "--max-total-points", "30", "--max-auc-loss", "0.02",
-        "--risk-error-share", "0.2"]
+        "--risk-error-share", "0.2", "--min-band-agreement", "0.8", "--max-percentile-risk-error", "0.12"]
 
 
 @pytest.fixture

@@ -53,7 +53,8 @@ def test_merge_equal_levels_prints_one_row():
     res = next(t for t in d["terms"] if t["name"] == "residence")
     res["scores"] = [0.0, 0.01, 0.9]  # home and family differ by far less than a point
     model = model_from_dict(d)
-    loose = Bound(max_auc_loss=0.05, max_risk_error=0.1, risk_error_share=0.3, max_rows=6, max_total_points=30)
+    loose = Bound(max_auc_loss=0.05, max_risk_error=0.1, risk_error_share=0.3, max_rows=6, max_total_points=30,
+                  **POPULATION_ONLY)
     merged = quantize_model(model, bound=loose, merge_equal_levels=True, bootstrap=0)
     plain = quantize_model(model, bound=loose, bootstrap=0)
     rows = next(t for t in merged["terms"] if t["name"] == "residence")["rows"]
