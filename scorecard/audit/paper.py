@@ -269,13 +269,10 @@ def _level_lookup(rows: list[dict]) -> dict[str, int]:
 def _category_choice(rows: list[dict], values: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Index of each level's row; -1 not measured, -2 a level listed in no row."""
     lookup = _level_lookup(rows)
-    series = pd.Series(values, dtype=object)
-    idx = series.map(lookup)
-    missing = series.isna().to_numpy()
-    unseen = idx.isna().to_numpy() & ~missing
-    out = np.array(idx.fillna(-1).to_numpy(dtype=np.int64), copy=True)
-    out[unseen] = -2
-    return out, unseen
+    codes, uniques = pd.factorize(pd.Series(values, dtype=object), use_na_sentinel=True)  # each distinct level once
+    per_unique = np.array([lookup.get(v, -2) for v in uniques], dtype=np.int64)
+    out = np.where(codes < 0, -1, per_unique[np.clip(codes, 0, None)] if len(per_unique) else -1).astype(np.int64)
+    return out, out == -2
 
 
 def _with_no_row(texts: list[str], points: list[int], idx: np.ndarray, code: int, text: str) -> np.ndarray:

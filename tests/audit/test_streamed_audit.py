@@ -84,3 +84,46 @@ def test_a_score_error_in_a_late_chunk_names_the_file_row_and_writes_nothing(fil
     result = run("score", files / "sheet.json", tmp_path / "late.parquet", "-o", tmp_path / "x.csv", "--chunk-rows", "7")
     assert result.exit_code == 2 and "row 334" in result.output and "'ten'" in result.output, result.output
     assert not (tmp_path / "x.csv").exists()
+
+
+def _same_figures(a, b, path="report"):
+    """Equal documents, floats within 1e-9 relative (sums over chunks may round differently; counts, totals,
+    texts and orders must be identical)."""
+    if isinstance(a, dict):
+        assert a.keys() == b.keys(), path
+        for k in a:
+            _same_figures(a[k], b[k], f"{path}/{k}")
+    elif isinstance(a, list):
+        assert len(a) == len(b), path
+        for i, (u, v) in enumerate(zip(a, b)):
+            _same_figures(u, v, f"{path}[{i}]")
+    elif isinstance(a, float):
+        assert b == pytest.approx(a, rel=1e-9, abs=1e-12), path
+    else:
+        assert a == b, path
+
+
+def test_check_streamed_in_many_chunks_gives_every_figure_of_the_one_chunk_run(files, tmp_path):
+    reports = {}
+    for cohort in ("mixed.csv", "mixed.parquet"):
+        for rows in ("7", "100000"):
+            out = tmp_path / f"{cohort}-{rows}.json"
+            result = run("check", files / "sheet.json", "--model", files / "model.json", "--data", files / cohort,
+                         "-o", tmp_path / f"{cohort}-{rows}.pdf", "--json", out, "--bootstrap", "30", "--chunk-rows", rows)
+            assert result.exit_code in (0, 3), result.output
+            report = json.loads(out.read_text())
+            report["cohort"]["source"] = cohort.split(".")[0]
+            reports[(cohort, rows)] = (result.exit_code, report)
+    first = reports[("mixed.csv", "100000")]
+    for key, (code, report) in reports.items():
+        assert code == first[0], key
+        _same_figures(first[1], report)
+    report = first[1]
+    # the whole cohort's tallies, not one chunk's: every patient counted, the notes over all chunks
+    assert report["cohort"]["n"] == 400 and report["against_outcomes"]["n"] == 400
+    assert report["slips"]["neighbour_row"]["overall"]["patients"] == 400
+    assert sum(map(sum, report["band_matrix"]["counts"])) == 400
+    assert any("'mars' x2, 'moon' x1" in note for note in report["notes"])
+    assert any("'temperature'" in w and "wrong units" in w for w in report["warnings"])
+    rows = [r["row"] for r in report["largest"]]
+    assert len(rows) == 20 and len(set(rows)) == 20 and all(1 <= r <= 400 for r in rows)
