@@ -227,6 +227,10 @@ def agreement_report(state: CheckState, replicates: int, seed: int, model_matche
     risk_limit = np.array([by_total.get(int(t), float(cert["max_risk_error"])) for t in range(low_total, int(total.max()) + 1)])
     over_chart = inside & (np.abs(diff) > risk_limit[gs] + _SLACK)
     del gs
+    magnitude = float(np.ceil(np.abs(diff).max() * 1000) / 10) or 0.1  # percentage points, to 0.1
+    counts, edges = np.histogram(diff * 100, bins=HISTOGRAM_BINS, range=(-magnitude, magnitude))
+    del diff  # the per-patient differences are no longer needed: memory for the outcome figures
+    against = _against_outcomes(y, model_lo, model_risk, total, sheet, sheet_risk) if has_outcomes else None
 
     scale = sheet["scale"]
     totals = np.array([c["total"] for c in sheet["conversion"]], dtype=float)
@@ -259,9 +263,6 @@ def agreement_report(state: CheckState, replicates: int, seed: int, model_matche
         _bound("total_points", "range of total points (highest - lowest) at most the bound", span, bound["max_total_points"],
                span <= bound["max_total_points"], f"{span} vs {bound['max_total_points']}"),
     ]
-    magnitude = float(np.ceil(np.abs(diff).max() * 1000) / 10) or 0.1  # percentage points, to 0.1
-    counts, edges = np.histogram(diff * 100, bins=HISTOGRAM_BINS, range=(-magnitude, magnitude))
-    against = _against_outcomes(y, model_lo, model_risk, total, sheet, sheet_risk) if has_outcomes else None
     if state.n >= PROGRESS_EVERY:
         say("writing the report")
     return _without_nan({

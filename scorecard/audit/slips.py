@@ -136,7 +136,8 @@ class SlipTally:
             per_term.append({"term": term["name"], "label": term["label"], **_summary(e, w, int(counts[moves].sum()), measured)})
             all_errors.append(e)
             all_weights.append(w)
-        overall = _summary(np.concatenate(all_errors), np.concatenate(all_weights), self.patients_moved, self.n)
+        overall = _summary(np.concatenate(all_errors) if all_errors else np.empty(0),
+                           np.concatenate(all_weights) if all_weights else np.empty(0, dtype=np.int64), self.patients_moved, self.n)
         by_total = self.counts[0].sum(axis=0) if self.counts else np.zeros(nt, dtype=np.int64)
         positions = np.arange(nt)
         off_errors, off_weights, off_moved = [], [], np.zeros(nt, dtype=bool)
