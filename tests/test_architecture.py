@@ -39,6 +39,18 @@ def test_the_audit_never_imports_quantize_or_render(path):
                 f"{path.relative_to(ROOT)}:{line} imports {full}: the audit recomputes from the sheet document alone")
 
 
+@pytest.mark.parametrize("path", _modules("review"), ids=lambda p: p.name)
+def test_the_review_uses_the_quantizer_only_through_its_public_entry(path):
+    # the review previews a default sheet (scorecard/review/preview.py) but never decides a row itself
+    for module, name, line in imports_of(path):
+        if module.startswith("scorecard.quantize."):
+            raise AssertionError(f"{path.relative_to(ROOT)}:{line} imports {module}: use `from scorecard.quantize import ...`")
+        if module == "scorecard.quantize" and name is not None:
+            import scorecard.quantize
+
+            assert name in scorecard.quantize.__all__, f"{path.relative_to(ROOT)}:{line} imports {name}, not public"
+
+
 @pytest.mark.parametrize("path", _modules("commands"), ids=lambda p: p.name)
 def test_commands_use_only_public_names_of_the_stages(path):
     for module, name, line in imports_of(path):

@@ -111,13 +111,13 @@ def test_levels_in_clinical_order_other_explained_and_left_off_terms_with_their_
             assert all(word in text for word in term["single_row_note"].split())
 
 
-def test_a_left_off_pair_is_named_as_the_combined_effect_of_its_two_features():
+def test_a_left_off_pair_is_named_in_words_as_the_combined_effect_of_its_two_features():
     from types import SimpleNamespace
 
     from scorecard.quantize.quantizer import _term_label
 
     pair = SimpleNamespace(features=[SimpleNamespace(label="Age"), SimpleNamespace(label="Cognitive screen")])
-    assert _term_label(pair) == "the combined effect of Age and Cognitive screen, beyond each alone"
+    assert _term_label(pair) == "Age with cognitive screen, their combined effect beyond each alone"
 
 
 def test_large_print_keeps_the_total_box_and_the_conversion_table_together(demo, tmp_path):
@@ -132,3 +132,21 @@ def test_large_print_keeps_the_total_box_and_the_conversion_table_together(demo,
     # the same page, or facing pages of a bound copy (an even left page and the odd right page after it)
     assert table[0] == box[0] or (box[0] % 2 == 0 and table[0] == box[0] + 1)
     assert min(t for t in texts if "Nomogram" in t)  # the nomogram still follows
+
+
+@pytest.mark.parametrize("name", ["sheet.pdf", "review.pdf", "check-report.pdf"])
+def test_a_pair_is_named_in_words_on_every_demo_pdf_and_in_the_messages(demo, name):
+    # issue 13: a pair reads "Age with cognitive screen score (0–10)", never its JSON name "age x cognition"
+    from scorecard.model import load_model
+    from scorecard.sheet.printed import term_label
+
+    out, output = demo
+    text = " ".join(" ".join(_page_texts(out / name)).split())
+    model = load_model(out / "declared.model.json")
+    sheet = load_sheet(out / "sheet.json")
+    printed = {t["name"] for t in sheet["terms"]} | {d["name"] for d in sheet["dropped_terms"]}
+    for term in (t for t in model.terms if t.kind == "pair"):
+        assert term.name not in text and term.name not in output
+        if name == "review.pdf" or term.name in printed:
+            assert term_label(model, term) in text
+    assert " x cognition" not in text and "Age × " not in text

@@ -19,7 +19,7 @@ import pandas as pd
 
 from scorecard.audit import statistics
 from scorecard.audit.gather import TOP_PATIENTS, CheckState, outcome_values  # noqa: F401  (outcome_values: the check's reading)
-from scorecard.audit.paper import band_index, conversion_arrays, sheet_logodds
+from scorecard.audit.paper import band_index, conversion_arrays, sheet_logodds, total_band_index
 from scorecard.errors import UserError
 from scorecard.model import AdditiveModel, logistic
 from scorecard.sheet import short_fingerprint
@@ -103,12 +103,12 @@ def per_patient_bounds(bound: dict, agreement: dict, certificate: dict) -> tuple
     return judged, free
 
 
-def _band_matrix(sheet: dict, model_risk: np.ndarray, sheet_risk: np.ndarray) -> dict | None:
+def _band_matrix(sheet: dict, model_risk: np.ndarray, total: np.ndarray) -> dict | None:
     if not sheet.get("bands"):
         return None
     names = [b["name"] for b in sheet["bands"]]
     k = len(names)
-    counts = np.bincount(band_index(sheet, model_risk) * k + band_index(sheet, sheet_risk), minlength=k * k).reshape(k, k)
+    counts = np.bincount(band_index(sheet, model_risk) * k + total_band_index(sheet, total), minlength=k * k).reshape(k, k)
     return {"bands": names, "rows_are": "model band", "columns_are": "sheet band",
             "counts": counts.tolist(), "agreement": float(np.trace(counts) / counts.sum())}
 
@@ -215,7 +215,7 @@ def agreement_report(state: CheckState, replicates: int, seed: int, model_matche
         "brier_model": statistics.expected_brier(model_risk, model_risk),
         "brier_sheet": statistics.expected_brier(sheet_risk, model_risk),
     }
-    bands = _band_matrix(sheet, model_risk, sheet_risk)
+    bands = _band_matrix(sheet, model_risk, total)
     agreement["band_agreement"] = None if bands is None else bands["agreement"]
 
     inside = ~patients["outside"]

@@ -24,6 +24,7 @@ from scorecard.audit.paper import SheetReading, parse_cohort, score_cohort
 from scorecard.audit.slips import SlipTally
 from scorecard.errors import UserError
 from scorecard.model import AdditiveModel, PredictionReport, contributions, logistic
+from scorecard.sheet.printed import term_label
 from scorecard.suggest import did_you_mean
 from scorecard.tabular import flag_column, source_of
 
@@ -63,11 +64,6 @@ def model_logodds(sheet: dict, model: AdditiveModel, parts: pd.DataFrame) -> np.
     if recalibrated:
         lo = recalibrated["model_logodds"]["intercept"] + recalibrated["model_logodds"]["slope"] * lo
     return lo
-
-
-def _term_label(model: AdditiveModel, name: str) -> str:
-    """What a reader calls a term left off the sheet: its features' labels, not the column names."""
-    return " × ".join(model.feature(f).label or f for f in model.term(name).feature_names)
 
 
 class CheckState:
@@ -132,7 +128,7 @@ class CheckState:
                 terms.append({"term": t.name, "label": t.label, "row": t.texts[t.index[i]], "points": int(t.points[t.index[i]]),
                               "model_logodds": model_part, "on_sheet": float(t.points[t.index[i]]) * self.lpp})
             for name in self.dropped:
-                terms.append({"term": name, "label": _term_label(self.model, name), "row": "(not on the sheet)", "points": 0,
+                terms.append({"term": name, "label": term_label(self.model, name), "row": "(not on the sheet)", "points": 0,
                               "model_logodds": float(parts[name].iloc[i]), "on_sheet": 0.0})
             self.largest.append({"row": first_row + int(i) + 1, "total": int(scored.total[i]), "sheet_risk": float(scored.risk[i]),
                                  "sheet_risk_text": str(scored.risk_text[i]), "model_risk": float(model_risk[i]),

@@ -27,7 +27,7 @@ import numpy as np
 import pandas as pd
 
 from scorecard.errors import UserError
-from scorecard.sheet.printed import band_indices
+from scorecard.sheet.printed import band_indices, total_band_indices
 from scorecard.tabular import category_column, flag_column, numeric_column, require_columns, source_of
 
 NOT_LISTED_TEXT = "not listed (no row on the sheet: 0 points)"
@@ -383,6 +383,11 @@ def band_index(sheet: dict, risk: np.ndarray) -> np.ndarray | None:
     return band_indices(bands, risk) if bands else None
 
 
+def total_band_index(sheet: dict, totals: np.ndarray) -> np.ndarray | None:
+    """Band of each total as the sheet prints it (`scorecard.sheet.printed.total_band_indices`); None without bands."""
+    return total_band_indices(sheet, totals) if sheet.get("bands") else None
+
+
 def outside_training(sheet: dict, values: dict[str, np.ndarray], reading: SheetReading) -> np.ndarray:
     """The per-patient mask of any measurement outside a training range; the counts per feature go into
     `reading` (its warnings name a feature most of whose values are outside: wrong units suspected)."""
@@ -437,5 +442,5 @@ def score_cohort(sheet: dict, frame: pd.DataFrame, values: dict[str, np.ndarray]
     scored.total = total
     scored.risk = risk[pos]
     scored.risk_text = text[pos]
-    scored.band = band_index(sheet, scored.risk)
+    scored.band = total_band_index(sheet, scored.total)
     return scored

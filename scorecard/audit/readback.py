@@ -25,7 +25,7 @@ from dataclasses import dataclass
 from scorecard.audit.pdf_tables import HEX12, PrintedPage, PrintedTable, Row, Word, read_pdf, reading_order
 from scorecard.errors import UserError
 from scorecard.sheet.approval import approval_line, signature_short
-from scorecard.sheet.printed import SPREAD_LEFT_OFF, band_of, pair_missing_text, prints_spread, row_label, spread_text
+from scorecard.sheet.printed import SPREAD_LEFT_OFF, conversion_bands, pair_missing_text, prints_spread, row_label, spread_text
 
 MINUS_SIGNS = ("\u2212", "-", "\u2013")
 
@@ -232,8 +232,9 @@ class _Checker:
         if with_range != {spread} and not (spread and with_range == {False} and self._says_range_left_off()):
             self.mismatches.append(Mismatch(None, block, "Range column", "printed" if read_range else "(missing)",
                                             "printed" if spread else "(none: the sheet stores no spread)"))
+        members = conversion_bands(self.sheet)
         for k, row in enumerate(self.sheet["conversion"]):
-            expected_band = bands[band_of(bands, row["risk"])]["name"] if bands else None
+            expected_band = bands[members[k]]["name"] if bands else None
             name = f"total {row['total']}"
             if k >= len(entries):
                 self.mismatches.append(Mismatch(entries[-1][0], block, name, "(missing)", f"{row['total']} {row['text']}"))
@@ -259,7 +260,7 @@ class _Checker:
         if not bands:
             return
         block = "band table"
-        members = [band_of(bands, c["risk"]) for c in self.sheet["conversion"]]
+        members = conversion_bands(self.sheet)
         for page in self.pages:
             for table in page.tables:
                 for i, row in enumerate(table.rows):

@@ -22,7 +22,7 @@ from __future__ import annotations
 
 import numpy as np
 
-from scorecard.audit.paper import ScoredCohort, band_index, conversion_arrays
+from scorecard.audit.paper import ScoredCohort, conversion_arrays, total_band_index
 from scorecard.audit.statistics import weighted_percentiles
 
 
@@ -78,7 +78,7 @@ class SlipTally:
         self.first, self.risk, _ = conversion_arrays(sheet)
         self.has_bands = bool(sheet.get("bands"))
         nt = len(self.risk)
-        self.band = band_index(sheet, self.risk) if self.has_bands else np.zeros(nt, dtype=np.int64)
+        self.band = total_band_index(sheet, self.first + np.arange(nt)) if self.has_bands else np.zeros(nt, dtype=np.int64)
         self.points, self.neighbours, self.counts, self.moves = [], [], [], []
         for term in sheet["terms"]:
             if term["kind"] == "pair":

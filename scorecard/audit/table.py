@@ -8,7 +8,7 @@ from __future__ import annotations
 import numpy as np
 import pandas as pd
 
-from scorecard.audit.paper import ScoredCohort, band_index
+from scorecard.audit.paper import ScoredCohort, total_band_index
 from scorecard.csv_cells import cell, number_cells, text_cells
 
 __all__ = ["scored_columns"]
@@ -35,7 +35,7 @@ def scored_columns(scored: ScoredCohort, sheet: dict, keep: pd.DataFrame | None 
         entry = risk_by_total[v]
         parts = [str(v), repr(float(entry["risk"])), cell(entry["text"])]
         if scored.band is not None:
-            parts.append(cell(sheet["bands"][int(band_index(sheet, np.array([float(entry["risk"])]))[0])]["name"]))
+            parts.append(cell(sheet["bands"][int(total_band_index(sheet, np.array([v]))[0])]["name"]))
         cells.append(",".join(parts))
     columns.append((headers, np.array(cells, dtype=object)[scored.total - first]))
     if model_risk is not None:

@@ -207,7 +207,7 @@ def command(ctx: click.Context, output: str, rows: int, seed: int, without_pair:
       true.model.json                the generator's true additive model
       fitted.model.json              `scorecard fit` on cohort.csv
       declared.model.json            the review flag declared a care-process marker (`scorecard edit`)
-      review.pdf, review-previews/   every shape with its band and density, and the flags
+      review.pdf, review-previews/   every shape with its band, patients and default-sheet rows, and the flags
       held.model.json                sparse tails held at their last well-supported value (`scorecard edit`)
       edited.model.json              the care-process effect removed as well, each edit with its cost
       sheet.json                     integer point tables under the accuracy bound (`scorecard quantize`)

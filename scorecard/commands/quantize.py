@@ -223,6 +223,12 @@ def in_model_units(doc: dict, model, conversions: dict) -> dict:
                    "range (before rounding); raised automatically to what --max-rows rows can achieve.")
 @click.option("--bands", metavar="SPEC", help='Risk bands, e.g. "low<5,moderate<20,high" (percent; the last is open). '
               "Each band's wording is a placeholder for your unit's agreed action.")
+@click.option("--band-edges", type=click.Choice(["searched", "at-risk-limits"]), default="searched", show_default=True,
+              help="Where one band ends and the next begins: at the totals that put the most patients in their exact-model "
+                   "band (searched), or where the printed risk crosses each band's limit.")
+@click.option("--band-edge-weight", type=click.FloatRange(0, 100), default=None,
+              help="Extra weight, in the row search and rounding, on patients whose model risk is near a band limit "
+                   "(0 = none; default: docs/quantization.md).")
 @click.option("--allow-negative", is_flag=True, help="Keep signed points (default: every table starts at 0 points).")
 @click.option("--merge-equal-levels", is_flag=True, help="Print categories that got the same points as one row.")
 @click.option("--title", help="Page title (default: 'Risk of <event>').")
@@ -244,7 +250,7 @@ def in_model_units(doc: dict, model, conversions: dict) -> dict:
 @click.option("-o", "--output", "output", required=True, type=click.Path(), help="Sheet document to write (*.sheet.json).")
 def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_share, min_band_agreement, risk_error_percentile,
             max_percentile_risk_error, max_largest_risk_error, max_certificate_risk_error, max_rows, max_total_points,
-            max_row_error, bands, allow_negative, merge_equal_levels, title, bootstrap, frontier_png, nearest_path,
+            max_row_error, bands, band_edges, band_edge_weight, allow_negative, merge_equal_levels, title, bootstrap, frontier_png, nearest_path,
             display_units, molar_masses,
             output) -> None:
     """Quantise MODEL.json into integer point tables that meet an accuracy bound.
@@ -283,7 +289,8 @@ def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_shar
     near = output_path(nearest_path, *protect, option="--write-nearest") if nearest_path else None
     png = output_path(frontier_png, *protect, option="--frontier-plot", binary=True) if frontier_png else None
     options = dict(data=data, bands=band_list, allow_negative=allow_negative, merge_equal_levels=merge_equal_levels,
-                   bootstrap=bootstrap, title=title)
+                   bootstrap=bootstrap, title=title, band_edge_search=band_edges == "searched",
+                   band_edge_weight=band_edge_weight)
     try:
         doc = in_model_units(quantize_model(shown, bound=bound, progress=say, **options), model, conversions)
     except CheckFailed as failed:
@@ -311,7 +318,7 @@ def command(model_path, data_path, max_auc_loss, max_risk_error, risk_error_shar
     extra = doc["report"]["readability"]["extra_error_share"]
     say(f"readable cut-points cost {extra:+.0%} error before rounding (vs cuts anywhere between model bins)")
     for d in doc["dropped_terms"]:
-        say(f"dropped {d['name']}: {d['reason']}")
+        say(f"dropped {d.get('label') or d['name']}: {d['reason']}")
     slips = doc["report"].get("slips")
     if slips:  # scorecard.audit.slips, as `check` reports it
         row, off = slips["neighbour_row"]["overall"], slips["total_off_by_one"]

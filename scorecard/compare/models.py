@@ -13,6 +13,7 @@ import pandas as pd
 
 from scorecard.model import AdditiveModel, contributions
 from scorecard.model.document import Term
+from scorecard.sheet.printed import term_label
 
 PROBES_PER_AXIS = 200
 
@@ -85,15 +86,16 @@ def model_changes(old: AdditiveModel, new: AdditiveModel) -> dict:
     terms = []
     for name in new_names + [n for n in old_names if n not in new_names]:
         if name not in old_names:
-            terms.append({"name": name, "status": "added", "changes": ["new term"]})
+            terms.append({"name": name, "label": term_label(new, name), "status": "added", "changes": ["new term"]})
             continue
         if name not in new_names:
-            terms.append({"name": name, "status": "removed", "changes": ["term removed"]})
+            terms.append({"name": name, "label": term_label(old, name), "status": "removed", "changes": ["term removed"]})
             continue
         a, b = old.term(name), new.term(name)
         changes = []
         if a.kind != b.kind or a.feature_names != b.feature_names:
-            terms.append({"name": name, "status": "changed", "changes": [f"kind or features changed ({a.kind} -> {b.kind})"]})
+            terms.append({"name": name, "label": term_label(new, name), "status": "changed",
+                          "changes": [f"kind or features changed ({a.kind} -> {b.kind})"]})
             continue
         if a.kind == "continuous" and a.shape != b.shape:
             changes.append(f"shape {a.shape} -> {b.shape}")
@@ -106,7 +108,7 @@ def model_changes(old: AdditiveModel, new: AdditiveModel) -> dict:
         centred = float(np.max(np.abs(diff - np.mean(diff)))) if diff.size else 0.0
         if largest > 1e-12:
             changes.append(f"shape moved by up to {largest:.3f} log-odds ({centred:.3f} after a constant shift)")
-        terms.append({"name": name, "status": "changed" if changes else "unchanged", "changes": changes,
+        terms.append({"name": name, "label": term_label(new, name), "status": "changed" if changes else "unchanged", "changes": changes,
                       "largest_shift": largest, "largest_shift_after_constant": centred})
     edits_old = [e.get("what", "") for e in old.provenance.get("edits", [])]
     edits_new = [e.get("what", "") for e in new.provenance.get("edits", [])]

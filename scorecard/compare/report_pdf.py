@@ -25,7 +25,7 @@ def _cell(side: dict | None) -> str:
 
 
 def _term_block(term: dict, s: dict) -> list:
-    head = f"{term['label']} ({term['name']}): {term['status'].upper()}"
+    head = f"{term['label']}: {term['status'].upper()}"  # the printed name (a pair in words), not the JSON name
     parts = [_p(head, s["h"])] + [_p(line, s["body"]) for line in term["changes"]]
     pieces = term.get("pieces") or []
     if term["status"] != "unchanged" and pieces:
@@ -123,7 +123,7 @@ def compare_pdf_bytes(report: dict) -> bytes:
         rows = [["term", "status", "what changed"]]
         extra = []
         for k, t in enumerate(report["terms"], start=1):
-            rows.append([_p(t["name"], s["cell"]), t["status"], _p("; ".join(t["changes"]) or "–", s["cell"])])
+            rows.append([_p(t.get("label") or t["name"], s["cell"]), t["status"], _p("; ".join(t["changes"]) or "–", s["cell"])])
             if t["status"] != "unchanged":
                 extra.append(("BACKGROUND", (0, k), (-1, k), CHANGED))
         story += [_p("Terms", s["h"]), _left(report_table(rows, [50 * mm, 22 * mm, 108 * mm], extra=extra))]

@@ -9,7 +9,7 @@ measured". A piece whose row or points differ is a change to teach.
 
 from __future__ import annotations
 
-from scorecard.sheet import NOT_MEASURED_TEXT, band_of, flag_text, range_text, row_index, short_fingerprint
+from scorecard.sheet import NOT_MEASURED_TEXT, flag_text, range_text, row_index, short_fingerprint, total_band_indices
 from scorecard.sheet.printed import COMPLETED, number_text, reading_of, units
 
 NO_ROW = "(no row)"
@@ -177,9 +177,9 @@ def _version(doc: dict) -> dict:
             "lineage": doc.get("recalibration")}
 
 
-def _band_name(doc: dict, risk: float) -> str | None:
+def _band_name(doc: dict, total: int) -> str | None:
     bands = doc.get("bands") or []
-    return bands[band_of(bands, risk)]["name"] if bands else None
+    return bands[int(total_band_indices(doc, [total])[0])]["name"] if bands else None
 
 
 def conversion_changes(old: dict, new: dict) -> list[dict]:
@@ -191,8 +191,8 @@ def conversion_changes(old: dict, new: dict) -> list[dict]:
         o, n = old_by.get(total), new_by.get(total)
         entry = {"total": total,
                  "old_risk": None if o is None else o["text"], "new_risk": None if n is None else n["text"],
-                 "old_band": None if o is None else _band_name(old, o["risk"]),
-                 "new_band": None if n is None else _band_name(new, n["risk"])}
+                 "old_band": None if o is None else _band_name(old, total),
+                 "new_band": None if n is None else _band_name(new, total)}
         if entry["old_risk"] != entry["new_risk"] or entry["old_band"] != entry["new_band"]:
             out.append(entry)
     return out

@@ -13,7 +13,8 @@
   number as the measurement and goes the way the sheet says;
 - the predicted value is the sheet's total points (`initialScore` 0); the point scale and the conversion are
   `Output` transformations: `log_odds` = offset + log-odds per point × total, `risk` = 1 / (1 + exp(-log_odds))
-  and, when the sheet has bands, `band` by `Discretize` of the risk. A `Targets` rescale is not used, because
+  and, when the sheet has bands, `band` by `Discretize` of the risk (of the total points when the bands carry
+  the totals where they begin). A `Targets` rescale is not used, because
   it would replace the predicted total with the log-odds;
 - the header names the sheet, carries its full fingerprint (an `Extension` and the description), the cautions
   and, for a sheet made from invented data, the invented-data mark.
@@ -181,6 +182,21 @@ def _output(model, sheet: dict) -> None:
     bands = sheet.get("bands") or []
     if bands:
         band = _el(out, "OutputField", name="band", optype="categorical", dataType="string", feature="transformedValue")
+        if all(b.get("first_total") is not None for b in bands):
+            # band edges on the totals (scorecard.sheet.printed.total_band_indices): first_total <= total < next
+            # band's first_total, by the total points; an empty band gets no bin
+            disc = _el(band, "Discretize", field=TOTAL_FIELD, dataType="string")
+            firsts = [int(b["first_total"]) for b in bands] + [None]
+            for k, b in enumerate(bands):
+                if firsts[k + 1] is not None and firsts[k + 1] <= firsts[k]:
+                    continue
+                attrs = {"closure": "closedOpen"}
+                if k > 0:
+                    attrs["leftMargin"] = repr(float(firsts[k]))
+                if firsts[k + 1] is not None and k < len(bands) - 1:
+                    attrs["rightMargin"] = repr(float(firsts[k + 1]))
+                _el(_el(disc, "DiscretizeBin", binValue=b["name"]), "Interval", **attrs)
+            return
         disc = _el(band, "Discretize", field="risk", dataType="string")
         lower = None
         for b in bands:  # previous upper_risk <= risk < upper_risk; the first and last bins are open-ended

@@ -21,6 +21,7 @@ import numpy as np
 from scorecard.fit.boosting import BoostSettings, boost_one_feature_terms, boost_pair_terms, split_rows
 from scorecard.fit.pairs import PairScore, choose_pairs, rank_pairs
 from scorecard.fit.purify import centre, purify_grid
+from scorecard.sheet.printed import pair_name
 
 
 @dataclass
@@ -177,7 +178,7 @@ def fit_additive_terms(
         chosen = choose_pairs(ranking, pairs, max_pairs, alpha)
         if progress:
             label = names or [str(j) for j in range(len(codes))]
-            picked = ", ".join(f"{label[s.first]} x {label[s.second]}" for s in chosen) or "none"
+            picked = ", ".join(pair_name([label[s.first], label[s.second]]) for s in chosen) or "none"
             progress(f"pairs: ranked {len(ranking)} by FAST gain; chosen: {picked}")
     layouts = [
         PairBins(s.first, s.second, (coarse_maps[s.first], coarse_maps[s.second]),

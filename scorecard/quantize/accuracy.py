@@ -61,11 +61,21 @@ def recalibration(p: np.ndarray, logodds: np.ndarray, iterations: int = 50) -> t
     return float(beta[0]), float(beta[1])
 
 
+def band_agreement(bands: list[dict] | None, model_risk: np.ndarray, sheet_risk: np.ndarray,
+                   sheet_band: np.ndarray | None = None) -> float | None:
+    """Share of patients whose band on the sheet is their model band; the sheet band is `sheet_band` when given
+    (the band of each patient's total, `band_edges`), else that of the sheet's risk. None without bands."""
+    if not bands:
+        return None
+    on_sheet = band_indices(bands, sheet_risk) if sheet_band is None else np.asarray(sheet_band)
+    return float(np.mean(band_indices(bands, model_risk) == on_sheet))
+
+
 def quick_figures(model_logodds: np.ndarray, sheet_logodds: np.ndarray, max_risk_error: float, auc_model: float | None = None,
-                  bands: list[dict] | None = None, percentile: float = 95.0) -> dict:
+                  bands: list[dict] | None = None, percentile: float = 95.0, sheet_band: np.ndarray | None = None) -> dict:
     """The figures the search judges a sheet by: ΔAUC, the share over the risk bound, the `percentile`-th
-    percentile, mean and largest |Δrisk|, and band agreement (None without bands). Arrays in, so any caller
-    holding per-patient model and sheet log-odds can reuse it."""
+    percentile, mean and largest |Δrisk|, and band agreement (None without bands; see `band_agreement`).
+    Arrays in, so any caller holding per-patient model and sheet log-odds can reuse it."""
     p = logistic(model_logodds)
     q = logistic(sheet_logodds)
     auc_model = expected_auc(p, model_logodds) if auc_model is None else auc_model
@@ -77,12 +87,12 @@ def quick_figures(model_logodds: np.ndarray, sheet_logodds: np.ndarray, max_risk
         "percentile_abs_risk_error": float(np.quantile(err, percentile / 100)),
         "mean_abs_risk_error": float(err.mean()),
         "max_abs_risk_error": float(err.max()),
-        "band_agreement": float(np.mean(band_indices(bands, p) == band_indices(bands, q))) if bands else None,
+        "band_agreement": band_agreement(bands, p, q, sheet_band),
     }
 
 
 def full_figures(model_logodds: np.ndarray, sheet_logodds: np.ndarray, max_risk_error: float, bands: list[dict],
-                 bootstrap: int = 200, seed: int = 0, percentile: float = 95.0) -> dict:
+                 bootstrap: int = 200, seed: int = 0, percentile: float = 95.0, sheet_band: np.ndarray | None = None) -> dict:
     """Every figure of the sheet document's `achieved` block (risks as fractions)."""
     p = logistic(model_logodds)
     q = logistic(sheet_logodds)
@@ -99,9 +109,7 @@ def full_figures(model_logodds: np.ndarray, sheet_logodds: np.ndarray, max_risk_
             losses.append(expected_auc(p[idx], model_logodds[idx]) - expected_auc(p[idx], sheet_logodds[idx]))
         ci = [float(np.quantile(losses, 0.025)), float(np.quantile(losses, 0.975))]
     intercept, slope = recalibration(p, sheet_logodds)
-    agreement = None
-    if bands:
-        agreement = float(np.mean(band_indices(bands, p) == band_indices(bands, q)))
+    agreement = band_agreement(bands, p, q, sheet_band)
     return {
         "n": int(len(p)),
         "auc_model": auc_model,

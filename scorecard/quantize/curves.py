@@ -20,7 +20,7 @@ from scorecard.model.document import Feature, Term
 from scorecard.model.predict import axis_bins, feature_values, level_bins, step_bins
 from scorecard.quantize.nice import candidate_cuts, cut_boundary
 from scorecard.quantize.segment import best_segmentations, rows_of_pieces, segment_table, smallest_cap
-from scorecard.sheet.printed import COMPLETED, NOT_MEASURED_TEXT, ROUNDED, flag_text, range_text, read_units_array
+from scorecard.sheet.printed import COMPLETED, NOT_MEASURED_TEXT, ROUNDED, flag_text, pair_name, range_text, read_units_array
 
 EPS_WEIGHT = 1e-6  # share of the mean weight given to every piece, so unpopulated pieces still get a value
 MAX_LINEAR_PIECES = 400
@@ -417,7 +417,7 @@ class PairCurve(Curve):
         grid = [[int(points[r * n1 + c]) for c in range(n1)] for r in range(n0)]
         missing_points = int(points[n0 * n1]) if self.missing_allowed else min(min(row) for row in grid)
         return {
-            "name": self.name, "kind": "pair", "label": " and ".join(f.label for f in self.features),
+            "name": self.name, "kind": "pair", "label": pair_name([f.label for f in self.features]),
             "features": [f.name for f in self.features], "labels": [f.label for f in self.features],
             "axes": axes, "points": grid, "missing_points": missing_points, "missing_allowed": self.missing_allowed,
         }

@@ -27,6 +27,7 @@ from scorecard import __version__
 from scorecard.errors import CheckFailed, UserError
 from scorecard.model import AdditiveModel, logistic
 from scorecard.quantize.allocate import allocate_rows
+from scorecard.quantize.band_edges import best_band_edges
 from scorecard.quantize.backfit import Backfit, smallest_plans
 from scorecard.quantize.certificate import certificate
 from scorecard.quantize.curves import ContinuousCurve, Curve, RowPlan, LevelCurve, build_curves
@@ -35,7 +36,8 @@ from scorecard.quantize.nice import MAX_CANDIDATES
 from scorecard.quantize.population import Population, evaluation_population
 from scorecard.quantize.points import Quadratic, fit_scale_offset, polish_points, round_points, weighted_error
 from scorecard.quantize.refit import refit_row_values
-from scorecard.sheet import CAUTIONS, ROUNDING_RULE, risk_text
+from scorecard.sheet import CAUTIONS, ROUNDING_RULE, band_indices, risk_text, total_band_indices
+from scorecard.sheet.printed import pair_effect_name
 
 PLACEHOLDER_WORDING = "Write your unit's agreed action here (local protocol)."
 
@@ -126,6 +128,7 @@ class Candidate:
     passed: bool
     confirm_figures: dict | None = None  # on the held-out part, when there is one
     confirm_logodds: np.ndarray | None = None
+    band_edges: list[int] | None = None  # first total (sum of these points) of each band, from `band_edges`
 
 
 @dataclass
@@ -147,13 +150,49 @@ class Problem:
     confirm_curves: list[Curve] | None = None
     steps: list = field(default_factory=list)  # the allocation path (backfit.Step), set by `search`
     frontier: list = field(default_factory=list)  # alternative sheets (`frontier`)
+    band_edge_search: bool = True  # band edges at the totals that maximise band agreement (`band_edges`)
 
-    def figures(self, sheet_logodds: np.ndarray, held_out: bool = False) -> dict:
+    def figures(self, sheet_logodds: np.ndarray, held_out: bool = False, sheet_band: np.ndarray | None = None) -> dict:
         """The figures the bound is judged on, for sheet log-odds on the patients choosing the sheet (or on
-        the held-out part)."""
+        the held-out part); `sheet_band` is each patient's band by total when the band edges were searched."""
         pop = self.confirm if held_out else self.population
         return quick_figures(pop.logodds, sheet_logodds, self.bound.max_risk_error, None if held_out else self.auc_model,
-                             self.bands, self.bound.risk_error_percentile)
+                             self.bands, self.bound.risk_error_percentile, sheet_band)
+
+    def model_band(self, held_out: bool = False) -> np.ndarray:
+        return band_indices(self.bands, (self.confirm if held_out else self.population).risk)
+
+    def judge(self, design: "Design", pts: np.ndarray, scale: float, offset: float, held_out: bool = True):
+        """(band edges, figures on the choosing part, figures held out or None) of points on a design: the band
+        edges are searched on the choosing part's totals and applied unchanged to the held-out part."""
+        totals = pts[design.ids].sum(axis=1)
+        edges = self.band_edges(design, pts, scale, offset, totals)
+        figs = self.figures(offset + scale * totals, sheet_band=_bands_of(edges, totals))
+        held = None
+        if held_out and self.confirm is not None:
+            confirm_totals = pts[design.confirm_ids].sum(axis=1)
+            held = self.figures(offset + scale * confirm_totals, held_out=True, sheet_band=_bands_of(edges, confirm_totals))
+        return edges, figs, held
+
+    def band_edges(self, design: "Design", pts: np.ndarray, scale: float, offset: float, totals: np.ndarray) -> list[int] | None:
+        """First total of each band (totals as sums of these points), chosen for band agreement on the choosing
+        part (`best_band_edges`; ties to where the printed risks cross the band limits); None without bands or
+        without the search (then a total's band is that of its printed risk)."""
+        if not self.bands or not self.band_edge_search:
+            return None
+        s = design.starts
+        lo = int(sum(pts[s[t]:s[t + 1]].min() for t in range(len(s) - 1)))
+        hi = int(sum(pts[s[t]:s[t + 1]].max() for t in range(len(s) - 1)))
+        risk = logistic(offset + scale * np.arange(lo, hi + 1, dtype=float))
+        preferred = [lo] + [lo + int(np.searchsorted(risk, b["upper_risk"], side="left")) for b in self.bands[:-1]]
+        return best_band_edges(totals, self.model_band(), len(self.bands), lo, hi, preferred)
+
+
+def _bands_of(edges: list[int] | None, totals: np.ndarray) -> np.ndarray | None:
+    """Band of each total under these edges (None: no searched edges)."""
+    if edges is None:
+        return None
+    return np.searchsorted(np.asarray(edges[1:], dtype=np.int64), totals, side="right")
 
 
 def _design(problem: Problem, layouts: list[RowPlan]):
@@ -267,12 +306,12 @@ def _attempt(problem: Problem, design: Design, target: int, polish: bool = False
     bound = problem.bound
     scale, (pts, offset) = found
     sheet = offset + scale * pts[design.ids].sum(axis=1)
-    figs = problem.figures(sheet)
+    edges, figs, _ = problem.judge(design, pts, scale, offset, held_out=False)
     passed = not bound.misses(figs)
     confirm_figs = confirm_lo = None
     if problem.confirm is not None and (passed or polish):
         confirm_lo = offset + scale * pts[design.confirm_ids].sum(axis=1)
-        confirm_figs = problem.figures(confirm_lo, held_out=True)
+        confirm_figs = problem.judge(design, pts, scale, offset)[2]
         passed = passed and not bound.misses(confirm_figs)
     s = design.starts
     per_term = [pts[s[t]:s[t + 1]] for t in range(len(design.layouts))]
@@ -281,7 +320,7 @@ def _attempt(problem: Problem, design: Design, target: int, polish: bool = False
                           "auc_loss": figs["auc_loss"], "share_over_risk_error": figs["share_over_risk_error"],
                           "held_out_checked": confirm_figs is not None, "passed": passed})
     return Candidate(design.budget, design.choice, design.layouts, per_term, scale, offset, sheet, figs, total_range, passed,
-                     confirm_figs, confirm_lo)
+                     confirm_figs, confirm_lo, edges)
 
 
 def _evaluate(problem: Problem, budget: int) -> tuple[Design, Candidate] | None:
@@ -339,7 +378,8 @@ def split_populations(model: AdditiveModel, data: pd.DataFrame | None, hold_out:
 
 def prepare(model: AdditiveModel, data: pd.DataFrame | None = None, bound: Bound | None = None,
             allow_negative: bool = False, population: Population | None = None,
-            max_candidates: int = MAX_CANDIDATES, bands: list[dict] | None = None, hold_out: bool = False) -> Problem:
+            max_candidates: int = MAX_CANDIDATES, bands: list[dict] | None = None, hold_out: bool = False,
+            band_edge_search: bool = True, band_edge_weight: float | None = None) -> Problem:
     """Everything the search needs. With `hold_out` (and no `population` given) the sheet is chosen on one
     part of the patients and confirmed on the other (`split_populations`)."""
     bands = list(bands or [])
@@ -351,15 +391,33 @@ def prepare(model: AdditiveModel, data: pd.DataFrame | None = None, bound: Bound
     if population is None:
         population, confirm = split_populations(model, data, hold_out)
     p = population.risk
-    weight = p * (1 - p)
+    weight = p * (1 - p) * edge_weight_factor(population.logodds, bands,
+                                              BAND_EDGE_WEIGHT if band_edge_weight is None else band_edge_weight)
     curves = build_curves(model, population.frame, max_candidates)
     options = [c.options(weight, bound.max_rows, bound.max_row_error) for c in curves]
     auc_model = expected_auc(p, population.logodds)
-    problem = Problem(model, population, curves, options, weight, auc_model, bound, allow_negative, bands)
+    problem = Problem(model, population, curves, options, weight, auc_model, bound, allow_negative, bands,
+                      band_edge_search=band_edge_search)
     if confirm is not None:
         problem.confirm = confirm
         problem.confirm_curves = build_curves(model, confirm.frame, max_candidates)
     return problem
+
+
+BAND_EDGE_WEIGHT = 0.0  # extra weight at a band limit (see edge_weight_factor); measured in docs/quantization.md
+BAND_EDGE_WIDTH = 0.25  # log-odds: how far from a band limit the extra weight reaches (a Gaussian's sd)
+
+
+def edge_weight_factor(logodds: np.ndarray, bands: list[dict], extra: float) -> np.ndarray:
+    """1 + extra x exp(-d^2 / 2 BAND_EDGE_WIDTH^2), d the log-odds distance from the nearest band limit: a
+    patient whose model risk is near a band limit changes band with a small error, so the row search and the
+    rounding are asked to get them nearer (1 everywhere without bands or with extra 0)."""
+    limits = [b["upper_risk"] for b in bands if b.get("upper_risk") is not None]
+    if not limits or extra == 0:
+        return np.ones_like(logodds)
+    z = np.log(np.array(limits) / (1 - np.array(limits)))
+    d = np.min(np.abs(np.asarray(logodds)[:, None] - z[None, :]), axis=1)
+    return 1.0 + extra * np.exp(-0.5 * (d / BAND_EDGE_WIDTH) ** 2)
 
 
 def search(problem: Problem, progress: Callable[[str], None] | None = None) -> Candidate:
@@ -444,8 +502,7 @@ def frontier(problem: Problem) -> list[dict]:
             if found is None:
                 continue
             scale, (pts, offset) = found
-            figs = problem.figures(offset + scale * pts[design.ids].sum(axis=1))
-            held = None if problem.confirm is None else problem.figures(offset + scale * pts[design.confirm_ids].sum(axis=1), held_out=True)
+            _, figs, held = problem.judge(design, pts, scale, offset)
             shown = held or figs
             out.append({"printed_rows": steps[k].printed, "total_points": target, "auc_loss": shown["auc_loss"],
                         "band_agreement": shown["band_agreement"], "p95_abs_risk_error": shown["p95_abs_risk_error"],
@@ -571,7 +628,7 @@ def _tradeoff(problem: Problem) -> list[dict]:
         if found is None:
             continue
         scale, (pts, offset) = found
-        figs = problem.figures(offset + scale * pts[d.ids].sum(axis=1))
+        figs = problem.judge(d, pts, scale, offset, held_out=False)[1]
         out.append({"total_points": target, "auc_loss": figs["auc_loss"], "p95_abs_risk_error": figs["p95_abs_risk_error"],
                     "mean_abs_risk_error": figs["mean_abs_risk_error"], "share_over_risk_error": figs["share_over_risk_error"],
                     "max_abs_risk_error": figs["max_abs_risk_error"], "band_agreement": figs["band_agreement"]})
@@ -622,7 +679,7 @@ def _term_label(curve) -> str:
     of its two features beyond each alone (so a left-off pair never reads as if the features were left off)."""
     features = getattr(curve, "features", None)
     if features:
-        return f"the combined effect of {features[0].label} and {features[1].label}, beyond each alone"
+        return pair_effect_name([f.label for f in features])
     return curve.feature.label
 
 
@@ -641,9 +698,11 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
     model = problem.model
     scale, offset = cand.scale, cand.offset
     terms, dropped, piece_errors = [], [], {}
+    moved_points = 0  # points of constant terms, moved into the offset: the printed totals are lower by this
     for curve, lay, pts in zip(problem.curves, cand.layouts, cand.points):
         if np.ptp(pts) == 0:
             offset += scale * float(pts[0])  # a constant term moves into the offset
+            moved_points += int(pts[0])
             effect = float(np.ptp(curve.scores))
             zeroed = _zero_edit(model, curve.name)
             if effect == 0 and zeroed is not None:
@@ -691,14 +750,20 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
         model_lo = np.concatenate([model_lo, problem.confirm.logodds])
         sheet_lo = np.concatenate([sheet_lo, cand.confirm_logodds])
     patient_total = np.rint((sheet_lo - offset) / scale).astype(np.int64)
+    if bands and cand.band_edges is not None:  # the searched edges, as printed totals
+        bands = [{**band, "first_total": total_min if b == 0 else int(min(max(edge - moved_points, total_min), total_max + 1))}
+                 for b, (band, edge) in enumerate(zip(bands, cand.band_edges))]
     add_spread(conversion, patient_total, logistic(model_lo))
     bands = band_spread(bands, conversion, patient_total, logistic(model_lo))
     say_bound = problem.bound
     held_out = cand.confirm_logodds is not None
+    n_chosen = problem.population.size
+    sheet_band = total_band_indices({"bands": bands, "conversion": conversion}, patient_total) if bands else None
     # the figures printed and reported are the held-out ones when there is a held-out part
     figures = full_figures(problem.confirm.logodds if held_out else problem.population.logodds,
                            cand.confirm_logodds if held_out else cand.sheet_logodds, say_bound.max_risk_error, bands,
-                           bootstrap=bootstrap, percentile=say_bound.risk_error_percentile)
+                           bootstrap=bootstrap, percentile=say_bound.risk_error_percentile,
+                           sheet_band=None if sheet_band is None else sheet_band[n_chosen:] if held_out else sheet_band)
     cert = certificate(piece_errors, offset, model.intercept, scale, total_min, total_max)
     outcome = dict(model.outcome)
     report = {
@@ -712,7 +777,8 @@ def build_sheet(problem: Problem, cand: Candidate, bands: list[dict], merge_equa
     }
     if held_out:
         report["in_sample"] = full_figures(problem.population.logodds, cand.sheet_logodds, say_bound.max_risk_error, bands,
-                                           bootstrap=0, percentile=say_bound.risk_error_percentile)
+                                           bootstrap=0, percentile=say_bound.risk_error_percentile,
+                                           sheet_band=None if sheet_band is None else sheet_band[:n_chosen])
     doc = {
         "format_version": 1,
         "document": "scorecard-sheet",
@@ -764,10 +830,8 @@ def band_spread(bands: list[dict], conversion: list[dict], total: np.ndarray, mo
     """Each band with how many in 100 of the patients the sheet puts in it the exact model puts in another band."""
     if not bands:
         return bands
-    uppers = np.array([b["upper_risk"] if b["upper_risk"] is not None else np.inf for b in bands])
-    risk_at = {c["total"]: c["risk"] for c in conversion}
-    sheet_band = np.searchsorted(uppers, np.array([risk_at[int(t)] for t in total]), side="right")
-    model_band = np.searchsorted(uppers, model_risk, side="right")
+    sheet_band = total_band_indices({"bands": bands, "conversion": conversion}, total)
+    model_band = band_indices(bands, model_risk)
     out = []
     for b, band in enumerate(bands):
         inside = sheet_band == b
@@ -792,7 +856,8 @@ def _term_points(term: dict) -> list[int]:
 def quantize_model(model: AdditiveModel, data: pd.DataFrame | None = None, bound: Bound | None = None,
                    bands: list[dict] | None = None, allow_negative: bool = False, merge_equal_levels: bool = False,
                    bootstrap: int = 200, title: str | None = None, progress: Callable[[str], None] | None = None,
-                   population: Population | None = None, hold_out: bool = True) -> dict:
+                   population: Population | None = None, hold_out: bool = True, band_edge_search: bool = True,
+                   band_edge_weight: float | None = None) -> dict:
     """The sheet document (a plain dict, not yet fingerprinted) for `model`: the simplest sheet meeting
     `bound` on `data` (or on a synthetic population from the model's bin counts), confirmed on held-out
     patients (`hold_out`, see `split_populations`; not when `population` is given). Raises CheckFailed with
@@ -801,14 +866,17 @@ def quantize_model(model: AdditiveModel, data: pd.DataFrame | None = None, bound
     say = progress or (lambda _m: None)
     # many small vector operations: BLAS threads only contend with each other on a shared machine
     with threadpool_limits(1):
-        problem = prepare(model, data, bound, allow_negative, population, bands=bands, hold_out=hold_out and population is None)
+        problem = prepare(model, data, bound, allow_negative, population, bands=bands, hold_out=hold_out and population is None,
+                          band_edge_search=band_edge_search, band_edge_weight=band_edge_weight)
         say("patients the sheet is chosen on: " + problem.population.description
             + ("" if problem.confirm is None else f"; confirmed on {problem.confirm.description}"))
         cand = search(problem, progress)
         if bootstrap:
             say(f"measuring the chosen sheet ({bootstrap} bootstrap resamples for the ΔAUC interval)")
         settings = {"max_row_error": bound.max_row_error, "allow_negative": allow_negative,
-                    "merge_equal_levels": merge_equal_levels, "bootstrap": bootstrap, "held_out": problem.confirm is not None}
+                    "merge_equal_levels": merge_equal_levels, "bootstrap": bootstrap, "held_out": problem.confirm is not None,
+                    "band_edges": "searched" if band_edge_search and bands else "at the band risk limits",
+                    "band_edge_weight": BAND_EDGE_WEIGHT if band_edge_weight is None else band_edge_weight}
         doc = build_sheet(problem, cand, bands or [], merge_equal_levels, bootstrap, title, settings)
         doc["report"]["slips"] = _slips(doc, problem)
         return doc

@@ -36,6 +36,9 @@ def recalibrated_sheet(sheet: dict, figures: dict, data: dict) -> dict:
         risk = _logistic(offset + lpp * int(entry["total"]))
         conversion.append({"total": int(entry["total"]), "risk": risk, "text": risk_text(risk)})
     new["conversion"] = conversion
+    # band edges chosen on totals (the quantizer's band-edge search) suit the original model's risks; on the new
+    # conversion each total's band is again that of its printed risk
+    new["bands"] = [{k: v for k, v in band.items() if k != "first_total"} for band in sheet.get("bands") or []]
     previous = sheet.get("recalibration")
     before = previous["model_logodds"] if previous else {"intercept": 0.0, "slope": 1.0}
     cert = copy.deepcopy(sheet["certificate"])

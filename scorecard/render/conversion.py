@@ -14,7 +14,7 @@ from reportlab.platypus import Flowable, KeepTogether, Paragraph, Spacer, Table,
 from scorecard.pdf_plumbing import BOLD, REGULAR, text_width
 from scorecard.render.styles import Styles
 from scorecard.render.text import markup, total_text
-from scorecard.sheet.printed import SPREAD_LEFT_OFF, band_of, prints_spread, spread_text
+from scorecard.sheet.printed import SPREAD_LEFT_OFF, band_edge_note, conversion_bands, prints_spread, spread_text
 
 BAND_TINTS = [colors.white, colors.Color(0.9, 0.9, 0.9), colors.Color(0.8, 0.8, 0.8), colors.Color(0.7, 0.7, 0.7)]
 PAD = 2.0
@@ -34,7 +34,7 @@ def row_bands(sheet: dict) -> list[int | None]:
     bands = sheet.get("bands") or []
     if not bands:
         return [None] * len(sheet["conversion"])
-    return [band_of(bands, row["risk"]) for row in sheet["conversion"]]
+    return conversion_bands(sheet)
 
 
 class ConversionTable(Flowable):
@@ -220,7 +220,9 @@ def bands_block(sheet: dict, styles: Styles, width: float) -> list[Flowable]:
     table = Table(data, colWidths=[name_w, totals_w, risk_w] + ([other_w] if spread else []) + [rest], hAlign="LEFT")
     table.setStyle(TableStyle(commands))
     table.tracked_as = "the risk bands"
-    return [KeepTogether([title, Spacer(1, 3), table]), Spacer(1, styles.body_pt)]
+    note = band_edge_note(sheet)
+    under = [Spacer(1, 2), Paragraph(markup(note), s.small)] if note else []
+    return [KeepTogether([title, Spacer(1, 3), table] + under), Spacer(1, styles.body_pt)]
 
 
 def _nice_step(span: float, target: int) -> float:

@@ -7,10 +7,9 @@ from __future__ import annotations
 
 from xml.sax.saxutils import escape
 
-from scorecard.sheet.printed import unit_text
+from scorecard.sheet.printed import pair_name, unit_text
 
 MINUS = "\u2212"  # a real minus sign: a hyphen can vanish on a photocopy or read as a dash
-TIMES = "\u00d7"
 
 
 def sheet_has_negative_points(sheet: dict) -> bool:
@@ -47,6 +46,6 @@ def markup(text: str) -> str:
 def term_heading(term: dict) -> str:
     """Block heading: the label, with the unit in brackets for a measured term."""
     if term["kind"] == "pair":
-        return term.get("label") or f" {TIMES} ".join(term["labels"])
+        return term.get("label") or pair_name(term["labels"])
     unit = unit_text(term)
     return f"{term['label']} ({unit})" if unit else term["label"]

@@ -12,19 +12,24 @@ from matplotlib.backends.backend_pdf import PdfPages
 
 from scorecard.jsondoc import atomic_write_bytes
 from scorecard.model.document import AdditiveModel
-from scorecard.review.plots import frame_page, summary_page, term_page
+from scorecard.review.plots import frame_page, shown_name, summary_page, term_page
 from scorecard.review.flags import Flag, FlagSettings, review_flags
-from scorecard.review.importance import TermImportance, rank_terms
+from scorecard.review.importance import TermEffect, rank_terms
+from scorecard.review.preview import sheet_preview
 
 # no dates, and a fixed producer: the same model and cohort give the same bytes
 PDF_METADATA = {"Creator": "scorecard review", "Producer": "scorecard", "CreationDate": None, "ModDate": None}
 
 
 def build_review(
-    model: AdditiveModel, cohort: pd.DataFrame | None, settings: FlagSettings = FlagSettings(), cohort_name: str | None = None
-) -> tuple[list, list[TermImportance], list[Flag]]:
-    """All pages as matplotlib figures (framed and numbered), with the ranking and flags they show."""
-    ranking = rank_terms(model, cohort)
+    model: AdditiveModel, cohort: pd.DataFrame | None, settings: FlagSettings = FlagSettings(), cohort_name: str | None = None,
+    sheet_preview_wanted: bool = True,
+) -> tuple[list, list[TermEffect], list[Flag]]:
+    """All pages as matplotlib figures (framed and numbered), with the ranking and flags they show. With
+    `sheet_preview_wanted` a default sheet is quantised first (`scorecard.review.preview`) and its rows drawn
+    on every term page."""
+    preview = sheet_preview(model, cohort) if sheet_preview_wanted else None
+    ranking = rank_terms(model, cohort, preview)
     flags = review_flags(model, cohort, settings)
     note = f"on {cohort_name}" if cohort is not None else "on the model's training counts"
     fingerprint = model.fingerprint
@@ -32,16 +37,16 @@ def build_review(
         matplotlib.rcdefaults()
         matplotlib.rcParams["hatch.linewidth"] = 0.6
         pages: list[tuple[object, str]] = []
-        first, left = summary_page(model, ranking, flags, settings, note)
-        pages.append((first, "Review summary: importance and flags"))
+        first, left = summary_page(model, ranking, flags, settings, note, preview)
+        pages.append((first, "Review summary: effect on the sheet and flags"))
         while left:
             more, left = summary_page(model, None, left, settings, note)
             pages.append((more, "Review summary: flags (continued)"))
         by_name = {r.term: r for r in ranking}
         for term in model.terms:
             own = [f for f in flags if f.term == term.name]
-            fig = term_page(model, term, cohort, by_name[term.name], own, settings)
-            pages.append((fig, f"Term {term.name}"))
+            fig = term_page(model, term, cohort, by_name[term.name], own, settings, preview)
+            pages.append((fig, f"Term {shown_name(model, term)}"))
         for number, (fig, title) in enumerate(pages, start=1):
             frame_page(fig, model, fingerprint, title, number, len(pages))
     return [fig for fig, _ in pages], ranking, flags

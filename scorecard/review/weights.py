@@ -1,6 +1,6 @@
 """How many patients sit under each bin, level or knot of a term: from a cohort, or the model's own counts.
 
-Edits (isotonic projection, merging levels) and the importance ranking weight a shape by where the patients
+Edits (isotonic projection, pooling levels) and the ranking by spread of risk weight a shape by where the patients
 are. With a cohort the weights are counted from it; without one, the training counts stored in the model are
 used; a term with neither gets equal weights, and the caller is told.
 """

@@ -20,6 +20,7 @@ from scorecard.sheet.printed import (
     ROUNDING_RULE,
     band_indices,
     band_of,
+    conversion_bands,
     flag_text,
     range_text,
     risk_text,
@@ -28,6 +29,7 @@ from scorecard.sheet.printed import (
     round_half_up_array,
     row_index,
     row_indices,
+    total_band_indices,
 )
 
 CAUTIONS = cautions()  # what quantize writes into every new sheet (scorecard/cautions.py)
@@ -41,6 +43,7 @@ __all__ = [
     "ROUNDING_RULE",
     "band_indices",
     "band_of",
+    "conversion_bands",
     "flag_text",
     "load_sheet",
     "range_text",
@@ -48,6 +51,7 @@ __all__ = [
     "risk_text_rounding",
     "round_half_up",
     "round_half_up_array",
+    "total_band_indices",
     "row_index",
     "row_indices",
     "save_sheet",

@@ -234,6 +234,17 @@ def _check_structure(doc: dict) -> str | None:
                 return f"bands[{i}].upper_risk: must be above the previous band's upper_risk"
         if len({bd["name"] for bd in bands}) != len(bands):
             return "bands: two bands have the same name"
+        firsts = [bd.get("first_total") for bd in bands]
+        if any(f is not None for f in firsts):
+            lowest, highest = conv[0]["total"], conv[-1]["total"]
+            if any(f is None for f in firsts):
+                return f"bands[{firsts.index(None)}].first_total: give it on every band or on none"
+            if firsts[0] != lowest:
+                return f"bands[0].first_total: {firsts[0]} must be the lowest total, {lowest}"
+            for i in range(1, len(firsts)):
+                if not firsts[i - 1] <= firsts[i] <= highest + 1:
+                    return (f"bands[{i}].first_total: {firsts[i]} must be from the previous band's first_total "
+                            f"({firsts[i - 1]}) to one above the highest total ({highest + 1})")
     return None
 
 

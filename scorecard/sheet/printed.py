@@ -136,6 +136,35 @@ OTHER_EXPLAINED = ("Other: a category its table does not list (for example a new
                    "\u2018Other\u2019 row; check the spelling first.")
 
 
+PAIR_JOIN = "with"
+
+
+def pair_name(labels) -> str:
+    """The printed name of a two-feature term, in words: the first feature's label, 'with', the second's
+    begun in lower case ('Age with cognitive screen score (0\u201310)'), unless its first word is an
+    abbreviation or starts in lower case already ('Age with ASA grade', 'Age with pH'). The one naming rule
+    for every page, report and message; the term's JSON name ('age x cognition') stays an identifier."""
+    first, second = (str(label) for label in labels)
+    word = second.split(" ", 1)[0]
+    if word[:1].isupper() and not any(c.isupper() for c in word[1:]):
+        second = second[:1].lower() + second[1:]
+    return f"{first} {PAIR_JOIN} {second}"
+
+
+def pair_effect_name(labels) -> str:
+    """A left-off pair, named so it never reads as if its features were left off."""
+    return f"{pair_name(labels)}, their combined effect beyond each alone"
+
+
+def term_label(model, term) -> str:
+    """What a reader knows a model term by (`model` an AdditiveModel, `term` one of its terms or its name):
+    its feature's label, or `pair_name` of its two features' labels; a feature without a label reads as its
+    column name with '_' as spaces."""
+    term = model.term(term) if isinstance(term, str) else term
+    labels = [model.feature(n).label or n.replace("_", " ") for n in term.feature_names]
+    return pair_name(labels) if len(labels) == 2 else labels[0]
+
+
 def row_label(term: dict, row: dict) -> str:
     """The text printed for a row of a one-feature table: its `text`, and for the single measured row of a
     continuous table the sheet's reason for it in brackets ('any measured value (its effect is under one point)')."""
@@ -256,6 +285,52 @@ def band_indices(bands: list[dict], risks) -> np.ndarray:
 def band_of(bands: list[dict], risk: float) -> int:
     """`band_indices` of one risk."""
     return int(band_indices(bands, [risk])[0])
+
+
+def total_band_indices(sheet: dict, totals) -> np.ndarray:
+    """Band of each total on the sheet, the band a nurse reads: when the bands carry `first_total` (the
+    quantizer's band-edge search, docs/quantization.md), band b holds the totals first_total[b] <= t <
+    first_total[b + 1]; otherwise a total's band is that of its printed risk (`band_indices`). Totals outside
+    the conversion are clipped to its ends. The one rule for the band of a total (quantize, render, audit)."""
+    bands = sheet["bands"]
+    entry_totals = np.array([int(c["total"]) for c in sheet["conversion"]], dtype=np.int64)
+    t = np.clip(np.asarray(totals, dtype=np.int64), entry_totals.min(), entry_totals.max())
+    if by_total(bands):
+        return np.searchsorted(np.array([int(b["first_total"]) for b in bands[1:]], dtype=np.int64), t, side="right")
+    risks = np.array([float(c["risk"]) for c in sheet["conversion"]])
+    order = np.argsort(entry_totals, kind="stable")
+    at = order[np.minimum(np.searchsorted(entry_totals[order], t), len(order) - 1)]
+    return band_indices(bands, risks[at])
+
+
+def by_total(bands: list[dict]) -> bool:
+    """Whether the bands carry the totals where they begin (then a total's band is read from them)."""
+    return bool(bands) and all(b.get("first_total") is not None for b in bands)
+
+
+BAND_EDGE_NOTE = ("A band begins at the total where the exact model most often changes band, so the risk printed at "
+                  "a band's first or last total can lie just past the band's limit.")
+
+
+def band_edge_note(sheet: dict) -> str | None:
+    """The note under the band table when a searched band edge differs from where the printed risk crosses the
+    band's limit (BAND_EDGE_NOTE), else None."""
+    bands = sheet.get("bands") or []
+    if not by_total(bands):
+        return None
+    by_risk = [int(b) for b in band_indices(bands, [float(c["risk"]) for c in sheet["conversion"]])]
+    return BAND_EDGE_NOTE if by_risk != conversion_bands(sheet) else None
+
+
+def conversion_bands(sheet: dict) -> list[int]:
+    """The band of every conversion entry, in order (empty without bands): by its total when the bands carry
+    their first totals, else by its printed risk."""
+    bands = sheet.get("bands") or []
+    if not bands:
+        return []
+    if by_total(bands):
+        return [int(b) for b in total_band_indices(sheet, [c["total"] for c in sheet["conversion"]])]
+    return [int(b) for b in band_indices(bands, [float(c["risk"]) for c in sheet["conversion"]])]
 
 
 def flag_text(value: bool) -> str:

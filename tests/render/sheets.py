@@ -104,7 +104,7 @@ def twelve_term_sheet() -> dict:
              [(["own_home"], "Own home", 0), (["relative"], "With relatives", 1), (["care_home"], "Care home", 3)],
              missing=1),
         _flag("prior_delirium", "Delirium before", 0, 4),
-        {"name": "age:cognition", "kind": "pair", "label": "Age × cognitive screen", "features": ["age", "cognition"],
+        {"name": "age:cognition", "kind": "pair", "label": "Age with cognitive screen", "features": ["age", "cognition"],
          "labels": ["Age", "Cognitive screen"],
          "axes": [{"feature": "age", "kind": "continuous", "unit": "years", "decimals": 0,
                    "training_range": {"min": 60, "max": 101},
@@ -181,7 +181,7 @@ def categorical_pair_sheet() -> dict:
     """The 12-term sheet with its pair swapped for a category x flag grid, and no risk bands."""
     sheet = copy.deepcopy(twelve_term_sheet())
     sheet["terms"][-1] = {
-        "name": "residence:prior_delirium", "kind": "pair", "label": "Lived before admission × delirium before",
+        "name": "residence:prior_delirium", "kind": "pair", "label": "Lived before admission with delirium before",
         "features": ["residence", "prior_delirium"], "labels": ["Lived before admission", "Delirium before"],
         "axes": [{"feature": "residence", "kind": "categorical",
                   "rows": [{"levels": ["own_home", "relative"], "text": "Own home or with relatives"},

@@ -323,7 +323,7 @@ def test_category_by_flag_grid_and_a_sheet_without_bands(tmp_path):
     validate_sheet_dict(doc)
     pdf = _render(doc, "ward-a4")
     lines = _column_lines(pdf, 0, "ward-a4", 2)
-    start = next(i for i, line in enumerate(lines) if "×" in line)  # the pair heading (it wraps in a column)
+    start = next(i for i, line in enumerate(lines) if " with " in line)  # the pair heading (it wraps in a column)
     grid = lines[start:start + 12]
     assert "Care home 0 +2" in grid and "If either is not measured: +1" in grid, grid
     conversion = " ".join(_pages(pdf)[1][4].split())

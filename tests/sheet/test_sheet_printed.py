@@ -105,3 +105,32 @@ def test_missing_value_goes_to_missing_row():
     assert row_index(rows, None, 0) == 2
     assert row_indices(rows, np.array([np.nan, 4.5, 4.49]), 0).tolist() == [2, 1, 0]
     assert row_index(rows[:2], float("nan"), 0) == -1
+
+
+@pytest.mark.parametrize(
+    "labels,name",
+    [
+        # the wording asked for in issue 13 (a pair named in words: each label joined by "with")
+        (["Age", "Cognitive screen score (0–10)"], "Age with cognitive screen score (0–10)"),
+        (["Age", "ASA grade"], "Age with ASA grade"),  # an abbreviation keeps its capitals
+        (["Age", "pH"], "Age with pH"),
+        (["Lives (before admission)", "Delirium before"], "Lives (before admission) with delirium before"),
+    ],
+)
+def test_a_pair_is_named_in_words(labels, name):
+    from scorecard.sheet.printed import pair_effect_name, pair_name
+
+    assert pair_name(labels) == name
+    assert pair_effect_name(labels).startswith(name + ", ") and " x " not in pair_name(labels)
+
+
+def test_model_terms_are_named_by_their_labels(tmp_path):
+    from scorecard.demo import true_model
+    from scorecard.sheet.printed import term_label
+
+    model = true_model()
+    pair = next(t for t in model.terms if t.kind == "pair")
+    labels = [model.feature(n).label for n in pair.features]
+    assert term_label(model, pair) == term_label(model, pair.name) == f"{labels[0]} with {labels[1][0].lower()}{labels[1][1:]}"
+    single = next(t for t in model.terms if t.kind != "pair")
+    assert term_label(model, single) == model.feature(single.feature).label
