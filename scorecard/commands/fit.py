@@ -55,6 +55,23 @@ def _pairs_option(text: str):
     return n
 
 
+def _dask_engine(scheduler: str | None, workers: int):
+    """The Dask cluster to fit on; one-line errors when dask is missing or the scheduler cannot be reached."""
+    try:
+        from scorecard.fit.dask_engine import DaskEngine
+    except ImportError as exc:
+        raise UserError(str(exc)) from None
+    try:
+        return DaskEngine(scheduler=scheduler, workers=workers, timeout=10)
+    except (OSError, ValueError, TypeError) as exc:  # refused, timed out, or not an address
+        detail = " ".join(str(exc).split())[:160]
+        if not scheduler:
+            raise UserError(f"--engine dask: cannot start a local Dask cluster ({detail}); give --scheduler ADDRESS "
+                            "of a running one, or fit in memory without --engine") from None
+        raise UserError(f"--scheduler: cannot reach the Dask scheduler at {scheduler!r} ({detail}); give a running "
+                        "scheduler's address such as tcp://host:8786, or leave --scheduler out to start a local cluster") from None
+
+
 @click.command()
 @click.argument("data_path", metavar="DATA.csv", type=click.Path())
 @click.option("--outcome", required=True, metavar="COLUMN", help="The 0/1 (or yes/no) outcome column: 1 = the event happened.")
@@ -91,10 +108,18 @@ def _pairs_option(text: str):
               help="The data is invented (a demo, a test): the model, its sheets and every page made from them say "
                    "INVENTED DATA - NOT FOR CLINICAL USE.")
 @click.option("--jobs", default=None, type=click.IntRange(1), help="Processes for the bags (default: all usable cores); the result does not depend on it.")
+@click.option("--engine", type=click.Choice(["memory", "dask"]), default="memory", show_default=True,
+              help="Where the per-row work runs: in this process, or on a Dask cluster (needs the [dask] extra); "
+                   "the same data and seed give the same model either way.")
+@click.option("--scheduler", default=None, metavar="ADDRESS",
+              help="--engine dask: the running Dask scheduler to use, e.g. tcp://10.0.0.5:8786 (default: start a "
+                   "local cluster of --workers processes).")
+@click.option("--workers", default=None, type=click.IntRange(1, 64),
+              help="--engine dask without --scheduler: worker processes of the local cluster (default 2).")
 @click.option("-o", "--output", required=True, type=click.Path(), help="Model document to write (*.model.json).")
 def command(data_path, outcome, features, exclude, categorical, weights_column, pairs_text, max_pairs, bags, seed,
             learning_rate, min_leaf, max_bins, name, event, horizon, population, labels, units, decimals, score_at,
-            completed, orders, invented, jobs, output):
+            completed, orders, invented, jobs, engine, scheduler, workers, output):
     """Fit an additive risk model to DATA.csv and write it as a model document.
 
     \b
@@ -116,6 +141,11 @@ def command(data_path, outcome, features, exclude, categorical, weights_column, 
     """
     out = output_path(output, data_path)
     pairs = _pairs_option(pairs_text)  # before reading: a typo in an option should not wait for the data
+    if engine != "dask" and (scheduler or workers):
+        raise UserError(f"{'--scheduler' if scheduler else '--workers'} applies to --engine dask only; add --engine dask or leave it out")
+    if scheduler and workers:
+        raise UserError("--workers sizes the local cluster started without --scheduler; a running scheduler has its own workers")
+    cluster = _dask_engine(scheduler, workers or 2) if engine == "dask" else None  # a bad address fails before the read
     frame = read_table(data_path, "patient data")
     source = str(data_path)
     columns = list(frame.columns)
@@ -178,7 +208,12 @@ def command(data_path, outcome, features, exclude, categorical, weights_column, 
         n_jobs=jobs, random_state=seed, verbose=1,
     )
     try:
-        estimator.fit(table, y, sample_weight=weights)
+        if cluster is None:
+            estimator.fit(table, y, sample_weight=weights)
+        else:
+            with cluster:
+                say(f"fitting on the Dask cluster at {cluster.client.scheduler.address} ({len(cluster.workers)} workers)")
+                estimator.fit(table, y, sample_weight=weights, engine=cluster)
     except ValueError as exc:  # e.g. all weights zero
         raise UserError(f"{source}: cannot fit: {exc}") from None
     model = estimator.to_model(

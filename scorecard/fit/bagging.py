@@ -18,8 +18,8 @@ from typing import Callable
 
 import numpy as np
 
-from scorecard.fit.boosting import BoostSettings, boost_one_feature_terms, boost_pair_terms, split_rows
-from scorecard.fit.pairs import PairScore, choose_pairs, rank_pairs
+from scorecard.fit.boosting import BoostSettings, RowsInMemory, answer_with, one_feature_terms, pair_terms, split_rows
+from scorecard.fit.pairs import PairScore, choose_pairs, pair_histogram_sums, rank_from_histograms
 from scorecard.fit.purify import centre, purify_grid
 from scorecard.sheet.printed import pair_name
 
@@ -55,7 +55,8 @@ def usable_cores() -> int:
         return max(os.cpu_count() or 1, 1)
 
 
-def _bag_rows(y, settings: BoostSettings, bag_fraction: float, seed: np.random.SeedSequence):
+def bag_rows(y, settings: BoostSettings, bag_fraction: float, seed: np.random.SeedSequence):
+    """(fitting rows, held-out rows) of one bag, from the outcome of every row and the bag's seed."""
     rng = np.random.default_rng(seed)
     fit_rows, held_rows = split_rows(y, settings.validation_fraction, rng)
     if bag_fraction < 1.0 and len(fit_rows) > 0:
@@ -64,23 +65,80 @@ def _bag_rows(y, settings: BoostSettings, bag_fraction: float, seed: np.random.S
     return fit_rows, held_rows
 
 
-def _stage1_bag(codes, y, w, n_slots, ordered, settings, bag_fraction, seed):
-    fit_rows, held_rows = _bag_rows(y, settings, bag_fraction, seed)
-    return boost_one_feature_terms(
-        [c[fit_rows] for c in codes], y[fit_rows], w[fit_rows],
-        [c[held_rows] for c in codes], y[held_rows], w[held_rows],
-        n_slots, ordered, settings,
-    )
+class TableInMemory:
+    """The fit's rows held in this process (codes per feature, outcome, weights): every per-row sum the fit
+    needs. The Dask engine (`scorecard/fit/dask_engine.py`) answers the same questions from its partitions."""
+
+    def __init__(self, codes: list[np.ndarray], y: np.ndarray, w: np.ndarray, n_jobs: int | None = None):
+        self.codes, self.y, self.w, self.n_jobs = codes, y, w, n_jobs
+
+    def outcome(self) -> np.ndarray:
+        return self.y
+
+    def weights(self) -> np.ndarray:
+        return self.w
+
+    def slot_weights(self, n_slots) -> list[np.ndarray]:
+        return [np.bincount(c, weights=self.w, minlength=n) for c, n in zip(self.codes, n_slots)]
+
+    def one_feature_source(self, rows, n_slots):
+        fit_rows, held_rows = rows
+        c, y, w = self.codes, self.y, self.w
+        return RowsInMemory([x[fit_rows] for x in c], y[fit_rows], w[fit_rows],
+                            [x[held_rows] for x in c], y[held_rows], w[held_rows], n_slots)
+
+    def pair_source(self, rows, layouts, intercept, shapes):
+        fit_rows, held_rows = rows
+        codes = [pair_code(lay, self.codes) for lay in layouts]
+        start = logodds_of(intercept, shapes, self.codes)
+        y, w = self.y, self.w
+        return RowsInMemory([c[fit_rows] for c in codes], y[fit_rows], w[fit_rows],
+                            [c[held_rows] for c in codes], y[held_rows], w[held_rows],
+                            [lay.shape[0] * lay.shape[1] + 1 for lay in layouts], start[fit_rows], start[held_rows])
+
+    def pair_sums(self, intercept, shapes, coarse_maps, widths, half):
+        """Pairs' half histograms at the one-feature model (`pairs.pair_histogram_sums`), sum w, sum w^2."""
+        f = logodds_of(intercept, shapes, self.codes)
+        p = 1.0 / (1.0 + np.exp(-f))
+        w, y = self.w, self.y
+        coarse = [m[c] for m, c in zip(coarse_maps, self.codes)]
+        sums = pair_histogram_sums(coarse, widths, w * (p - y), w * p * (1 - p), w, half)
+        return sums, np.sum(w), np.sum(w * w)
+
+    def pair_weights(self, layouts) -> list[np.ndarray]:
+        return [np.bincount(pair_code(lay, self.codes), weights=self.w, minlength=lay.shape[0] * lay.shape[1] + 1)[:-1].reshape(lay.shape)
+                for lay in layouts]
+
+    def out_of_bag(self, bag_models, layouts, held) -> tuple[np.ndarray, np.ndarray]:
+        """Per row, the summed log-odds of the bags that held it out, and how many did."""
+        pair_codes = [pair_code(lay, self.codes) for lay in layouts]
+        oob_sum = np.zeros(len(self.y))
+        oob_n = np.zeros(len(self.y))
+        for (b_intercept, b_mains, b_grids), rows in zip(bag_models, held):
+            held_codes = [c[rows] for c in self.codes]
+            held_pairs = [c[rows] for c in pair_codes]
+            oob_sum[rows] += logodds_of(b_intercept, b_mains, held_codes, b_grids, held_pairs)
+            oob_n[rows] += 1
+        return oob_sum, oob_n
+
+    def run_bags(self, function, common: tuple, bags: list, progress, what) -> list[dict]:
+        jobs = min(usable_cores() if self.n_jobs is None or self.n_jobs < 1 else self.n_jobs, len(bags))
+        return _run(_fit_bag, (function, self, *common), bags, jobs, progress, what)
 
 
-def _stage2_bag(pair_codes, y, w, shapes, settings, bag_fraction, bag):
-    start, seed = bag
-    fit_rows, held_rows = _bag_rows(y, settings, bag_fraction, seed)
-    return boost_pair_terms(
-        [c[fit_rows] for c in pair_codes], start[fit_rows], y[fit_rows], w[fit_rows],
-        [c[held_rows] for c in pair_codes], start[held_rows], y[held_rows], w[held_rows],
-        shapes, settings,
-    )
+def _stage1_bag(table, n_slots, ordered, settings, rows):
+    """One bag's stage 1: its histogram source and the requests that fit it (`boosting.one_feature_terms`)."""
+    return table.one_feature_source(rows, n_slots), one_feature_terms(n_slots, ordered, settings)
+
+
+def _stage2_bag(table, layouts, settings, bag):
+    rows, intercept, shapes = bag
+    return table.pair_source(rows, layouts, intercept, shapes), pair_terms([lay.shape for lay in layouts], settings)
+
+
+def _fit_bag(bag, *arguments):
+    """Open bag `bag` (`_stage1_bag` or `_stage2_bag`) and fit it here, one request at a time."""
+    return answer_with(*bag(*arguments))
 
 
 _SHARED: dict = {}  # the data of the stage being run, inherited by forked workers (never pickled)
@@ -140,9 +198,7 @@ def pair_code(layout: PairBins, codes) -> np.ndarray:
 
 
 def fit_additive_terms(
-    codes: list[np.ndarray],
-    y: np.ndarray,
-    w: np.ndarray,
+    table,
     n_slots: list[int],
     ordered: list[bool],
     coarse_maps: list[np.ndarray],
@@ -153,31 +209,31 @@ def fit_additive_terms(
     max_pairs: int = 3,
     alpha: float = 0.01,
     bag_fraction: float = 1.0,
-    n_jobs: int | None = None,
     progress: Callable[[str], None] | None = None,
     names: list[str] | None = None,
 ) -> FittedTerms:
-    """Fit every term; see the module doc for the method and its sources."""
-    jobs = min(usable_cores() if n_jobs is None or n_jobs < 1 else n_jobs, n_bags)
+    """Fit every term on `table` (a `TableInMemory`, or the Dask engine's table); see the module doc for the
+    method and its sources."""
+    y = table.outcome()
+    n_features = len(n_slots)
     seeds = np.random.SeedSequence(seed).spawn(n_bags)
-    stage1 = _run(_stage1_bag, (codes, y, w, n_slots, ordered, settings, bag_fraction), seeds, jobs, progress, "one-feature terms")
-    slot_weight = [np.bincount(c, weights=w, minlength=n) for c, n in zip(codes, n_slots)]
+    bag_splits = [bag_rows(y, settings, bag_fraction, s) for s in seeds]
+    stage1 = table.run_bags(_stage1_bag, (n_slots, ordered, settings), bag_splits, progress, "one-feature terms")
+    slot_weight = table.slot_weights(n_slots)
 
     # stage 2: rank pairs on the residuals of the bag-mean one-feature model
     mean_intercept = float(np.mean([b["intercept"] for b in stage1]))
-    mean_shapes = [np.mean([b["shapes"][j] for b in stage1], axis=0) for j in range(len(codes))]
-    f = logodds_of(mean_intercept, mean_shapes, codes)
-    p = 1.0 / (1.0 + np.exp(-f))
+    mean_shapes = [np.mean([b["shapes"][j] for b in stage1], axis=0) for j in range(n_features)]
     ranking: list[PairScore] = []
     chosen: list[PairScore] = []
-    if pairs != 0 and pairs != "0" and len(codes) >= 2:
-        coarse = [m[c] for m, c in zip(coarse_maps, codes)]
+    if pairs != 0 and pairs != "0" and n_features >= 2:
         widths = [int(m.max()) + 1 for m in coarse_maps]
         half = np.random.default_rng(np.random.SeedSequence([seed, 2013])).random(len(y)) < 0.5
-        ranking = rank_pairs(coarse, widths, w * (p - y), w * p * (1 - p), w, half, settings.l2, settings.min_leaf)
+        sums, weight, weight_squared = table.pair_sums(mean_intercept, mean_shapes, coarse_maps, widths, half)
+        ranking = rank_from_histograms(sums, weight, weight_squared, settings.l2, settings.min_leaf)
         chosen = choose_pairs(ranking, pairs, max_pairs, alpha)
         if progress:
-            label = names or [str(j) for j in range(len(codes))]
+            label = names or [str(j) for j in range(n_features)]
             picked = ", ".join(pair_name([label[s.first], label[s.second]]) for s in chosen) or "none"
             progress(f"pairs: ranked {len(ranking)} by FAST gain; chosen: {picked}")
     layouts = [
@@ -185,13 +241,10 @@ def fit_additive_terms(
                    (int(coarse_maps[s.first].max()) + 1, int(coarse_maps[s.second].max()) + 1))
         for s in chosen
     ]
-    pair_codes = [pair_code(lay, codes) for lay in layouts]
-    pair_weight = [np.bincount(pc, weights=w, minlength=lay.shape[0] * lay.shape[1] + 1)[:-1].reshape(lay.shape) for pc, lay in zip(pair_codes, layouts)]
+    pair_weight = table.pair_weights(layouts)
     if layouts:
-        starts = [logodds_of(b["intercept"], b["shapes"], codes) for b in stage1]
-        bag_inputs = [(start, seed) for start, seed in zip(starts, seeds)]
-        common = (pair_codes, y, w, [lay.shape for lay in layouts], settings, bag_fraction)
-        stage2 = _run(_stage2_bag, common, bag_inputs, jobs, progress, "pair terms")
+        bag_inputs = [(rows, b["intercept"], b["shapes"]) for rows, b in zip(bag_splits, stage1)]
+        stage2 = table.run_bags(_stage2_bag, (layouts, settings), bag_inputs, progress, "pair terms")
     else:
         stage2 = [{"grids": [], "rounds": 0, "held_loss": b["held_loss"]} for b in stage1]
 
@@ -214,21 +267,14 @@ def fit_additive_terms(
         bag_models.append((intercept, mains, grids))
 
     ddof = 1 if n_bags > 1 else 0
-    mains = [np.mean([m[1][j] for m in bag_models], axis=0) for j in range(len(codes))]
-    spread = [np.std([m[1][j] for m in bag_models], axis=0, ddof=ddof) for j in range(len(codes))]
+    mains = [np.mean([m[1][j] for m in bag_models], axis=0) for j in range(n_features)]
+    spread = [np.std([m[1][j] for m in bag_models], axis=0, ddof=ddof) for j in range(n_features)]
     grids = [np.mean([m[2][k] for m in bag_models], axis=0) for k in range(len(layouts))]
     grid_spread = [np.std([m[2][k] for m in bag_models], axis=0, ddof=ddof) for k in range(len(layouts))]
     intercept = float(np.mean([m[0] for m in bag_models]))
 
     # held-out figures: each row predicted by the bags that did not fit it (out-of-bag)
-    oob_sum = np.zeros(len(y))
-    oob_n = np.zeros(len(y))
-    for (b_intercept, b_mains, b_grids), s in zip(bag_models, seeds):
-        _, held = _bag_rows(y, settings, bag_fraction, s)
-        held_codes = [c[held] for c in codes]
-        held_pairs = [c[held] for c in pair_codes]
-        oob_sum[held] += logodds_of(b_intercept, b_mains, held_codes, b_grids, held_pairs)
-        oob_n[held] += 1
+    oob_sum, oob_n = table.out_of_bag(bag_models, layouts, [held for _, held in bag_splits])
     report = {
         "rounds_one_feature": [int(b["rounds"]) for b in stage1],
         "rounds_pairs": [int(b["rounds"]) for b in stage2],

@@ -9,6 +9,10 @@ fitted step shape and the printed one agree:
 - flag (values 0/1 only): two bins, no and yes, split at 0.5;
 - categorical: one bin per level (levels sorted by name); levels seen fewer than `min_level_count` times are
   pooled into one shared bin, so a rare level cannot earn a score of its own from a handful of patients.
+
+Bins are made from a `ValueSummary` of each column (its distinct values with row counts and summed weights),
+not from the rows: summaries of separate blocks of rows merge exactly into the summary of all of them, so the
+Dask engine, which summarises each partition on the cluster, draws exactly the in-memory bins.
 """
 
 from __future__ import annotations
@@ -56,20 +60,77 @@ class FeatureBins:
         return codes
 
 
+@dataclass
+class ValueSummary:
+    """A column's distinct measured values (sorted; numbers, or level text) with, per value, the rows holding
+    it, the rows holding it with a positive weight, and their summed weight. Enough for the bins, the training
+    range and the decimals, and additive over blocks of rows."""
+
+    values: np.ndarray
+    rows: np.ndarray
+    positive: np.ndarray
+    weight: np.ndarray
+
+    @classmethod
+    def of(cls, values: np.ndarray, weights: np.ndarray) -> "ValueSummary":
+        """Summary of a numeric column (NaN = not measured) or a level column (None = not measured)."""
+        if values.dtype == object:
+            present = np.array([v is not None for v in values], dtype=bool)
+            kept = np.asarray(values[present], dtype=object).astype(str)
+        else:
+            present = ~np.isnan(values)
+            kept = values[present]
+        distinct, inverse = np.unique(kept, return_inverse=True)
+        w = weights[present]
+        n = len(distinct)
+        return cls(distinct, np.bincount(inverse, minlength=n), np.bincount(inverse, weights=(w > 0).astype(float), minlength=n),
+                   np.bincount(inverse, weights=w, minlength=n))
+
+    @staticmethod
+    def merge(parts: list["ValueSummary"]) -> "ValueSummary":
+        """One summary of the rows of all `parts` (weights added up in the parts' order)."""
+        distinct, inverse = np.unique(np.concatenate([p.values for p in parts]), return_inverse=True)
+        n = len(distinct)
+
+        def add(field):
+            return np.bincount(inverse, weights=np.concatenate([getattr(p, field) for p in parts]).astype(float), minlength=n)
+
+        return ValueSummary(distinct, add("rows").astype(np.int64), add("positive"), add("weight"))
+
+    def value_at(self, index: int):
+        """The value at 0-based position `index` of the column sorted (not-measured rows left out)."""
+        return self.values[int(np.searchsorted(np.cumsum(self.rows), index, side="right"))]
+
+    def quantile(self, q: float) -> float:
+        """Linear-interpolation sample quantile of the measured rows (Hyndman & Fan 1996 type 7, numpy's
+        default), computed from the counts alone: position (n - 1) q between its two neighbouring values."""
+        n = int(self.rows.sum())
+        virtual = (n - 1) * q
+        below = int(np.floor(virtual))
+        gamma = virtual - below
+        a, b = float(self.value_at(below)), float(self.value_at(min(below + 1, n - 1)))
+        diff = b - a
+        return b - diff * (1 - gamma) if gamma >= 0.5 else a + diff * gamma  # numpy's two-sided lerp
+
+
 def midpoint_cuts(values: np.ndarray, weights: np.ndarray, max_bins: int) -> np.ndarray:
-    """Interior cut points for at most `max_bins` bins of the measured `values`.
+    """Interior cut points for at most `max_bins` bins of the measured `values` (see `cuts_between`)."""
+    distinct, inverse = np.unique(values, return_inverse=True)
+    return cuts_between(distinct, np.bincount(inverse, weights=weights, minlength=len(distinct)), max_bins)
+
+
+def cuts_between(distinct: np.ndarray, mass: np.ndarray, max_bins: int) -> np.ndarray:
+    """Interior cut points for at most `max_bins` bins of sorted distinct values with weights `mass`.
 
     Each cut is the midpoint between two adjacent distinct values, so every bin holds at least one training
     value and the step shape is defined without ambiguity. With more distinct values than bins, the cuts
     are those where the weighted cumulative share first reaches k / max_bins (quantile bins).
     """
-    distinct, inverse = np.unique(values, return_inverse=True)
     if len(distinct) <= 1:
         return np.empty(0)
     if len(distinct) <= max_bins:
         after = np.arange(len(distinct) - 1)
     else:
-        mass = np.bincount(inverse, weights=weights, minlength=len(distinct))
         share = np.cumsum(mass) / mass.sum()
         targets = np.arange(1, max_bins) / max_bins
         after = np.unique(np.searchsorted(share, targets - 1e-12, side="left"))
@@ -79,19 +140,25 @@ def midpoint_cuts(values: np.ndarray, weights: np.ndarray, max_bins: int) -> np.
 
 
 def bin_numeric(name: str, values: np.ndarray, weights: np.ndarray, max_bins: int) -> FeatureBins:
-    measured = ~np.isnan(values) & (weights > 0)  # a patient with weight 0 must not move a cut point
-    x = values[measured]
-    distinct = np.unique(x)
+    return numeric_bins(name, ValueSummary.of(values, weights), max_bins)
+
+
+def numeric_bins(name: str, summary: ValueSummary, max_bins: int) -> FeatureBins:
+    used = summary.positive > 0  # a patient with weight 0 must not move a cut point
+    distinct = summary.values[used]
     if len(distinct) == 2 and distinct[0] == 0.0 and distinct[1] == 1.0:
         return FeatureBins(name=name, kind="flag", n_bins=2, edges=np.array([0.5]))
-    edges = midpoint_cuts(x, weights[measured], max_bins)
+    edges = cuts_between(distinct, summary.weight[used], max_bins)
     return FeatureBins(name=name, kind="continuous", n_bins=len(edges) + 1, edges=edges)
 
 
 def bin_categorical(name: str, values: np.ndarray, weights: np.ndarray, min_level_count: int) -> FeatureBins:
-    present = [v for v in values if v is not None]
-    levels, counts = np.unique(np.array(present, dtype=object).astype(str), return_counts=True) if present else ([], [])
-    levels = [str(lv) for lv in levels]
+    return categorical_bins(name, ValueSummary.of(values, weights), min_level_count)
+
+
+def categorical_bins(name: str, summary: ValueSummary, min_level_count: int) -> FeatureBins:
+    levels = [str(lv) for lv in summary.values]
+    counts = summary.rows
     rare = [i for i, c in enumerate(counts) if c < min_level_count]
     level_bin = np.zeros(len(levels), dtype=np.intp)
     next_bin = 0

@@ -13,11 +13,16 @@ rows, with F_i = intercept + sum_j f_j(x_ij) (+ sum of pair grids), in small New
 Cost of a step: two weighted histograms (np.bincount) and one update of the per-row odds, i.e. O(rows),
 plus the tree on the histogram, O(bins). The odds exp(F) are updated multiplicatively so a step needs no
 exponential per row.
+
+The loop (`boost_terms`) never touches rows: it asks a histogram source (`RowsInMemory` here, the Dask
+engine's partitions in `scorecard/fit/dask_engine.py`) for the sums it needs and tells it each step, so the
+algorithm has one home whatever holds the rows.
 """
 
 from __future__ import annotations
 
 from dataclasses import dataclass
+from typing import Callable, Generator, Protocol
 
 import numpy as np
 
@@ -55,12 +60,22 @@ def weighted_log_loss(logodds: np.ndarray, y: np.ndarray, w: np.ndarray) -> floa
     return float(np.sum(w * (np.logaddexp(0.0, logodds) - y * logodds)) / np.sum(w))
 
 
+def log_loss_sums(logodds: np.ndarray, y: np.ndarray, w: np.ndarray) -> tuple[float, float]:
+    """(sum w [log(1+e^F) - y F], sum w): the two sums a held-out loss is made of, for adding up partitions."""
+    return float(np.sum(w * (np.logaddexp(0.0, logodds) - y * logodds))), float(np.sum(w))
+
+
 def _odds(logodds: np.ndarray) -> np.ndarray:
     return np.exp(np.clip(logodds, -40.0, 40.0))
 
 
 def base_logodds(y: np.ndarray, w: np.ndarray) -> float:
-    rate = float(np.sum(w * y) / np.sum(w))
+    return logodds_of_rate(np.sum(w * y), np.sum(w))
+
+
+def logodds_of_rate(events: float, weight: float) -> float:
+    """Log-odds of the weighted event rate events / weight, kept away from 0 and 1."""
+    rate = float(events / weight)
     rate = min(max(rate, 1e-6), 1 - 1e-6)
     return float(np.log(rate / (1 - rate)))
 
@@ -84,21 +99,101 @@ def probabilities_and_hessians(odds, w, work):
     return p, h
 
 
+class HistogramSource(Protocol):
+    """What the boosting loop needs from the rows of one bag; `columns` are integer code columns (a feature's
+    bins in stage 1, a pair's cells in stage 2), column j having `n_slots[j]` slots."""
+
+    n_slots: list[int]
+
+    def totals(self) -> tuple[float, float]:
+        """(sum of weights, sum of weighted events) over the fitting rows."""
+
+    def start(self, logodds_offset: float) -> None:
+        """Begin at F = the source's own starting model + `logodds_offset` on every row (fit and held-out)."""
+
+    def fixed_histograms(self) -> tuple[list[np.ndarray], list[np.ndarray]]:
+        """Per column, the fitting rows' weight and weighted events per slot (they never change)."""
+
+    def gradient_hessian(self, j: int) -> tuple[np.ndarray, np.ndarray]:
+        """Per slot of column j, sum w p and sum w p (1 - p) at the current model (fitting rows)."""
+
+    def move(self, j: int, delta: np.ndarray) -> None:
+        """Add delta[slot of column j] to every row's log-odds."""
+
+    def has_held(self) -> bool:
+        """Whether there are held-out rows with positive weight (early stopping is possible)."""
+
+    def held_loss(self) -> float:
+        """Weighted mean log-loss on the held-out rows at the current model."""
+
+    def finish(self) -> None:
+        """The loop is done: let go of the per-row state."""
+
+
+class RowsInMemory:
+    """A bag's rows held in this process: code columns, outcome and weights of the fitting and held-out rows,
+    and each row's starting log-odds (None: 0, the offset alone)."""
+
+    def __init__(self, columns_fit, y_fit, w_fit, columns_held, y_held, w_held, n_slots, start_fit=None, start_held=None):
+        self.columns_fit, self.y_fit, self.w_fit = columns_fit, y_fit, w_fit
+        self.columns_held, self.y_held, self.w_held = columns_held, y_held, w_held
+        self.n_slots = list(n_slots)
+        self.start_fit, self.start_held = start_fit, start_held
+        self._w = None if np.all(w_fit == 1.0) else w_fit
+        self._held = len(y_held) > 0 and np.sum(w_held) > 0
+        self._work = None
+
+    def totals(self):
+        return np.sum(self.w_fit), np.sum(self.w_fit * self.y_fit)
+
+    def start(self, logodds_offset):
+        if self.start_fit is None:
+            self.odds = np.full(len(self.y_fit), np.exp(logodds_offset))
+            self.held_f = np.full(len(self.y_held), logodds_offset)
+        else:
+            self.odds = _odds(self.start_fit + logodds_offset)
+            self.held_f = self.start_held + logodds_offset
+        self._work = _buffers(len(self.y_fit))
+
+    def fixed_histograms(self):
+        weights = [np.bincount(c, weights=self.w_fit, minlength=n) for c, n in zip(self.columns_fit, self.n_slots)]
+        events = [np.bincount(c, weights=self.w_fit * self.y_fit, minlength=n) for c, n in zip(self.columns_fit, self.n_slots)]
+        return weights, events
+
+    def gradient_hessian(self, j):
+        p, h = probabilities_and_hessians(self.odds, self._w, self._work)
+        n = self.n_slots[j]
+        return np.bincount(self.columns_fit[j], weights=p, minlength=n), np.bincount(self.columns_fit[j], weights=h, minlength=n)
+
+    def move(self, j, delta):
+        self.odds *= np.exp(delta).take(self.columns_fit[j])
+        if self._held:
+            self.held_f += delta.take(self.columns_held[j])
+
+    def has_held(self):
+        return self._held
+
+    def held_loss(self):
+        return weighted_log_loss(self.held_f, self.y_held, self.w_held)
+
+    def held_sums(self) -> tuple[float, float]:
+        """The held-out loss as its two sums (`log_loss_sums`), for adding up blocks of rows."""
+        return log_loss_sums(self.held_f, self.y_held, self.w_held)
+
+    def finish(self):
+        self.odds = self.held_f = self._work = None
+
+
 class _BestRound:
     """Early stopping on the held-out rows: keeps a copy of the terms at the round with the lowest held-out
     log-loss, and says when `patience` rounds have passed without lowering it by the `tolerance` share."""
 
-    def __init__(self, held_f: np.ndarray, y_held: np.ndarray, w_held: np.ndarray, terms: list[np.ndarray],
-                 settings: BoostSettings):
-        self.active = len(y_held) > 0 and np.sum(w_held) > 0
-        self.y, self.w, self.settings = y_held, w_held, settings
-        self.best = (weighted_log_loss(held_f, y_held, w_held) if self.active else np.inf, [a.copy() for a in terms], 0)
+    def __init__(self, active: bool, loss: float, terms: list[np.ndarray], settings: BoostSettings):
+        self.active, self.settings = active, settings
+        self.best = (loss if active else np.inf, [a.copy() for a in terms], 0)
         self.since_best = 0
 
-    def stop_after(self, rounds: int, held_f: np.ndarray, terms: list[np.ndarray]) -> bool:
-        if not self.active:
-            return False
-        loss = weighted_log_loss(held_f, self.y, self.w)
+    def stop_after(self, rounds: int, loss: float, terms: list[np.ndarray]) -> bool:
         if loss < self.best[0] * (1.0 - self.settings.tolerance):
             self.best = (loss, [a.copy() for a in terms], rounds)
             self.since_best = 0
@@ -111,102 +206,103 @@ class _BestRound:
         return self.best if self.active else (np.nan, terms, rounds)
 
 
+# The loop is written as a generator of requests to a histogram source: ("method", *arguments) is answered
+# by `source.method(*arguments)`. `answer_with` answers them one by one; the Dask engine answers many bags'
+# requests in one call per partition. Either way the algorithm below is the only copy.
+Requests = Generator[tuple, object, object]
+
+# A step rule: (column, G, H, fixed weight per slot) -> the Newton value of every slot of the column, or None.
+StepRule = Callable[[int, np.ndarray, np.ndarray, np.ndarray], "np.ndarray | None"]
+
+
+def answer_with(source: HistogramSource, requests: Requests):
+    """Run a request generator against `source` to its end; its return value, the source finished."""
+    answer = None
+    try:
+        while True:
+            try:
+                method, *arguments = requests.send(answer)
+            except StopIteration as done:
+                return done.value
+            answer = getattr(source, method)(*arguments)
+    finally:
+        source.finish()
+
+
 @np.errstate(divide="ignore", invalid="ignore")
-def boost_one_feature_terms(
-    codes_fit: list[np.ndarray],
-    y_fit: np.ndarray,
-    w_fit: np.ndarray,
-    codes_held: list[np.ndarray],
-    y_held: np.ndarray,
-    w_held: np.ndarray,
-    n_slots: list[int],
-    ordered: list[bool],
-    settings: BoostSettings,
-) -> dict:
-    """Stage 1 on one bag: returns {"intercept", "shapes" (one array per feature, one value per slot),
-    "rounds", "held_loss"}. Without held-out rows, all `max_rounds` rounds are run."""
+def boost_terms(step: StepRule, columns: list[int], n_slots: list[int], offset: float, settings: BoostSettings) -> Requests:
+    """The cyclic boosting loop: every round, each of `columns` in turn gets one step fitted to its histogram.
+
+    Returns (terms: one array per column of the source, one value per slot; rounds; held-out loss) of the
+    best round."""
     s = settings
-    intercept = base_logodds(y_fit, w_fit)
-    shapes = [np.zeros(n) for n in n_slots]
-    counts = [np.bincount(c, weights=w_fit, minlength=n) for c, n in zip(codes_fit, n_slots)]
-    events = [np.bincount(c, weights=w_fit * y_fit, minlength=n) for c, n in zip(codes_fit, n_slots)]
+    yield ("start", offset)
+    weights, events = yield ("fixed_histograms",)
+    terms = [np.zeros(n) for n in n_slots]
+    has_held = yield ("has_held",)
+    stopper = _BestRound(has_held, (yield ("held_loss",)) if has_held else np.inf, terms, s)
+    rounds = 0
+    for rounds in range(1, s.max_rounds + 1):
+        moved = False
+        for j in columns:
+            P, H = yield ("gradient_hessian", j)
+            values = step(j, P - events[j], H, weights[j])
+            if values is None:
+                continue
+            delta = s.learning_rate * values
+            terms[j] += delta
+            yield ("move", j, delta)
+            moved = True
+        if not moved or (has_held and stopper.stop_after(rounds, (yield ("held_loss",)), terms)):
+            break
+    held_loss, best, best_rounds = stopper.result(rounds, terms)
+    return best, best_rounds, held_loss
+
+
+def one_feature_terms(n_slots: list[int], ordered: list[bool], settings: BoostSettings) -> Requests:
+    """Stage 1 on one bag's source (columns = features' bins): {"intercept", "shapes" (one array per feature,
+    one value per slot), "rounds", "held_loss"}. Without held-out rows, all `max_rounds` rounds are run."""
+    s = settings
+    weight, events = yield ("totals",)
+    intercept = logodds_of_rate(events, weight)
+    counts, _ = yield ("fixed_histograms",)
     active = [j for j, c in enumerate(counts) if np.count_nonzero(c) > 1]
-    odds = np.full(len(y_fit), np.exp(intercept))
-    work = _buffers(len(y_fit))
-    w_fit = None if np.all(w_fit == 1.0) else w_fit
-    held_f = np.full(len(y_held), intercept)
-    stopper = _BestRound(held_f, y_held, w_held, shapes, s)
-    has_held = stopper.active
-    rounds = 0
-    for rounds in range(1, s.max_rounds + 1):
-        moved = False
-        for j in active:
-            p, h = probabilities_and_hessians(odds, w_fit, work)
-            G = np.bincount(codes_fit[j], weights=p, minlength=n_slots[j]) - events[j]
-            H = np.bincount(codes_fit[j], weights=h, minlength=n_slots[j])
-            values = step_tree(G, H, counts[j], ordered[j], s.leaves, s.l2, s.min_leaf)
-            if values is None:
-                continue
-            delta = s.learning_rate * values
-            shapes[j] += delta
-            odds *= np.exp(delta).take(codes_fit[j])
-            if has_held:
-                held_f += delta.take(codes_held[j])
-            moved = True
-        if not moved or stopper.stop_after(rounds, held_f, shapes):
-            break
-    held_loss, best_shapes, best_rounds = stopper.result(rounds, shapes)
-    return {"intercept": intercept, "shapes": best_shapes, "rounds": best_rounds, "held_loss": held_loss}
+
+    def step(j, G, H, C):
+        return step_tree(G, H, C, ordered[j], s.leaves, s.l2, s.min_leaf)
+
+    shapes, rounds, held_loss = yield from boost_terms(step, active, n_slots, intercept, s)
+    return {"intercept": intercept, "shapes": shapes, "rounds": rounds, "held_loss": held_loss}
 
 
-@np.errstate(divide="ignore", invalid="ignore")
-def boost_pair_terms(
-    pair_codes_fit: list[np.ndarray],
-    start_fit: np.ndarray,
-    y_fit: np.ndarray,
-    w_fit: np.ndarray,
-    pair_codes_held: list[np.ndarray],
-    start_held: np.ndarray,
-    y_held: np.ndarray,
-    w_held: np.ndarray,
-    grid_shapes: list[tuple[int, int]],
-    settings: BoostSettings,
-) -> dict:
-    """Stage 2 on one bag: boost a grid per pair on top of the fixed stage-1 log-odds `start_*`.
-
-    A pair code is row_bin * n_columns + column_bin, or n_rows * n_columns for a patient with either
-    feature not measured (that slot never moves, so such patients get 0 from the pair). Each step adds the
-    best 2x2 cut of the pair's gradient histogram (the same tree the FAST ranking uses)."""
+def pair_terms(grid_shapes: list[tuple[int, int]], settings: BoostSettings) -> Requests:
+    """Stage 2 on one bag's source (columns = pairs' cells, each with one last slot for a patient with either
+    feature not measured, which never moves), on top of the source's own starting model (the bag's stage-1
+    log-odds). Each step adds the best 2x2 cut of the pair's gradient histogram (the same tree the FAST ranking
+    uses)."""
     s = settings
-    grids = [np.zeros(shape) for shape in grid_shapes]
     sizes = [a * b for a, b in grid_shapes]
-    counts = [np.bincount(c, weights=w_fit, minlength=n + 1)[:n].reshape(shape) for c, n, shape in zip(pair_codes_fit, sizes, grid_shapes)]
-    pair_events = [np.bincount(c, weights=w_fit * y_fit, minlength=n + 1) for c, n in zip(pair_codes_fit, sizes)]
-    odds = _odds(start_fit)
-    work = _buffers(len(y_fit))
-    w_fit = None if np.all(w_fit == 1.0) else w_fit
-    held_f = start_held.copy()
-    stopper = _BestRound(held_f, y_held, w_held, grids, s)
-    has_held = stopper.active
-    rounds = 0
-    for rounds in range(1, s.max_rounds + 1):
-        moved = False
-        for k, shape in enumerate(grid_shapes):
-            p, h = probabilities_and_hessians(odds, w_fit, work)
-            n = sizes[k]
-            G2 = (np.bincount(pair_codes_fit[k], weights=p, minlength=n + 1) - pair_events[k])[:n].reshape(shape)
-            H2 = np.bincount(pair_codes_fit[k], weights=h, minlength=n + 1)[:n].reshape(shape)
-            values = quadrant_step(G2, H2, counts[k], s.l2, s.min_leaf)
-            if values is None:
-                continue
-            delta = s.learning_rate * values
-            grids[k] += delta
-            flat = np.append(delta.ravel(), 0.0)
-            odds *= np.exp(flat).take(pair_codes_fit[k])
-            if has_held:
-                held_f += flat.take(pair_codes_held[k])
-            moved = True
-        if not moved or stopper.stop_after(rounds, held_f, grids):
-            break
-    held_loss, best_grids, best_rounds = stopper.result(rounds, grids)
-    return {"grids": best_grids, "rounds": best_rounds, "held_loss": held_loss}
+
+    def step(k, G, H, C):
+        n, shape = sizes[k], grid_shapes[k]
+        values = quadrant_step(G[:n].reshape(shape), H[:n].reshape(shape), C[:n].reshape(shape), s.l2, s.min_leaf)
+        return None if values is None else np.append(values.ravel(), 0.0)
+
+    flat, rounds, held_loss = yield from boost_terms(step, list(range(len(grid_shapes))), [n + 1 for n in sizes], 0.0, s)
+    grids = [t[:n].reshape(shape) for t, n, shape in zip(flat, sizes, grid_shapes)]
+    return {"grids": grids, "rounds": rounds, "held_loss": held_loss}
+
+
+def boost_one_feature_terms(codes_fit, y_fit, w_fit, codes_held, y_held, w_held, n_slots, ordered, settings) -> dict:
+    """Stage 1 on one bag held in memory (see `one_feature_terms`)."""
+    source = RowsInMemory(codes_fit, y_fit, w_fit, codes_held, y_held, w_held, n_slots)
+    return answer_with(source, one_feature_terms(n_slots, ordered, settings))
+
+
+def boost_pair_terms(pair_codes_fit, start_fit, y_fit, w_fit, pair_codes_held, start_held, y_held, w_held,
+                     grid_shapes, settings) -> dict:
+    """Stage 2 on one bag held in memory: a pair code is row_bin * n_columns + column_bin, or
+    n_rows * n_columns for a patient with either feature not measured (see `pair_terms`)."""
+    slots = [a * b + 1 for a, b in grid_shapes]
+    source = RowsInMemory(pair_codes_fit, y_fit, w_fit, pair_codes_held, y_held, w_held, slots, start_fit, start_held)
+    return answer_with(source, pair_terms(grid_shapes, settings))

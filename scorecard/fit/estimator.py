@@ -16,8 +16,8 @@ from sklearn.base import BaseEstimator, ClassifierMixin
 from sklearn.utils.multiclass import check_classification_targets
 from sklearn.utils.validation import _check_sample_weight, check_is_fitted, column_or_1d, validate_data
 
-from scorecard.fit.bagging import fit_additive_terms, logodds_of, pair_code
-from scorecard.fit.binning import UNSEEN, bin_categorical, bin_numeric, coarse_bins
+from scorecard.fit.bagging import TableInMemory, fit_additive_terms, logodds_of, pair_code
+from scorecard.fit.binning import UNSEEN, ValueSummary, categorical_bins, coarse_bins, numeric_bins
 from scorecard.fit.boosting import BoostSettings
 
 
@@ -149,8 +149,11 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
         )
 
     # -- fitting -----------------------------------------------------------------------------------
-    def fit(self, X, y, sample_weight=None):
-        """Fit the additive model to X (patients x features) and the binary outcome y."""
+    def fit(self, X, y, sample_weight=None, engine=None):
+        """Fit the additive model to X (patients x features) and the binary outcome y.
+
+        `engine`: None fits in this process; a `scorecard.fit.dask_engine.DaskEngine` fits on its Dask
+        cluster (the per-row work on the cluster's partitions) and gives the same model."""
         self._check_params()
         columns = self._columns(X, reset=True)
         y = column_or_1d(y, warn=True)
@@ -164,21 +167,34 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
         w = _check_sample_weight(sample_weight, columns[0].reshape(-1, 1) if columns[0].dtype != object else np.zeros((len(y), 1)), dtype=float)
         if np.any(w < 0) or np.sum(w) <= 0:
             raise ValueError("sample_weight must be non-negative with a positive sum")
+        if engine is None:
+            summaries = [ValueSummary.of(col, w) for col in columns]
+            self._learn_bins(summaries)
+            table = TableInMemory([b.codes(col) for b, col in zip(self.bins_, columns)], target, w, self.n_jobs)
+            return self._fit_table(table, summaries, _fingerprint(self.column_names_, columns, target, w))
+        with engine.table(columns, target, w) as cluster:
+            summaries = cluster.summaries()
+            self._learn_bins(summaries)
+            table = cluster.coded(self.bins_)
+            return self._fit_table(table, summaries, _fingerprint(self.column_names_, columns, target, w))
 
-        self.bins_ = []
-        for name, kind, col in zip(self.column_names_, self.feature_kinds_, columns):
-            if kind == "categorical":
-                self.bins_.append(bin_categorical(name, col, w, int(self.min_level_count)))
-            else:
-                self.bins_.append(bin_numeric(name, col, w, int(self.max_bins)))
-        codes = [b.codes(col) for b, col in zip(self.bins_, columns)]
-        counts = [np.bincount(c, weights=w, minlength=b.n_slots) for c, b in zip(codes, self.bins_)]
+    def _learn_bins(self, summaries) -> None:
+        self.bins_ = [
+            categorical_bins(name, summary, int(self.min_level_count)) if kind == "categorical"
+            else numeric_bins(name, summary, int(self.max_bins))
+            for name, kind, summary in zip(self.column_names_, self.feature_kinds_, summaries)
+        ]
+
+    def _fit_table(self, table, summaries, fingerprint: str):
+        """Everything after the bins, on a table of bin codes (in memory or on a cluster)."""
+        target, w = table.outcome(), table.weights()
+        counts = table.slot_weights([b.n_slots for b in self.bins_])
         coarse = [coarse_bins(b, cnt, int(self.pair_bins)) for b, cnt in zip(self.bins_, counts)]
         self.pair_maps_ = [m for m, _ in coarse]
         self.pair_edges_ = [e for _, e in coarse]
         progress = (lambda msg: print(msg, file=sys.stderr, flush=True)) if self.verbose else None
         terms = fit_additive_terms(
-            codes, target, w,
+            table,
             n_slots=[b.n_slots for b in self.bins_],
             ordered=[b.kind != "categorical" for b in self.bins_],
             coarse_maps=self.pair_maps_,
@@ -188,8 +204,7 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
             pairs=self.pairs,
             max_pairs=int(self.max_pairs),
             alpha=float(self.pair_alpha),
-            bag_fraction=self._bag_fraction(len(y)),
-            n_jobs=self.n_jobs,
+            bag_fraction=self._bag_fraction(len(target)),
             progress=progress,
             names=self.column_names_,
         )
@@ -203,7 +218,7 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
         self.pair_weight_ = terms.pair_weight
         self.pair_ranking_ = [(self.column_names_[s.first], self.column_names_[s.second], s.gain, s.p_value) for s in terms.ranking]
         self.fit_report_ = {k: v for k, v in terms.report.items() if not k.startswith("oob")}
-        self.fit_report_["rows"] = int(len(y))
+        self.fit_report_["rows"] = int(len(target))
         self.fit_report_["events"] = float(np.sum(w * target))
         oob = terms.report["oob_rows"]
         if oob.any() and len(np.unique(target[oob])) == 2:
@@ -213,13 +228,10 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
             self.fit_report_["out_of_bag_auc"] = float(roc_auc_score(target[oob], f, sample_weight=w[oob]))
             self.fit_report_["out_of_bag_log_loss"] = float(log_loss(target[oob], 1 / (1 + np.exp(-f)), sample_weight=w[oob], labels=[0, 1]))
             self.fit_report_["out_of_bag_rows"] = int(oob.sum())
-        self.level_weight_ = [
-            np.array([w[col == level].sum() for level in b.levels]) if b.kind == "categorical" else None
-            for b, col in zip(self.bins_, columns)
-        ]
-        self.ranges_ = [_range(col) if kind == "numeric" else None for kind, col in zip(self.feature_kinds_, columns)]
-        self.decimals_ = [_decimals(col) if kind == "numeric" else 0 for kind, col in zip(self.feature_kinds_, columns)]
-        self.data_fingerprint_ = _fingerprint(self.column_names_, columns, target, w)
+        self.level_weight_ = [summary.weight.copy() if b.kind == "categorical" else None for b, summary in zip(self.bins_, summaries)]
+        self.ranges_ = [_range(summary) if kind == "numeric" else None for kind, summary in zip(self.feature_kinds_, summaries)]
+        self.decimals_ = [_decimals(summary.values) if kind == "numeric" else 0 for kind, summary in zip(self.feature_kinds_, summaries)]
+        self.data_fingerprint_ = fingerprint
         return self
 
     def _bag_fraction(self, rows: int) -> float:
@@ -296,21 +308,19 @@ def _level_name(value) -> str | None:
     return text or None
 
 
-def _range(x: np.ndarray) -> dict | None:
-    x = x[~np.isnan(x)]
-    if len(x) == 0:
+def _range(summary: ValueSummary) -> dict | None:
+    if len(summary.values) == 0:
         return None
     return {
-        "min": float(x.min()),
-        "max": float(x.max()),
-        "p01": float(np.quantile(x, 0.01)),
-        "p99": float(np.quantile(x, 0.99)),
+        "min": float(summary.values[0]),
+        "max": float(summary.values[-1]),
+        "p01": summary.quantile(0.01),
+        "p99": summary.quantile(0.99),
     }
 
 
-def _decimals(x: np.ndarray, most: int = 4) -> int:
+def _decimals(distinct: np.ndarray, most: int = 4) -> int:
     """Fewest decimals that write every distinct training value exactly (at most `most`)."""
-    distinct = np.unique(x[~np.isnan(x)])
     for d in range(most + 1):
         scaled = distinct * 10**d
         if np.all(np.abs(scaled - np.round(scaled)) <= 1e-6 * np.maximum(1.0, np.abs(scaled))):

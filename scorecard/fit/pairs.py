@@ -73,6 +73,27 @@ def _merge(grid: np.ndarray, groups) -> np.ndarray:
     return row_map @ grid @ col_map
 
 
+def pair_histogram_sums(coarse_codes, shapes, g, h, w, half) -> dict:
+    """Every pair's 2-D histograms of g, h and w on each half of the rows: {(j, k): (Ga, Ha, Ca, Gb, Hb, Cb)}.
+
+    A sum over rows, so histograms of separate blocks of rows add up to the histograms of all of them (the
+    Dask engine sums its partitions'). `half` marks the rows of half a."""
+    sums = {}
+    other = ~half
+    codes_a = [c[half] for c in coarse_codes]
+    codes_b = [c[other] for c in coarse_codes]
+    values_a = (g[half], h[half], w[half])
+    values_b = (g[other], h[other], w[other])
+    for j in range(len(coarse_codes)):
+        for k in range(j + 1, len(coarse_codes)):
+            shape = (shapes[j], shapes[k])
+            if shape[0] < 2 or shape[1] < 2:
+                continue
+            sums[(j, k)] = (pair_histograms(codes_a[j], codes_a[k], shape, values_a)
+                            + pair_histograms(codes_b[j], codes_b[k], shape, values_b))
+    return sums
+
+
 def rank_pairs(
     coarse_codes: list[np.ndarray],
     shapes: list[int],
@@ -88,36 +109,32 @@ def rank_pairs(
 
     `coarse_codes[j]` holds each patient's coarse bin of feature j (-1: not measured); `g`, `h` are the
     gradient and hessian of the log-loss at the one-feature model; `half` marks the rows on which the cut is
-    chosen for the held-out statistic (the others judge it). With unequal weights the statistic is taken at
-    Kish's effective sample size, (sum w)^2 / sum w^2 (Kish 1965, common practice for weighted samples), so
-    multiplying every weight by a constant or by an arbitrary column cannot manufacture significance."""
+    chosen for the held-out statistic (the others judge it)."""
+    sums = pair_histogram_sums(coarse_codes, shapes, g, h, w, half)
+    return rank_from_histograms(sums, np.sum(w), np.sum(w * w), l2, min_leaf, test_bins)
+
+
+def rank_from_histograms(sums: dict, weight: float, weight_squared: float, l2: float, min_leaf: float,
+                         test_bins: int = 8) -> list[PairScore]:
+    """The ranking of `rank_pairs` from the pairs' half histograms (`pair_histogram_sums`) and the sums of the
+    weights and of their squares. With unequal weights the statistic is taken at Kish's effective sample size,
+    (sum w)^2 / sum w^2 (Kish 1965, common practice for weighted samples), so multiplying every weight by a
+    constant or by an arbitrary column cannot manufacture significance."""
     scores = []
-    effective = float(np.sum(w) / np.sum(w * w)) if np.sum(w * w) > 0 else 1.0
-    p = len(coarse_codes)
-    other = ~half
-    codes_a = [c[half] for c in coarse_codes]
-    codes_b = [c[other] for c in coarse_codes]
-    values_a = (g[half], h[half], w[half])
-    values_b = (g[other], h[other], w[other])
-    for j in range(p):
-        for k in range(j + 1, p):
-            shape = (shapes[j], shapes[k])
-            if shape[0] < 2 or shape[1] < 2:
-                continue
-            Ga, Ha, Ca = pair_histograms(codes_a[j], codes_a[k], shape, values_a)
-            Gb, Hb, Cb = pair_histograms(codes_b[j], codes_b[k], shape, values_b)
-            C2 = Ca + Cb
-            gain, _, _ = best_quadrant_cut(Ga + Gb, Ha + Hb, C2, l2, min_leaf)  # the two halves make all rows
-            statistic = 0.0
-            groups = (_groups(C2.sum(axis=1), test_bins), _groups(C2.sum(axis=0), test_bins))
-            half_a = [_merge(m, groups) for m in (Ga, Ha, Ca)]
-            half_b = [_merge(m, groups) for m in (Gb, Hb, Cb)]
-            for chooser, judge in ((half_a, half_b), (half_b, half_a)):
-                _, a, b = best_quadrant_cut(*chooser, l2, min_leaf)
-                if a >= 0:
-                    statistic += interaction_statistic(judge[0], judge[1], a, b)
-            statistic *= effective
-            scores.append(PairScore(j, k, gain, statistic, float(chi2.sf(statistic, 2))))
+    effective = float(weight / weight_squared) if weight_squared > 0 else 1.0
+    for (j, k), (Ga, Ha, Ca, Gb, Hb, Cb) in sums.items():
+        C2 = Ca + Cb
+        gain, _, _ = best_quadrant_cut(Ga + Gb, Ha + Hb, C2, l2, min_leaf)  # the two halves make all rows
+        statistic = 0.0
+        groups = (_groups(C2.sum(axis=1), test_bins), _groups(C2.sum(axis=0), test_bins))
+        half_a = [_merge(m, groups) for m in (Ga, Ha, Ca)]
+        half_b = [_merge(m, groups) for m in (Gb, Hb, Cb)]
+        for chooser, judge in ((half_a, half_b), (half_b, half_a)):
+            _, a, b = best_quadrant_cut(*chooser, l2, min_leaf)
+            if a >= 0:
+                statistic += interaction_statistic(judge[0], judge[1], a, b)
+        statistic *= effective
+        scores.append(PairScore(j, k, gain, statistic, float(chi2.sf(statistic, 2))))
     scores.sort(key=lambda s: (-s.gain, s.first, s.second))
     return scores
 

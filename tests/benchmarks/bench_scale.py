@@ -3,7 +3,8 @@ on invented demo cohorts of 1,000,000, 5,000,000 and 20,000,000 patients, in-mem
 the same run. Prints figures, same-run ratios and the growth exponent of time against rows; asserts nothing.
 
     nice -n 10 python tests/benchmarks/bench_scale.py [--sizes 1000000,5000000,20000000] [--verbs predict,score,check]
-        [--in-memory-up-to 5000000] [--folder DIR] [--sections verbs]
+        [--in-memory-up-to 5000000] [--folder DIR] [--sections verbs,fit]
+    python tests/benchmarks/bench_scale.py fit --rows 1000000        # the fit section alone (docs/scale.md, Fit)
 
 Every run is a fresh `python -m scorecard ...` child process; its peak resident memory is the kernel's own
 count for that child (`os.wait4` resource usage, ru_maxrss), its time the wall clock and the child's CPU time
@@ -26,9 +27,12 @@ import os
 import subprocess
 import sys
 import tempfile
+import json
 import time
 from dataclasses import dataclass, field
 from pathlib import Path
+
+import psutil
 
 ROOT = Path(__file__).resolve().parents[2]
 STREAM_ROWS = 250_000  # scorecard.tabular.DEFAULT_CHUNK_ROWS, the shipped default
@@ -120,7 +124,77 @@ def verbs_section(bench: Bench) -> None:
             (bench.folder / "out.parquet").unlink(missing_ok=True)
 
 
-SECTIONS = {"verbs": verbs_section}  # another section registers here: SECTIONS["fit"] = fit_section
+# -- fit (issue 16, the Dask engine): its own measurement of the whole process tree (Dask workers included)
+
+SCORECARD = [sys.executable, "-m", "scorecard"]
+
+
+def run_measured(command: list[str]) -> tuple[float, int]:
+    """(wall seconds, peak resident bytes of the process and all its descendants) of `command`."""
+    start = time.perf_counter()
+    process = subprocess.Popen(command, stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
+    root = psutil.Process(process.pid)
+    peak = 0
+    while process.poll() is None:
+        try:
+            tree = [root, *root.children(recursive=True)]
+            peak = max(peak, sum(p.memory_info().rss for p in tree if p.is_running()))
+        except psutil.Error:
+            pass
+        time.sleep(0.1)
+    seconds = time.perf_counter() - start
+    if process.returncode != 0:
+        raise SystemExit(f"{' '.join(command)} failed ({process.returncode}): {process.stderr.read()[-2000:]}")
+    return seconds, peak
+
+
+def largest_difference(a, b) -> float:
+    """Largest absolute difference between the numbers of two documents of the same structure."""
+    if isinstance(a, dict):
+        return max((largest_difference(a[k], b[k]) for k in a), default=0.0)
+    if isinstance(a, list):
+        return max((largest_difference(u, v) for u, v in zip(a, b)), default=0.0)
+    if isinstance(a, (int, float)) and not isinstance(a, bool):
+        return abs(float(a) - float(b))
+    return 0.0 if a == b else math.inf
+
+
+def fit_section(sizes: list[int], folder: Path) -> None:
+    print("fit: scorecard fit on the invented demo cohort (Parquet), in memory vs --engine dask (local cluster)")
+    print(f"machine: {os.cpu_count()} cores, load average {os.getloadavg()[0]:.1f} at start")
+    header = f"{'rows':>10} {'engine':<16} {'seconds':>8} {'rows/s':>9} {'peak MB':>8} {'time/mem':>9} {'peak/mem':>9} {'max diff':>9}"
+    timings: dict[str, list[tuple[int, float]]] = {}
+    for rows in sizes:
+        cohort = folder / f"cohort-{rows}.parquet"
+        subprocess.run([*SCORECARD, "demo", "--cohort-only", "--rows", str(rows), "--seed", "16", "-o", str(cohort)],
+                       check=True, stdout=subprocess.DEVNULL, stderr=subprocess.DEVNULL)
+        print(header)
+        reference = None
+        for label, extra in (("memory", []), ("dask 1 worker", ["--engine", "dask", "--workers", "1"]),
+                             ("dask 2 workers", ["--engine", "dask", "--workers", "2"])):
+            out = folder / f"{rows}-{label.replace(' ', '-')}.model.json"
+            seconds, peak = run_measured([*SCORECARD, "fit", str(cohort), "--outcome", "delirium", "--exclude", "patient_id",
+                                          *extra, "-o", str(out)])
+            document = json.loads(out.read_text())
+            if reference is None:
+                reference = (seconds, peak, document)
+            diff = largest_difference(reference[2], document)
+            print(f"{rows:>10,} {label:<16} {seconds:>8.1f} {rows / seconds:>9,.0f} {peak / 2**20:>8.0f} "
+                  f"{seconds / reference[0]:>9.2f} {peak / reference[1]:>9.2f} {diff:>9.1e}")
+            timings.setdefault(label, []).append((rows, seconds))
+    if len(sizes) > 1:
+        for label, points in timings.items():
+            growth = [math.log(t2 / t1) / math.log(n2 / n1) for (n1, t1), (n2, t2) in zip(points, points[1:])]
+            print(f"time ~ rows^b, {label}: b = " + ", ".join(f"{b:.2f}" for b in growth))
+    print(f"load average {os.getloadavg()[0]:.1f} at end")
+
+
+def fit_bench_section(bench: Bench) -> None:
+    """`scorecard fit` in memory against --engine dask with 1 and 2 workers (`fit_section`)."""
+    fit_section(bench.sizes, bench.folder)
+
+
+SECTIONS = {"verbs": verbs_section, "fit": fit_bench_section}
 
 
 def growth_exponent(points: list[tuple[int, float]]) -> float:
@@ -157,18 +231,19 @@ def summary(bench: Bench) -> None:
 
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("--sizes", default="1000000,5000000,20000000")
+    parser.add_argument("section", nargs="?", choices=sorted(SECTIONS), help="Run this section only (default: --sections).")
+    parser.add_argument("--sizes", "--rows", dest="sizes", default="1000000,5000000,20000000", help="comma-separated cohort sizes")
     parser.add_argument("--verbs", default="predict,score,check")
     parser.add_argument("--in-memory-up-to", type=int, default=5_000_000)
     parser.add_argument("--folder", type=Path, default=None, help="Keep cohorts here (reused by a later run).")
-    parser.add_argument("--sections", default=",".join(SECTIONS))
+    parser.add_argument("--sections", default="verbs", help="comma-separated sections: verbs, fit")
     args = parser.parse_args()
     folder = args.folder or Path(tempfile.mkdtemp(prefix="bench-scale-"))
     folder.mkdir(parents=True, exist_ok=True)
     bench = Bench(folder.resolve(), [int(s) for s in args.sizes.split(",")], args.in_memory_up_to, args.verbs.split(","))
     print(f"bench_scale: sizes {bench.sizes}, in-memory up to {bench.in_memory_up_to:,} rows, {os.cpu_count()} cores, "
           f"load average {os.getloadavg()[0]:.1f}; folder {folder}")
-    for name in args.sections.split(","):
+    for name in [args.section] if args.section else args.sections.split(","):
         print(f"\n[{name}]")
         SECTIONS[name](bench)
     summary(bench)
