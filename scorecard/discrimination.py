@@ -31,6 +31,11 @@ def weighted_auc(groups: np.ndarray, n_groups: int, w_pos: np.ndarray, w_neg: np
     """
     pos = np.bincount(groups, weights=w_pos, minlength=n_groups)
     neg = np.bincount(groups, weights=w_neg, minlength=n_groups)
+    return auc_from_group_sums(pos, neg)
+
+
+def auc_from_group_sums(pos: np.ndarray, neg: np.ndarray) -> float:
+    """`weighted_auc` from the positive and negative weight of each tie group, groups in ascending score."""
     below = np.cumsum(neg) - neg
     denom = pos.sum() * neg.sum()
     if denom <= 0:

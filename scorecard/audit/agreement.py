@@ -3,25 +3,28 @@
 The sheet side is recomputed from the sheet document by `scorecard.audit.paper` (as a person reads the page);
 the model side comes from `scorecard.model.contributions`. Nothing is taken from the quantizer: the figures
 the quantizer stored under `achieved` are shown beside ours for comparison only.
+
+The cohort may come in chunks: each is scored and reduced to the compact per-patient state of
+`scorecard.audit.gather` (the model's log-odds, the sheet's total, the outcome, the outside-range flag) and
+tallies; every figure below is computed once, from that state of the whole cohort. The model's side is
+therefore exact, not approximated: the same figures as a cohort read whole, which is the one-chunk case.
 """
 
 from __future__ import annotations
+
+from collections.abc import Iterable
 
 import numpy as np
 import pandas as pd
 
 from scorecard.audit import statistics
-from scorecard.audit.slips import slip_figures
-from scorecard.audit.paper import ScoredCohort, band_index, parse_cohort, score_cohort, sheet_logodds
+from scorecard.audit.gather import TOP_PATIENTS, CheckState, outcome_values  # noqa: F401  (outcome_values: the check's reading)
+from scorecard.audit.paper import band_index, conversion_arrays, sheet_logodds, total_band_index
 from scorecard.errors import UserError
-from scorecard.model import AdditiveModel, contributions, logistic
+from scorecard.model import AdditiveModel, logistic
 from scorecard.sheet import short_fingerprint
-from scorecard.sheet.printed import term_label
-from scorecard.tabular import flag_column, source_of
-from scorecard.suggest import did_you_mean
 
 REPORT_TAG = "scorecard-check-report"
-TOP_PATIENTS = 20
 HISTOGRAM_BINS = 41
 # a computed figure equal to its bound up to float noise passes
 _SLACK = 1e-9
@@ -45,40 +48,17 @@ def _bound(name: str, what: str, value, limit, passed: bool, shown: str) -> dict
     return {"name": name, "what": what, "value": value, "bound": limit, "pass": bool(passed), "shown": shown}
 
 
-def _parsed_frame(frame: pd.DataFrame, values: dict[str, np.ndarray], model: AdditiveModel) -> pd.DataFrame:
-    """The cohort with the columns the sheet already parsed handed over as typed values (floats with NaN,
-    levels with None), which the model reads exactly as it reads their text; other columns stay as text."""
-    columns = {}
-    for name in model.used_features:
-        if name in values:
-            columns[name] = pd.Series(values[name], index=frame.index, dtype=object if values[name].dtype == object else float)
-        elif name in frame.columns:
-            columns[name] = frame[name]
-    typed = pd.DataFrame(columns, index=frame.index)
-    typed.attrs["source"] = source_of(frame)
-    return typed
-
-
-def outcome_values(frame: pd.DataFrame, column: str | None) -> np.ndarray | None:
-    """0/1/NaN outcome per patient, or None when no outcome column is used."""
-    if column is None:
-        return None
-    if column not in frame.columns:
-        raise UserError(f"{source_of(frame)}: outcome column {column!r} is not in the file"
-                        f"{did_you_mean(column, list(frame.columns))}; check --outcome")
-    return flag_column(frame, column)
-
-
 def _risk_errors(diff: np.ndarray, limit: float, percentile: float) -> dict:
     a = np.abs(diff)
+    p99, p95, pq = np.percentile(a, [99, 95, percentile])
     return {
         "max_abs_risk_error": float(a.max()),
-        "p99_abs_risk_error": float(np.percentile(a, 99)),
-        "p95_abs_risk_error": float(np.percentile(a, 95)),
+        "p99_abs_risk_error": float(p99),
+        "p95_abs_risk_error": float(p95),
         "risk_error_percentile": float(percentile),
-        "percentile_abs_risk_error": float(np.percentile(a, percentile)),
+        "percentile_abs_risk_error": float(pq),
         "mean_abs_risk_error": float(a.mean()),
-        "share_over_risk_error": float((a > limit + _SLACK).mean()),
+        "share_over_risk_error": float(np.count_nonzero(a > limit + _SLACK) / len(a)),
     }
 
 
@@ -123,62 +103,41 @@ def per_patient_bounds(bound: dict, agreement: dict, certificate: dict) -> tuple
     return judged, free
 
 
-def _band_matrix(sheet: dict, model_risk: np.ndarray, scored: ScoredCohort) -> dict | None:
-    if scored.band is None:
+def _band_matrix(sheet: dict, model_risk: np.ndarray, total: np.ndarray) -> dict | None:
+    if not sheet.get("bands"):
         return None
     names = [b["name"] for b in sheet["bands"]]
     k = len(names)
-    model_band = band_index(sheet, model_risk)
-    counts = np.bincount(model_band * k + scored.band, minlength=k * k).reshape(k, k)
+    counts = np.bincount(band_index(sheet, model_risk) * k + total_band_index(sheet, total), minlength=k * k).reshape(k, k)
     return {"bands": names, "rows_are": "model band", "columns_are": "sheet band",
             "counts": counts.tolist(), "agreement": float(np.trace(counts) / counts.sum())}
 
 
-def _largest(sheet: dict, model: AdditiveModel, scored: ScoredCohort, parts: pd.DataFrame,
-             model_risk: np.ndarray, diff: np.ndarray, count: int) -> list[dict]:
-    """The patients with the largest |sheet risk - model risk|, with each term's row and how far that row is
-    from the model (points x log-odds per point - model contribution, centred on its cohort mean, so the
-    term with the largest |off by| is the row that causes the disagreement)."""
-    lpp = float(sheet["scale"]["logodds_per_point"])
-    order = np.lexsort((np.arange(len(diff)), -np.abs(diff)))[:count]
-    names = [t.name for t in scored.terms]
-    sheet_parts = {t.name: t.patient_points() * lpp for t in scored.terms}
-    dropped = [t.name for t in model.terms if t.name not in sheet_parts]
-    rows = []
-    centre = {}
-    for name in names + dropped:
-        model_part = parts[name].to_numpy() if name in parts.columns else 0.0
-        centre[name] = float(np.mean(sheet_parts.get(name, 0.0) - model_part))
-    for i in order:
-        terms = []
-        for t in scored.terms:
-            model_part = float(parts[t.name].iloc[i]) if t.name in parts.columns else 0.0
-            on_sheet = float(t.points[t.index[i]]) * lpp
-            terms.append({"term": t.name, "label": t.label, "row": t.texts[t.index[i]], "points": int(t.points[t.index[i]]),
-                          "model_logodds": model_part, "off_by": on_sheet - model_part - centre[t.name]})
-        for name in dropped:
-            model_part = float(parts[name].iloc[i])
-            terms.append({"term": name, "label": term_label(model, name), "row": "(not on the sheet)", "points": 0,
-                          "model_logodds": model_part, "off_by": -model_part - centre[name]})
-        rows.append({"row": int(i) + 1, "total": int(scored.total[i]), "sheet_risk": float(scored.risk[i]),
-                     "sheet_risk_text": str(scored.risk_text[i]), "model_risk": float(model_risk[i]),
-                     "difference": float(diff[i]), "terms": terms})
-    return rows
-
-
-def _against_outcomes(y: np.ndarray, model_lo: np.ndarray, model_risk: np.ndarray, scored: ScoredCohort,
-                      sheet_lo: np.ndarray) -> dict | None:
-    known = ~np.isnan(y)
+def _against_outcomes(y: np.ndarray, model_lo: np.ndarray, model_risk: np.ndarray, total: np.ndarray, sheet: dict,
+                      sheet_risk: np.ndarray) -> dict | None:
+    """Both scores against the observed outcomes (1/0; -1 not known); patients come sorted by model_lo."""
+    known = y >= 0
     if not known.any():
         return None
-    yk = y[known]
+    yk = y[known].astype(float)
     out: dict = {"n": int(known.sum()), "not_known": int((~known).sum()), "event_rate": float(yk.mean())}
-    for who, lo, risk in (("model", model_lo[known], model_risk[known]), ("sheet", sheet_lo[known], scored.risk[known])):
-        g, ng = statistics.tie_groups(lo)
-        one_class = yk.min() == yk.max()  # every outcome 0 (or 1): no intercept, slope or AUC is estimable
-        a, b = (None, None) if one_class else statistics.logistic_calibration(*statistics.grouped(lo, yk))
+    one_class = yk.min() == yk.max()  # every outcome 0 (or 1): no intercept, slope or AUC is estimable
+    for who in ("model", "sheet"):
+        if who == "model":
+            lo = model_lo[known]
+            risk = model_risk[known]
+            auc = None if one_class else statistics.sorted_auc(statistics.run_ids(lo), yk)
+            x, s, m = statistics.grouped(lo, yk)
+        else:
+            tk = total[known]
+            risk = sheet_risk[known]
+            low = int(tk.min())
+            auc = None if one_class else statistics.weighted_auc(tk - low, int(tk.max()) - low + 1, yk, 1 - yk)
+            totals, s, m = statistics.grouped(tk, yk)
+            x = sheet_logodds(sheet, totals)
+        a, b = (None, None) if one_class else statistics.logistic_calibration(x, s, m)
         out[who] = {
-            "auc": None if one_class else statistics.weighted_auc(g, ng, yk, 1 - yk),
+            "auc": auc,
             "calibration_intercept": a,
             "calibration_slope": b,
             "brier": statistics.brier(risk, yk),
@@ -192,45 +151,56 @@ def _against_outcomes(y: np.ndarray, model_lo: np.ndarray, model_risk: np.ndarra
 MIN_PATIENTS = 2  # an AUC, a calibration and a bootstrap need two patients at the very least
 
 
-def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outcome: str | None = None,
-                    replicates: int = 200, seed: int = 0, model_matches: bool = True, progress=None) -> dict:
-    """Every figure of the agreement report as a plain dict (also the --json output)."""
-    say = progress or (lambda message: None)
-    if len(frame) < MIN_PATIENTS:
-        raise UserError(f"{source_of(frame)}: {len(frame)} patient(s); agreement needs at least {MIN_PATIENTS} to compare "
-                        "paper and software (no AUC or spread is defined on fewer); give a larger cohort")
-    say(f"scoring {len(frame)} patients with the sheet")
-    values = parse_cohort(sheet, frame)
-    scored = score_cohort(sheet, frame, values)
-    y = outcome_values(frame, outcome)
-    say("computing the exact model")
-    parts, model_report = contributions(model, _parsed_frame(frame, values, model))
-    model_lo = model.intercept + parts.to_numpy().sum(axis=1)
-    recalibrated = sheet.get("recalibration")
-    if recalibrated:
-        # a locally recalibrated sheet stands for the model recalibrated the same way (docs/ward-workflow.md)
-        model_lo = recalibrated["model_logodds"]["intercept"] + recalibrated["model_logodds"]["slope"] * model_lo
-    model_risk = logistic(model_lo)
-    sheet_lo = sheet_logodds(sheet, scored.total)
-    diff = scored.risk - model_risk
-    bound = sheet["bound"]
+PROGRESS_EVERY = 1_000_000  # patients between two progress lines of a long check
 
-    # AUC of each score: against observed outcomes when there are any, else against the outcomes the model
-    # expects (each patient an event with weight p and a non-event with weight 1 - p)
+
+def check_agreement(sheet: dict, model: AdditiveModel, cohort: pd.DataFrame | Iterable[pd.DataFrame], outcome: str | None = None,
+                    replicates: int = 200, seed: int = 0, model_matches: bool = True, progress=None) -> dict:
+    """Every figure of the agreement report as a plain dict (also the --json output). `cohort` is a table,
+    or its chunks in file order (`scorecard.tabular.iter_table`): only the compact state of
+    `scorecard.audit.gather` is kept between chunks, and a table is the one-chunk case."""
+    say = progress or (lambda message: None)
+    state = CheckState(sheet, model, outcome)
+    for frame in [cohort] if isinstance(cohort, pd.DataFrame) else cohort:
+        before = state.n
+        state.add(frame)
+        if state.n // PROGRESS_EVERY > before // PROGRESS_EVERY:
+            say(f"scored {state.n:,} patients with the sheet and the exact model")
+    if state.n < MIN_PATIENTS:
+        raise UserError(f"{state.source}: {state.n} patient(s); agreement needs at least {MIN_PATIENTS} to compare "
+                        "paper and software (no AUC or spread is defined on fewer); give a larger cohort")
+    return agreement_report(state, replicates=replicates, seed=seed, model_matches=model_matches, say=say)
+
+
+def agreement_report(state: CheckState, replicates: int, seed: int, model_matches: bool, say) -> dict:
+    """The report from the state of a whole cohort (`check_agreement`)."""
+    sheet, model, outcome = state.sheet, state.model, state.outcome
+    patients = state.patients()
+    model_lo, total, y = patients["logodds"], patients["total"], patients["outcome"]
+    first, risk_table, _ = conversion_arrays(sheet)
+    model_risk = logistic(model_lo)
+    sheet_risk = risk_table[total - first]
+    diff = sheet_risk - model_risk
+    bound = sheet["bound"]
+    recalibrated = sheet.get("recalibration")
+
     # sheet against model: AUCs against the outcomes the model's own risks imply (each patient an event with
     # weight p and a non-event with weight 1 - p), the definition the bound is set in; observed outcomes,
     # when the cohort has them, get their own section
-    has_outcomes = y is not None and (~np.isnan(y)).any()
-    w_pos, w_neg = model_risk, 1 - model_risk
+    has_outcomes = y is not None and bool((y >= 0).any())
     basis = "outcomes expected from the model's risk"
-    gm, ngm = statistics.tie_groups(model_lo)
-    gs = scored.total - scored.total.min()
+    ids = statistics.run_ids(model_lo)
+    low_total = int(total.min())
+    gs = total - low_total
     ngs = int(gs.max()) + 1
-    auc_model = statistics.weighted_auc(gm, ngm, w_pos, w_neg)
-    auc_sheet = statistics.weighted_auc(gs, ngs, w_pos, w_neg)
-    say(f"bootstrap interval of the AUC loss ({replicates} resamples)")
-    ci = statistics.bootstrap_auc_difference(gm, ngm, gs, ngs, w_pos, w_neg, replicates=replicates, seed=seed)
-    cal_a, cal_b = statistics.logistic_calibration(*statistics.grouped(sheet_lo, model_risk))
+    auc_model = statistics.sorted_auc(ids, model_risk)
+    auc_sheet = statistics.weighted_auc(gs, ngs, model_risk, 1 - model_risk)
+    if state.n >= PROGRESS_EVERY:
+        say(f"bootstrap interval of the AUC loss ({replicates} resamples of {state.n:,} patients)")
+    ci = statistics.bootstrap_auc_difference(ids, gs, ngs, model_risk, replicates=replicates, seed=seed)
+    del ids
+    totals, expected, counts = statistics.grouped(total, model_risk)
+    cal_a, cal_b = statistics.logistic_calibration(sheet_logodds(sheet, totals), expected, counts)
     agreement = {
         "auc_basis": basis,
         "auc_model": auc_model,
@@ -243,18 +213,24 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
         "calibration_slope": cal_b,
         "brier_basis": basis,
         "brier_model": statistics.expected_brier(model_risk, model_risk),
-        "brier_sheet": statistics.expected_brier(scored.risk, model_risk),
+        "brier_sheet": statistics.expected_brier(sheet_risk, model_risk),
     }
-    bands = _band_matrix(sheet, model_risk, scored)
+    bands = _band_matrix(sheet, model_risk, total)
     agreement["band_agreement"] = None if bands is None else bands["agreement"]
 
-    inside = ~scored.outside_training
+    inside = ~patients["outside"]
     cert = sheet["certificate"]
-    lo_err = np.abs(sheet_lo - model_lo)
+    lo_err = np.abs(sheet_logodds(sheet, total) - model_lo)
     worst_inside = float(lo_err[inside].max()) if inside.any() else 0.0
+    del lo_err
     by_total = {int(e["total"]): float(e["max_risk_error"]) for e in cert.get("risk_error_by_total", [])}
-    risk_limit = np.array([by_total.get(int(t), float(cert["max_risk_error"])) for t in range(int(scored.total.min()), int(scored.total.max()) + 1)])
-    over_chart = inside & (np.abs(diff) > risk_limit[scored.total - scored.total.min()] + _SLACK)
+    risk_limit = np.array([by_total.get(int(t), float(cert["max_risk_error"])) for t in range(low_total, int(total.max()) + 1)])
+    over_chart = inside & (np.abs(diff) > risk_limit[gs] + _SLACK)
+    del gs
+    magnitude = float(np.ceil(np.abs(diff).max() * 1000) / 10) or 0.1  # percentage points, to 0.1
+    counts, edges = np.histogram(diff * 100, bins=HISTOGRAM_BINS, range=(-magnitude, magnitude))
+    del diff  # the per-patient differences are no longer needed: memory for the outcome figures
+    against = _against_outcomes(y, model_lo, model_risk, total, sheet, sheet_risk) if has_outcomes else None
 
     scale = sheet["scale"]
     totals = np.array([c["total"] for c in sheet["conversion"]], dtype=float)
@@ -287,9 +263,8 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
         _bound("total_points", "range of total points (highest - lowest) at most the bound", span, bound["max_total_points"],
                span <= bound["max_total_points"], f"{span} vs {bound['max_total_points']}"),
     ]
-    magnitude = float(np.ceil(np.abs(diff).max() * 1000) / 10) or 0.1  # percentage points, to 0.1
-    counts, edges = np.histogram(diff * 100, bins=HISTOGRAM_BINS, range=(-magnitude, magnitude))
-    say("writing the report")
+    if state.n >= PROGRESS_EVERY:
+        say("writing the report")
     return _without_nan({
         "document": REPORT_TAG,
         "format_version": 1,
@@ -297,23 +272,23 @@ def check_agreement(sheet: dict, model: AdditiveModel, frame: pd.DataFrame, outc
         "sheet": {"invented_data": bool(sheet.get("invented_data")), "title": sheet["title"], "fingerprint": sheet.get("fingerprint", ""), "short_fingerprint": short_fingerprint(sheet),
                   "model_fingerprint": sheet["model"]["fingerprint"], "outcome": sheet["outcome"]},
         "model": {"name": model.name, "version": model.version, "fingerprint": model.fingerprint, "matches_sheet": model_matches},
-        "cohort": {"source": source_of(frame), "n": int(len(frame)), "outcome_column": outcome,
-                   "outside_training": int(scored.outside_training.sum())},
+        "cohort": {"source": state.source, "n": int(state.n), "outcome_column": outcome,
+                   "outside_training": int(state.n - inside.sum())},
         "bounds": checks,
         "not_bounded": not_bounded,
         "agreement": agreement,
         "band_matrix": bands,
-        "against_outcomes": _against_outcomes(y, model_lo, model_risk, scored, sheet_lo) if has_outcomes else None,
+        "against_outcomes": against,
         "certificate": {"max_logodds_error": float(cert["max_logodds_error"]), "worst_inside": worst_inside,
                         "max_risk_error": float(cert["max_risk_error"]),
                         "patients_inside": int(inside.sum()), "over_risk_chart": int(over_chart.sum()),
                         "by_total": certificate_by_total(sheet)},
         "stored_achieved": sheet.get("achieved"),
         "histogram": {"unit": "percentage points (sheet risk - model risk)", "edges": edges.tolist(), "counts": counts.tolist()},
-        "slips": slip_figures(sheet, scored),
-        "largest": _largest(sheet, model, scored, parts, model_risk, diff, TOP_PATIENTS),
-        "warnings": list(scored.warnings),
-        "notes": list(scored.notes) + [f"model: {line}" for line in model_report.lines()] + ([
+        "slips": state.slips.figures(),
+        "largest": state.largest_rows(),
+        "warnings": state.reading.warnings(),
+        "notes": state.reading.notes() + [f"model: {line}" for line in state.model_report.lines()] + ([
             f"recalibrated sheet: the model's log-odds are compared as {recalibrated['model_logodds']['intercept']:+.4f} + "
             f"{recalibrated['model_logodds']['slope']:.4f} x model log-odds, as the sheet states; the stored figures are the "
             f"original sheet's ({recalibrated['original_fingerprint'][:12]})"] if recalibrated else []),

@@ -97,13 +97,62 @@ class ScoredCohort:
     risk: np.ndarray  # the conversion table's risk for each total
     risk_text: np.ndarray  # object array of printed risk texts
     band: np.ndarray | None  # band index per patient, None when the sheet has no bands
-    notes: list[str] = field(default_factory=list)
-    warnings: list[str] = field(default_factory=list)
+    reading: "SheetReading" = field(default_factory=lambda: SheetReading())
     outside_training: np.ndarray | None = None  # per patient: any measurement outside a training range
 
     @property
     def n(self) -> int:
         return len(self.total)
+
+    @property
+    def notes(self) -> list[str]:
+        return self.reading.notes()
+
+    @property
+    def warnings(self) -> list[str]:
+        return self.reading.warnings()
+
+
+@dataclass
+class SheetReading:
+    """What the reader of a scored cohort is told, kept as counts so that the chunks of a streamed cohort add
+    up to what one pass over the whole reports: per measured item, the values outside its training range out
+    of those measured (most of them outside: wrong units suspected); per category, the levels on no printed
+    row and the row they were scored in. Entries are keyed by print order, so the lines come out in it."""
+
+    outside: dict[tuple[int, str], list] = field(default_factory=dict)  # (order, feature) -> [outside, measured, block]
+    unlisted: dict[tuple[int, str], dict] = field(default_factory=dict)  # (order, feature) -> {"row": text|None, "levels": {}}
+
+    def add(self, other: "SheetReading") -> None:
+        """Count another chunk of the same cohort in."""
+        for key, (out, measured, block) in other.outside.items():
+            mine = self.outside.setdefault(key, [0, 0, block])
+            mine[0] += out
+            mine[1] += measured
+        for key, entry in other.unlisted.items():
+            mine = self.unlisted.setdefault(key, {"row": entry["row"], "levels": {}})
+            for level, n in entry["levels"].items():
+                mine["levels"][level] = mine["levels"].get(level, 0) + n
+
+    def warnings(self, share: float = 0.5) -> list[str]:
+        """Loud warnings when most values of a feature lie outside its training range (wrong units suspected)."""
+        out = []
+        for (_, name), (outside, measured, block) in sorted(self.outside.items()):
+            if measured and outside > share * measured:
+                rng, unit = block["training_range"], block.get("unit", "")
+                out.append(
+                    f"WARNING: {outside / measured:.0%} of {name!r} values lie outside the training range "
+                    f"{rng['min']:g} to {rng['max']:g} {unit}: wrong units suspected; the sheet expects {unit or 'the training units'}"
+                )
+        return out
+
+    def notes(self) -> list[str]:
+        out = []
+        for (_, name), entry in sorted(self.unlisted.items()):
+            listed = ", ".join(f"{lv!r} x{c}" for lv, c in sorted(entry["levels"].items()))
+            where = f"in the {entry['row']!r} row" if entry["row"] is not None else "0 points"
+            out.append(f"{name}: levels on no row of the sheet, scored {where}: {listed}")
+        return out
 
 
 def sheet_logodds(sheet: dict, total: np.ndarray) -> np.ndarray:
@@ -220,13 +269,10 @@ def _level_lookup(rows: list[dict]) -> dict[str, int]:
 def _category_choice(rows: list[dict], values: np.ndarray) -> tuple[np.ndarray, np.ndarray]:
     """Index of each level's row; -1 not measured, -2 a level listed in no row."""
     lookup = _level_lookup(rows)
-    series = pd.Series(values, dtype=object)
-    idx = series.map(lookup)
-    missing = series.isna().to_numpy()
-    unseen = idx.isna().to_numpy() & ~missing
-    out = np.array(idx.fillna(-1).to_numpy(dtype=np.int64), copy=True)
-    out[unseen] = -2
-    return out, unseen
+    codes, uniques = pd.factorize(pd.Series(values, dtype=object), use_na_sentinel=True)  # each distinct level once
+    per_unique = np.array([lookup.get(v, -2) for v in uniques], dtype=np.int64)
+    out = np.where(codes < 0, -1, per_unique[np.clip(codes, 0, None)] if len(per_unique) else -1).astype(np.int64)
+    return out, out == -2
 
 
 def _with_no_row(texts: list[str], points: list[int], idx: np.ndarray, code: int, text: str) -> np.ndarray:
@@ -239,7 +285,7 @@ def _with_no_row(texts: list[str], points: list[int], idx: np.ndarray, code: int
     return np.where(hit, len(texts) - 1, idx)
 
 
-def _single_term(term: dict, x: np.ndarray, source: str, report: ScoredCohort, first: int = 0) -> TermChoices:
+def _single_term(term: dict, x: np.ndarray, source: str, report: ScoredCohort, first: int = 0, order: int = 0) -> TermChoices:
     rows = term["rows"]
     texts = [r["text"] for r in rows]
     points = [int(r["points"]) for r in rows]
@@ -254,8 +300,7 @@ def _single_term(term: dict, x: np.ndarray, source: str, report: ScoredCohort, f
         if missing_row is not None:
             idx = np.where(idx == -1, missing_row, idx)
         if unseen.any():
-            levels = pd.Series(x[unseen]).value_counts().sort_index()
-            listed = ", ".join(f"{lv!r} x{c}" for lv, c in levels.items())
+            levels = {str(lv): int(c) for lv, c in pd.Series(x[unseen]).value_counts().items()}
             policy = term.get("unseen", "error")
             if policy == "error":
                 row = int(np.flatnonzero(unseen)[0])
@@ -267,9 +312,7 @@ def _single_term(term: dict, x: np.ndarray, source: str, report: ScoredCohort, f
             target = next((i for i, r in enumerate(rows) if r.get("other" if policy == "other" else "missing")), None)
             if target is not None:
                 idx = np.where(idx == -2, target, idx)
-                report.notes.append(f"{name}: levels on no row of the sheet, scored in the {rows[target]['text']!r} row: {listed}")
-            else:
-                report.notes.append(f"{name}: levels on no row of the sheet, scored 0 points: {listed}")
+            report.reading.unlisted[(order, name)] = {"row": None if target is None else rows[target]["text"], "levels": levels}
             idx = _with_no_row(texts, points, idx, -2, NOT_LISTED_TEXT)
     if (idx == -1).any():
         _refuse_not_measured(source, first + int(np.flatnonzero(idx == -1)[0]), name, "its table has no 'not measured' row")
@@ -345,10 +388,9 @@ def total_band_index(sheet: dict, totals: np.ndarray) -> np.ndarray | None:
     return total_band_indices(sheet, totals) if sheet.get("bands") else None
 
 
-def units_warnings(sheet: dict, values: dict[str, np.ndarray], share: float = 0.5) -> tuple[list[str], np.ndarray]:
-    """Loud warnings when most values of a feature lie outside its training range (wrong units suspected),
-    and the per-patient mask of any measurement outside a training range."""
-    warnings = []
+def outside_training(sheet: dict, values: dict[str, np.ndarray], reading: SheetReading) -> np.ndarray:
+    """The per-patient mask of any measurement outside a training range; the counts per feature go into
+    `reading` (its warnings name a feature most of whose values are outside: wrong units suspected)."""
     n = len(next(iter(values.values()))) if values else 0
     outside_any = np.zeros(n, dtype=bool)
     seen = set()
@@ -356,7 +398,7 @@ def units_warnings(sheet: dict, values: dict[str, np.ndarray], share: float = 0.
     for term in sheet["terms"]:
         blocks += [a for a in term["axes"] if a["kind"] == "continuous"] if term["kind"] == "pair" else (
             [term] if term["kind"] == "continuous" else [])
-    for block in blocks:
+    for order, block in enumerate(blocks):
         name = block["feature"]
         rng = block.get("training_range")
         if name in seen or not rng:
@@ -367,13 +409,9 @@ def units_warnings(sheet: dict, values: dict[str, np.ndarray], share: float = 0.
         with np.errstate(invalid="ignore"):
             outside = measured & ((x < rng["min"]) | (x > rng["max"]))
         outside_any |= outside
-        if measured.sum() and outside.sum() > share * measured.sum():
-            unit = block.get("unit", "")
-            warnings.append(
-                f"WARNING: {outside.sum() / measured.sum():.0%} of {name!r} values lie outside the training range "
-                f"{rng['min']:g} to {rng['max']:g} {unit}: wrong units suspected; the sheet expects {unit or 'the training units'}"
-            )
-    return warnings, outside_any
+        reading.outside[(order, name)] = [int(outside.sum()), int(measured.sum()),
+                                          {"training_range": rng, "unit": block.get("unit", "")}]
+    return outside_any
 
 
 def score_cohort(sheet: dict, frame: pd.DataFrame, values: dict[str, np.ndarray] | None = None) -> ScoredCohort:
@@ -383,13 +421,13 @@ def score_cohort(sheet: dict, frame: pd.DataFrame, values: dict[str, np.ndarray]
     first_row = int(frame.attrs.get("first_row", 0))  # a chunk of a streamed file: errors name the file's row
     values = parse_cohort(sheet, frame) if values is None else values
     scored = ScoredCohort(terms=[], total=np.zeros(len(frame), dtype=np.int64), risk=np.empty(0), risk_text=np.empty(0), band=None)
-    scored.warnings, scored.outside_training = units_warnings(sheet, values)
+    scored.outside_training = outside_training(sheet, values, scored.reading)
     total = np.zeros(len(frame), dtype=np.int64)
-    for term in sheet["terms"]:
+    for order, term in enumerate(sheet["terms"]):
         if term["kind"] == "pair":
             choices = _pair_term(term, values, source, first_row)
         else:
-            choices = _single_term(term, values[term["feature"]], source, scored, first_row)
+            choices = _single_term(term, values[term["feature"]], source, scored, first_row, order)
         scored.terms.append(choices)
         total += choices.patient_points()
     first, risk, text = conversion_arrays(sheet)

@@ -1,12 +1,163 @@
-"""Slip robustness of a sheet on the cohort the audit scored: the rule is the sheet's (`scorecard.sheet.slips`,
-the one home `quantize` uses too); the audit applies it to its own scoring of the cohort (`audit.paper`)."""
+"""Slip robustness: how much a bedside slip would move a patient's risk, recomputed from the scored sheet.
+
+Two slips a nurse makes (common practice in hand-scoring audits: the eye lands one line off; an addition off by
+one):
+
+- **neighbouring row**: for every patient with the item measured, the row just above and just below the right
+  one in print order (the not-measured row is not a neighbour; in a pair grid the cells above, below, left and
+  right), each read instead of the right row, one at a time, the other tables unchanged;
+- **total off by one**: the total one higher and one lower (where the conversion table prints it).
+
+For each slip the risk error is risk(slipped total) − risk(right total), read from the conversion table. Per
+table and overall: the mean, 95th percentile and largest |risk error| over every (patient, slip), the share of
+slips that change nothing (same points), and how many patients would change band by at least one such slip.
+
+A slip's error depends only on the row a patient is in and their total, so the figures are computed from a
+`SlipTally`: per table, the number of patients at each (row, total), plus the count of patients whom some
+neighbouring-row slip moves to another band. Tallies of the chunks of a streamed cohort add up, and integer
+counts make every figure the same as on the whole cohort at once.
+
+The audit's own recomputation, independent of the quantizer's (`scorecard.sheet.slips`), proved equal to it by
+tests/quantize/test_quantize_slips.py.
+"""
 
 from __future__ import annotations
 
-from scorecard.audit.paper import ScoredCohort
-from scorecard.sheet import slips
+import numpy as np
+
+from scorecard.audit.paper import ScoredCohort, conversion_arrays, total_band_index
+from scorecard.audit.statistics import weighted_percentiles
+
+
+def _row_neighbours(term: dict, n_choices: int) -> list[list[int]]:
+    """Neighbouring printed rows (indices into the term's choices) of each choice of a single-row table."""
+    printed = [i for i, r in enumerate(term["rows"]) if not r.get("missing")]
+    out: list[list[int]] = [[] for _ in range(n_choices)]
+    for k, i in enumerate(printed):
+        out[i] = [printed[j] for j in (k - 1, k + 1) if 0 <= j < len(printed)]
+    return out
+
+
+def _cell_neighbours(term: dict, n_choices: int) -> list[list[int]]:
+    """Neighbouring cells of each cell of a pair grid (choices are cells i * n1 + j, then not measured)."""
+    n0, n1 = len(term["axes"][0]["rows"]), len(term["axes"][1]["rows"])
+    missing0 = {i for i, r in enumerate(term["axes"][0]["rows"]) if r.get("missing")}
+    missing1 = {j for j, r in enumerate(term["axes"][1]["rows"]) if r.get("missing")}
+    out: list[list[int]] = [[] for _ in range(n_choices)]
+    for i in range(n0):
+        for j in range(n1):
+            if i in missing0 or j in missing1:
+                continue
+            out[i * n1 + j] = [a * n1 + b for a, b in ((i - 1, j), (i + 1, j), (i, j - 1), (i, j + 1))
+                               if 0 <= a < n0 and 0 <= b < n1 and a not in missing0 and b not in missing1]
+    return out
+
+
+def _summary(errors: np.ndarray, weights: np.ndarray, moved: int, patients: int) -> dict:
+    """The figures of `weights[k]` slips of error `errors[k]` each."""
+    a = np.abs(errors)
+    w = np.asarray(weights, dtype=np.int64)
+    slips = int(w.sum())
+    if slips == 0:
+        return {"slips": 0, "mean_abs_risk_error": 0.0, "p95_abs_risk_error": 0.0, "max_abs_risk_error": 0.0,
+                "share_harmless": 1.0, "patients": int(patients), "patients_changing_band": int(moved)}
+    return {
+        "slips": slips,
+        "mean_abs_risk_error": float(np.dot(a, w) / slips),
+        "p95_abs_risk_error": float(weighted_percentiles(a, w, 95)),
+        "max_abs_risk_error": float(a[w > 0].max()),
+        "share_harmless": float(w[a == 0].sum() / slips),
+        "patients": int(patients),
+        "patients_changing_band": int(moved),
+    }
+
+
+class SlipTally:
+    """Patients per (choice, total) for every table of a sheet, and how many some neighbouring-row slip moves
+    to another band; `add` a scored chunk at a time, then `figures()`."""
+
+    def __init__(self, sheet: dict):
+        self.sheet = sheet
+        self.first, self.risk, _ = conversion_arrays(sheet)
+        self.has_bands = bool(sheet.get("bands"))
+        nt = len(self.risk)
+        self.band = total_band_index(sheet, self.first + np.arange(nt)) if self.has_bands else np.zeros(nt, dtype=np.int64)
+        self.points, self.neighbours, self.counts, self.moves = [], [], [], []
+        for term in sheet["terms"]:
+            if term["kind"] == "pair":
+                n0, n1 = len(term["axes"][0]["rows"]), len(term["axes"][1]["rows"])
+                points = np.append(np.asarray(term["points"], dtype=np.int64).reshape(-1), int(term["missing_points"]))
+                neighbours = _cell_neighbours(term, n0 * n1 + 1)
+            else:  # every printed row, then the 0-point 'not listed' choice scoring may add (paper.NOT_LISTED_TEXT)
+                points = np.array([int(r["points"]) for r in term["rows"]] + [0], dtype=np.int64)
+                neighbours = _row_neighbours(term, len(term["rows"]) + 1)
+            self.points.append(points)
+            self.neighbours.append(neighbours)
+            self.counts.append(np.zeros((len(points), nt), dtype=np.int64))
+            self.moves.append(self._moves(points, neighbours))
+        self.patients_moved = 0
+        self.n = 0
+
+    def _slipped(self, points: np.ndarray, choice: int, other: int) -> np.ndarray:
+        """Conversion-table position of every total after reading row `other` instead of `choice`."""
+        totals = np.arange(len(self.risk)) + self.first - points[choice] + points[other]
+        return np.clip(totals, self.first, self.first + len(self.risk) - 1) - self.first
+
+    def _moves(self, points: np.ndarray, neighbours: list[list[int]]) -> np.ndarray:
+        """Per (choice, total): does a slip to some neighbour change the band?"""
+        moves = np.zeros((len(points), len(self.risk)), dtype=bool)
+        if self.has_bands:
+            for c, others in enumerate(neighbours):
+                for o in others:
+                    moves[c] |= self.band[self._slipped(points, c, o)] != self.band
+        return moves
+
+    def add(self, scored: ScoredCohort) -> "SlipTally":
+        at = scored.total - self.first
+        nt = len(self.risk)
+        moved = np.zeros(scored.n, dtype=bool)
+        for choices, counts, moves in zip(scored.terms, self.counts, self.moves):
+            counts += np.bincount(choices.index * nt + at, minlength=counts.size).reshape(counts.shape)
+            moved |= moves[choices.index, at]
+        self.patients_moved += int(moved.sum())
+        self.n += scored.n
+        return self
+
+    def figures(self) -> dict:
+        """The slip figures (see the module docstring); also the check's JSON."""
+        nt = len(self.risk)
+        per_term, all_errors, all_weights = [], [], []
+        for term, points, neighbours, counts, moves in zip(self.sheet["terms"], self.points, self.neighbours, self.counts, self.moves):
+            errors, weights = [], []
+            for c, others in enumerate(neighbours):
+                for o in others:
+                    errors.append(self.risk[self._slipped(points, c, o)] - self.risk)
+                    weights.append(counts[c])
+            e = np.concatenate(errors) if errors else np.empty(0)
+            w = np.concatenate(weights) if weights else np.empty(0, dtype=np.int64)
+            measured = int(sum(counts[c].sum() for c, others in enumerate(neighbours) if others))
+            per_term.append({"term": term["name"], "label": term["label"], **_summary(e, w, int(counts[moves].sum()), measured)})
+            all_errors.append(e)
+            all_weights.append(w)
+        overall = _summary(np.concatenate(all_errors) if all_errors else np.empty(0),
+                           np.concatenate(all_weights) if all_weights else np.empty(0, dtype=np.int64), self.patients_moved, self.n)
+        by_total = self.counts[0].sum(axis=0) if self.counts else np.zeros(nt, dtype=np.int64)
+        positions = np.arange(nt)
+        off_errors, off_weights, off_moved = [], [], np.zeros(nt, dtype=bool)
+        for step in (-1, 1):
+            ok = (positions + step >= 0) & (positions + step < nt)
+            off_errors.append(self.risk[positions[ok] + step] - self.risk[ok])
+            off_weights.append(by_total[ok])
+            if self.has_bands:
+                off_moved[ok] |= self.band[positions[ok] + step] != self.band[ok]
+        return {
+            "what": "risk error (risk of the slipped total - risk of the right total) for one slip at a time",
+            "neighbour_row": {"per_term": per_term, "overall": overall},
+            "total_off_by_one": _summary(np.concatenate(off_errors), np.concatenate(off_weights), int(by_total[off_moved].sum()), self.n),
+            "bands": self.has_bands,
+        }
 
 
 def slip_figures(sheet: dict, scored: ScoredCohort) -> dict:
-    """The slip figures (`scorecard.sheet.slips.slip_figures`) of a sheet on a scored cohort; also the check's JSON."""
-    return slips.slip_figures(sheet, scored.total, scored.terms)
+    """The slip figures of a sheet on one scored cohort (`SlipTally` of it)."""
+    return SlipTally(sheet).add(scored).figures()

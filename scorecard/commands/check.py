@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import itertools
 import re
 
 import click
@@ -15,7 +16,7 @@ from scorecard.errors import CheckFailed, UserError
 from scorecard.jsondoc import atomic_write_bytes, atomic_write_text, pretty_text
 from scorecard.model import load_model
 from scorecard.sheet import CAUTIONS, load_sheet, validate_sheet_dict
-from scorecard.tabular import read_table, require_columns
+from scorecard.tabular import DEFAULT_CHUNK_ROWS, iter_table, require_columns
 from scorecard.suggest import did_you_mean
 
 
@@ -33,7 +34,7 @@ def guess_outcome_column(sheet: dict, columns: list[str]) -> str | None:
 @click.argument("sheet_path", metavar="SHEET.json", type=click.Path())
 @click.option("--model", "model_path", required=True, type=click.Path(), metavar="MODEL.json",
               help="The exact model the sheet was built from (its fingerprint must match the sheet's).")
-@click.option("--data", "cohort_path", required=True, type=click.Path(), metavar="COHORT.csv",
+@click.option("--data", "cohort_path", required=True, type=click.Path(), metavar="COHORT.csv|.parquet",
               help="Patients to compare on: one row each, the columns the sheet needs (and the outcome, if known).")
 @click.option("-o", "--output", required=True, type=click.Path(), metavar="REPORT.pdf", help="The report PDF to write.")
 @click.option("--json", "json_path", type=click.Path(), metavar="REPORT.json", help="Also write every figure as JSON.")
@@ -49,8 +50,11 @@ def guess_outcome_column(sheet: dict, columns: list[str]) -> str | None:
               type=FeatureValue("max_auc_loss=0.01", form="FIELD=VALUE"),
               help="Judge the sheet against this bound instead of the one stored in it (e.g. max_auc_loss=0.01); repeatable. "
                    "Fields are those of the sheet's bound block (docs/sheet-document.md); null leaves one unbounded.")
+@click.option("--chunk-rows", default=DEFAULT_CHUNK_ROWS, show_default=True, type=click.IntRange(1),
+              help="Patients read and scored at a time; only about 14 bytes per patient are kept between chunks, so "
+                   "memory stays bounded; the report does not depend on it.")
 def command(sheet_path, model_path, cohort_path, output, json_path, outcome, replicates, seed, allow_other,
-            approved_by, bound_items) -> None:
+            approved_by, bound_items, chunk_rows) -> None:
     """Check that the paper sheet SHEET.json agrees with its exact model on a cohort, and write the report.
 
     \b
@@ -64,6 +68,10 @@ def command(sheet_path, model_path, cohort_path, output, json_path, outcome, rep
       - a histogram of the risk differences, and the 20 patients who disagree most with their printed
         rows and the model's term contributions, so you see which row causes it;
       - each bound stored in the sheet, and the worst-case certificate, marked PASS or FAIL.
+
+    The cohort is read in chunks of --chunk-rows patients and only a compact state is kept of each patient
+    (the model's log-odds, the sheet's total, the outcome), so a cohort of tens of millions is checked in
+    bounded memory; every figure is computed exactly from that state, the same as on the whole table.
 
     Exit 0 when every check passes, 3 when one fails (the report is written either way), 2 on bad input,
     including a model that is not the one the sheet was built from.
@@ -82,17 +90,18 @@ def command(sheet_path, model_path, cohort_path, output, json_path, outcome, rep
     sheet, bound_source, unsigned = bound_to_judge(sheet, sheet_path, approval, bound_items)
     model = load_model(model_path)
     matches = model_matches_sheet(model, sheet, model_path, allow_other, say)
-    cohort = read_table(cohort_path)
-    require_columns(cohort, sheet_features(sheet), "the sheet")  # before the outcome note: a bad cohort is one line
+    chunks = iter_table(cohort_path, chunk_rows)
+    first = next(chunks)
+    require_columns(first, sheet_features(sheet), "the sheet")  # before the outcome note: a bad cohort is one line
     if outcome is None:
-        outcome = guess_outcome_column(sheet, list(cohort.columns))
+        outcome = guess_outcome_column(sheet, list(first.columns))
         if outcome:
             say(f"note: using column {outcome!r} as the observed outcome (named in the sheet's outcome); change it with --outcome")
-    elif outcome not in cohort.columns:
+    elif outcome not in first.columns:
         raise UserError(f"{cohort_path}: outcome column {outcome!r} (from --outcome) is not in the file"
-                        f"{did_you_mean(outcome, list(cohort.columns))}")
-    report = check_agreement(sheet, model, cohort, outcome=outcome, replicates=replicates, seed=seed,
-                             model_matches=matches, progress=say if len(cohort) > 50_000 else None)
+                        f"{did_you_mean(outcome, list(first.columns))}")
+    report = check_agreement(sheet, model, itertools.chain([first], chunks), outcome=outcome, replicates=replicates, seed=seed,
+                             model_matches=matches, progress=say)
     report["bound_source"] = bound_source
     if unsigned:
         report["bound_warning"] = unsigned

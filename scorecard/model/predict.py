@@ -29,18 +29,24 @@ class PredictionReport:
     not_measured: dict[str, int] = field(default_factory=dict)
     averaged: dict[str, int] = field(default_factory=dict)
     unseen_levels: dict[str, dict[str, int]] = field(default_factory=dict)
+    order: list[str] = field(default_factory=list)  # the model's features: lines come in this order
 
     def add(self, other: "PredictionReport") -> None:
-        """Count another chunk of the same cohort in (a streamed run reports what one pass would)."""
+        """Count another chunk of the same cohort in (a streamed run reports what one pass would, in the same
+        order whichever chunk first met a feature)."""
         self.rows += other.rows
-        for mine, theirs in ((self.out_of_range, other.out_of_range), (self.not_measured, other.not_measured),
-                             (self.averaged, other.averaged)):
+        self.order = self.order or list(other.order)
+        rank = {name: k for k, name in enumerate(self.order)}
+        for attr in ("out_of_range", "not_measured", "averaged", "unseen_levels"):
+            mine, theirs = getattr(self, attr), getattr(other, attr)
             for name, n in theirs.items():
-                mine[name] = mine.get(name, 0) + n
-        for name, levels in other.unseen_levels.items():
-            mine = self.unseen_levels.setdefault(name, {})
-            for level, n in levels.items():
-                mine[level] = mine.get(level, 0) + n
+                if attr == "unseen_levels":
+                    levels = mine.setdefault(name, {})
+                    for level, k in n.items():
+                        levels[level] = levels.get(level, 0) + k
+                else:
+                    mine[name] = mine.get(name, 0) + n
+            setattr(self, attr, dict(sorted(mine.items(), key=lambda item: rank.get(item[0], len(rank)))))
 
     def lines(self) -> list[str]:
         out = []
@@ -49,7 +55,7 @@ class PredictionReport:
         for name, n in self.averaged.items():
             out.append(f"{name}: {n} not measured and scored at the population average (0)")
         for name, levels in self.unseen_levels.items():
-            listed = ", ".join(f"{lv!r} x{c}" for lv, c in levels.items())
+            listed = ", ".join(f"{lv!r} x{c}" for lv, c in sorted(levels.items()))
             out.append(f"{name}: levels not seen in training: {listed}")
         return out
 
@@ -83,7 +89,9 @@ def step_bins(edges, x: np.ndarray) -> np.ndarray:
 def level_bins(levels, values: np.ndarray) -> np.ndarray:
     """Index of each level; None gives -1, an unknown level -2."""
     lookup = {lv: i for i, lv in enumerate(levels)}
-    return np.array([-1 if v is None else lookup.get(v, -2) for v in values], dtype=np.int64)
+    codes, uniques = pd.factorize(pd.Series(values, dtype=object), use_na_sentinel=True)  # each distinct level once
+    per_unique = np.array([lookup.get(v, -2) for v in uniques], dtype=np.int64)
+    return np.where(codes < 0, -1, per_unique[np.clip(codes, 0, None)] if len(per_unique) else -1).astype(np.int64)
 
 
 def flag_bins(values: np.ndarray) -> np.ndarray:
@@ -107,7 +115,7 @@ class _Evaluator:
         self.source = source_of(frame)
         self.first_row = int(frame.attrs.get("first_row", 0))  # file numbering of a one-patient slice (explain)
         self.values = {name: feature_values(frame, model.feature(name)) for name in model.used_features}
-        self.report = PredictionReport(rows=len(frame))
+        self.report = PredictionReport(rows=len(frame), order=list(model.used_features))
         for name, vals in self.values.items():
             feature = model.feature(name)
             missing = _missing_mask(vals)
@@ -199,7 +207,7 @@ class _Evaluator:
 
 def _missing_mask(values: np.ndarray) -> np.ndarray:
     if values.dtype == object:
-        return np.array([v is None for v in values], dtype=bool)
+        return pd.isna(values)  # None (not measured) in a column of levels
     return np.isnan(values)
 
 

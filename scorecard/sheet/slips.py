@@ -12,8 +12,10 @@ For each slip the risk error is risk(slipped total) − risk(right total), read 
 table and overall: the mean, 95th percentile and largest |risk error| over every (patient, slip), the share of
 slips that change nothing (same points), and how many patients would change band by at least one such slip.
 
-The one home of this rule: `check` applies it to the cohort the audit scored (`scorecard.audit.slips`), and
-`quantize` to the patients its sheet was judged on and to the candidate sheets it chooses among.
+`quantize` applies this to the patients its sheet was judged on and to the candidate sheets it chooses among.
+The audit recomputes the same figures independently of the quantizer, from counts per (row, total) so that a
+streamed cohort adds up (`scorecard.audit.slips.SlipTally`); tests/quantize/test_quantize_slips.py proves the
+two equal on the same patients, as with the measurement rounding rule's two homes.
 """
 
 from __future__ import annotations

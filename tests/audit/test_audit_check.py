@@ -70,12 +70,39 @@ def test_bootstrap_interval_is_seeded_and_brackets_the_estimate():
     y = (rng.random(2000) < 0.3).astype(float)
     a = y + rng.normal(0, 1, 2000)
     b = np.round(a + rng.normal(0, 0.5, 2000))
-    ga, na = statistics.tie_groups(a)
-    gb, nb = statistics.tie_groups(b)
-    diff = statistics.weighted_auc(ga, na, y, 1 - y) - statistics.weighted_auc(gb, nb, y, 1 - y)
-    ci = statistics.bootstrap_auc_difference(ga, na, gb, nb, y, 1 - y, replicates=200, seed=7)
-    assert ci == statistics.bootstrap_auc_difference(ga, na, gb, nb, y, 1 - y, replicates=200, seed=7)
+    diff = roc_auc_score(y, a) - roc_auc_score(y, b)  # scikit-learn
+    order = np.argsort(a, kind="stable")  # score a is handed over in ascending order, by its runs of ties
+    ids = statistics.run_ids(a[order])
+    gb, nb = statistics.tie_groups(b[order])
+    ci = statistics.bootstrap_auc_difference(ids, gb, nb, y[order], 1 - y[order], replicates=200, seed=7)
+    assert ci == statistics.bootstrap_auc_difference(ids, gb, nb, y[order], 1 - y[order], replicates=200, seed=7)
     assert ci[0] < diff < ci[1] and ci[1] - ci[0] < 0.1
+
+
+def test_blocked_sums_give_the_whole_arrays_figures(monkeypatch):
+    """The bounded-memory forms (blocks of patients, counts for slips) against scikit-learn, statsmodels and
+    numpy on the whole arrays; blocks of 7 patients make ties run across many block edges."""
+    monkeypatch.setattr(statistics, "BLOCK", 7)
+    rng = np.random.default_rng(5)
+    score = np.sort(np.round(rng.normal(size=3000), 1))  # many ties, ascending
+    y = (rng.random(3000) < 1 / (1 + np.exp(-score))).astype(float)
+    assert statistics.sorted_auc(statistics.run_ids(score), y, 1 - y) == pytest.approx(roc_auc_score(y, score), abs=1e-12)
+    p = rng.uniform(0.02, 0.9, 3000)
+    expected = roc_auc_score(np.r_[np.ones(3000), np.zeros(3000)], np.r_[score, score], sample_weight=np.r_[p, 1 - p])
+    assert statistics.sorted_auc(statistics.run_ids(score), p) == pytest.approx(expected, abs=1e-12)  # scikit-learn
+    fit = sm.Logit(y, sm.add_constant(score)).fit(disp=0)  # statsmodels logistic regression
+    assert statistics.logistic_calibration(*statistics.grouped(score, y)) == pytest.approx(tuple(fit.params), abs=1e-7)
+    # the three ways of grouping (whole numbers, an ascending x, anything) give the same groups
+    totals = rng.integers(-3, 30, 3000)
+    by_count = statistics.grouped(totals, p)
+    by_unique = statistics.grouped(totals.astype(float), p)
+    by_runs = statistics.grouped(np.sort(totals).astype(float), p[np.argsort(totals, kind="stable")])
+    for a, b, c in zip(by_count, by_unique, by_runs):
+        assert a == pytest.approx(b, rel=1e-12) and a == pytest.approx(c, rel=1e-12)
+    # a percentile of a multiset kept as counts is numpy's percentile of the multiset written out
+    values, counts = rng.normal(size=40), rng.integers(0, 50, 40)
+    for q in (0, 5, 50, 95, 99, 100):
+        assert statistics.weighted_percentiles(values, counts, q) == pytest.approx(np.percentile(np.repeat(values, counts), q), abs=1e-12)
 
 
 # -- the demo: quantize the true model, then audit it ------------------------------------------------

@@ -1,30 +1,130 @@
-"""Scale benchmark: rows per second and peak memory on large invented cohorts, same run.
+"""Scale benchmark (issue 16): rows per second and peak resident memory of the verbs that read a whole cohort,
+on invented demo cohorts of 1,000,000, 5,000,000 and 20,000,000 patients, in-memory against streamed, in
+the same run. Prints figures, same-run ratios and the growth exponent of time against rows; asserts nothing.
 
-Section `fit` (issue 16): `scorecard fit` on a demo cohort written as Parquet, in memory against the Dask
-engine with 1 and 2 local workers (`--engine dask --workers N`), each run a fresh process; the peak memory is
-that of the whole process tree (the command and, for Dask, its worker processes), sampled with psutil every
-0.1 s. Prints rows/s, peak memory, the ratios to the in-memory run and how far the Dask documents are from
-the in-memory one (largest difference of any number). With two or more sizes it also prints how the fit's
-time grows with rows (the exponent b of time ~ rows^b between consecutive sizes).
+    nice -n 10 python tests/benchmarks/bench_scale.py [--sizes 1000000,5000000,20000000] [--verbs predict,score,check]
+        [--in-memory-up-to 5000000] [--folder DIR] [--sections verbs,fit]
+    python tests/benchmarks/bench_scale.py fit --rows 1000000        # the fit section alone (docs/scale.md, Fit)
 
-    python tests/benchmarks/bench_scale.py fit [--rows 1000000,5000000]
+Every run is a fresh `python -m scorecard ...` child process; its peak resident memory is the kernel's own
+count for that child (`os.wait4` resource usage, ru_maxrss), its time the wall clock and the child's CPU time
+(user + system: less sensitive to a machine shared with other work). "streamed" is the verb as shipped
+(`--chunk-rows` 250,000), "in-memory" the same verb with the whole cohort as one chunk (`--chunk-rows` = rows),
+which is what every verb did before streaming. In-memory runs stop at --in-memory-up-to rows: their memory
+grows with the cohort, and 20,000,000 patients in memory would not fit the machine (docs/scale.md). The
+growth exponent is the least-squares slope of log(CPU seconds) on log(rows) over the sizes run: 1 is linear.
 
-Run it on a quiet machine: the figures are wall-clock times on shared cores.
+The cohorts are `scorecard demo --cohort-only --rows N -o cohort-N.parquet`, kept in --folder and reused;
+the sheet and model are the demo's (`scorecard demo --rows 5000`). Sections are functions registered in
+SECTIONS: a new one (fit, say) takes the same `Bench` and adds its rows to the same table.
 """
 
 from __future__ import annotations
 
 import argparse
-import json
 import math
 import os
 import subprocess
 import sys
 import tempfile
+import json
 import time
+from dataclasses import dataclass, field
 from pathlib import Path
 
 import psutil
+
+ROOT = Path(__file__).resolve().parents[2]
+STREAM_ROWS = 250_000  # scorecard.tabular.DEFAULT_CHUNK_ROWS, the shipped default
+
+
+@dataclass
+class Run:
+    section: str
+    verb: str
+    mode: str
+    rows: int
+    wall: float
+    cpu: float
+    peak_mb: float
+    exit_code: int
+
+    @property
+    def rate(self) -> float:
+        return self.rows / self.wall if self.wall else float("nan")
+
+
+@dataclass
+class Bench:
+    folder: Path
+    sizes: list[int]
+    in_memory_up_to: int
+    verbs: list[str]
+    runs: list[Run] = field(default_factory=list)
+
+    def scorecard(self, section: str, verb: str, mode: str, rows: int, args: list[str]) -> Run:
+        """One CLI run in a child process: wall time, CPU time and the child's own peak resident memory."""
+        start = time.perf_counter()
+        child = subprocess.Popen([sys.executable, "-m", "scorecard", *args], cwd=self.folder,
+                                 stdout=subprocess.DEVNULL, stderr=subprocess.PIPE, text=True)
+        stderr = child.stderr.read()
+        _, status, usage = os.wait4(child.pid, 0)
+        wall = time.perf_counter() - start
+        code = os.waitstatus_to_exitcode(status)
+        child.returncode = code
+        run = Run(section, verb, mode, rows, wall, usage.ru_utime + usage.ru_stime, usage.ru_maxrss / 1024, code)
+        print(f"  {verb:8s} {mode:9s} {rows:>11,} rows: {wall:7.1f} s wall, {run.cpu:7.1f} s CPU, {run.rate:>10,.0f} rows/s, "
+              f"peak {run.peak_mb:6.0f} MB (exit {code}; load {os.getloadavg()[0]:.1f})", flush=True)
+        if code not in (0, 3):
+            print("    " + stderr.strip().splitlines()[-1] if stderr.strip() else "    (no message)")
+        self.runs.append(run)
+        return run
+
+    def demo(self) -> Path:
+        """The demo's sheet and model (built once)."""
+        demo = self.folder / "demo"
+        if not (demo / "sheet.json").exists():
+            subprocess.run([sys.executable, "-m", "scorecard", "demo", "-o", str(demo), "--rows", "5000"], cwd=ROOT,
+                           check=False, capture_output=True)
+        return demo
+
+    def cohort(self, rows: int) -> Path:
+        """The invented cohort of `rows` patients as Parquet (generated once, in chunks)."""
+        path = self.folder / f"cohort-{rows}.parquet"
+        if not path.exists():
+            start = time.perf_counter()
+            subprocess.run([sys.executable, "-m", "scorecard", "demo", "--cohort-only", "--rows", str(rows), "-o", str(path)],
+                           cwd=ROOT, check=True, capture_output=True)
+            print(f"  generated {path.name} in {time.perf_counter() - start:.0f} s", flush=True)
+        return path
+
+    def modes(self, rows: int) -> list[tuple[str, int]]:
+        out = [("streamed", STREAM_ROWS)]
+        if rows <= self.in_memory_up_to:
+            out.insert(0, ("in-memory", rows))
+        return out
+
+
+def verbs_section(bench: Bench) -> None:
+    """predict, score and check on each size, in-memory (one chunk) and streamed."""
+    demo = bench.demo()
+    sheet, model = demo / "sheet.json", demo / "edited.model.json"
+    for rows in bench.sizes:
+        cohort = bench.cohort(rows)
+        for mode, chunk in bench.modes(rows):
+            chunking = ["--chunk-rows", str(chunk)]
+            if "predict" in bench.verbs:
+                bench.scorecard("verbs", "predict", mode, rows, ["predict", str(model), str(cohort), "-o", "out.parquet", *chunking])
+            if "score" in bench.verbs:
+                bench.scorecard("verbs", "score", mode, rows, ["score", str(sheet), str(cohort), "--model", str(model),
+                                                                "-o", "out.parquet", *chunking])
+            if "check" in bench.verbs:
+                bench.scorecard("verbs", "check", mode, rows, ["check", str(sheet), "--model", str(model), "--data", str(cohort),
+                                                                "-o", "report.pdf", "--json", "report.json", *chunking])
+            (bench.folder / "out.parquet").unlink(missing_ok=True)
+
+
+# -- fit (issue 16, the Dask engine): its own measurement of the whole process tree (Dask workers included)
 
 SCORECARD = [sys.executable, "-m", "scorecard"]
 
@@ -89,15 +189,64 @@ def fit_section(sizes: list[int], folder: Path) -> None:
     print(f"load average {os.getloadavg()[0]:.1f} at end")
 
 
+def fit_bench_section(bench: Bench) -> None:
+    """`scorecard fit` in memory against --engine dask with 1 and 2 workers (`fit_section`)."""
+    fit_section(bench.sizes, bench.folder)
+
+
+SECTIONS = {"verbs": verbs_section, "fit": fit_bench_section}
+
+
+def growth_exponent(points: list[tuple[int, float]]) -> float:
+    """Least-squares slope of log(seconds) on log(rows)."""
+    if len(points) < 2:
+        return float("nan")
+    xs, ys = [math.log(r) for r, _ in points], [math.log(max(s, 1e-9)) for _, s in points]
+    mx, my = sum(xs) / len(xs), sum(ys) / len(ys)
+    return sum((x - mx) * (y - my) for x, y in zip(xs, ys)) / sum((x - mx) ** 2 for x in xs)
+
+
+def summary(bench: Bench) -> None:
+    print("\nsummary (same run)")
+    print(f"  {'verb':8s} {'mode':9s} {'rows':>11s} {'rows/s (CPU)':>13s} {'peak MB':>8s} {'bytes/row':>9s}")
+    for r in bench.runs:
+        print(f"  {r.verb:8s} {r.mode:9s} {r.rows:>11,} {r.rows / r.cpu if r.cpu else float('nan'):>13,.0f} {r.peak_mb:>8.0f} "
+              f"{r.peak_mb * 2**20 / r.rows:>9.0f}")
+    keys = sorted({(r.section, r.verb, r.mode) for r in bench.runs})
+    print("\n  growth of CPU time with rows (exponent; 1 = linear) and peak memory at the largest size")
+    for section, verb, mode in keys:
+        runs = [r for r in bench.runs if (r.section, r.verb, r.mode) == (section, verb, mode)]
+        largest = max(runs, key=lambda r: r.rows)
+        print(f"  {verb:8s} {mode:9s} exponent {growth_exponent([(r.rows, r.cpu) for r in runs]):5.2f} over "
+              f"{', '.join(f'{r.rows:,}' for r in runs)}; peak {largest.peak_mb:.0f} MB at {largest.rows:,}")
+    print("\n  streamed / in-memory at the same size (CPU time, peak memory)")
+    for r in bench.runs:
+        if r.mode != "streamed":
+            continue
+        base = next((b for b in bench.runs if (b.section, b.verb, b.rows, b.mode) == (r.section, r.verb, r.rows, "in-memory")), None)
+        if base:
+            print(f"  {r.verb:8s} {r.rows:>11,}: time x{r.cpu / base.cpu:.2f}, memory x{r.peak_mb / base.peak_mb:.2f} "
+                  f"({base.peak_mb:.0f} -> {r.peak_mb:.0f} MB)")
+
+
 def main() -> None:
     parser = argparse.ArgumentParser(description=__doc__.splitlines()[0])
-    parser.add_argument("section", choices=["fit"])
-    parser.add_argument("--rows", default="1000000", help="comma-separated cohort sizes")
+    parser.add_argument("section", nargs="?", choices=sorted(SECTIONS), help="Run this section only (default: --sections).")
+    parser.add_argument("--sizes", "--rows", dest="sizes", default="1000000,5000000,20000000", help="comma-separated cohort sizes")
+    parser.add_argument("--verbs", default="predict,score,check")
+    parser.add_argument("--in-memory-up-to", type=int, default=5_000_000)
+    parser.add_argument("--folder", type=Path, default=None, help="Keep cohorts here (reused by a later run).")
+    parser.add_argument("--sections", default="verbs", help="comma-separated sections: verbs, fit")
     args = parser.parse_args()
-    sizes = [int(r) for r in args.rows.split(",")]
-    with tempfile.TemporaryDirectory() as folder:
-        if args.section == "fit":
-            fit_section(sizes, Path(folder))
+    folder = args.folder or Path(tempfile.mkdtemp(prefix="bench-scale-"))
+    folder.mkdir(parents=True, exist_ok=True)
+    bench = Bench(folder.resolve(), [int(s) for s in args.sizes.split(",")], args.in_memory_up_to, args.verbs.split(","))
+    print(f"bench_scale: sizes {bench.sizes}, in-memory up to {bench.in_memory_up_to:,} rows, {os.cpu_count()} cores, "
+          f"load average {os.getloadavg()[0]:.1f}; folder {folder}")
+    for name in [args.section] if args.section else args.sections.split(","):
+        print(f"\n[{name}]")
+        SECTIONS[name](bench)
+    summary(bench)
 
 
 if __name__ == "__main__":
