@@ -13,6 +13,7 @@ from scorecard.errors import UserError
 from scorecard.jsondoc import file_sha256
 from scorecard.model import save_model
 from scorecard.model.declare import declare_completed, declare_level_order
+from scorecard.sheet.printed import term_label
 from scorecard.suggest import did_you_mean
 from scorecard.fit.columns import feature_column, looks_like_identifier, outcome_values, uninformative_reason
 from scorecard.tabular import numeric_column, read_table
@@ -269,10 +270,11 @@ def command(data_path, outcome, features, exclude, categorical, weights_column, 
     model.invented_data = invented
     validation = model.provenance.get("validation", {})
     if "out_of_bag_auc" in validation:
-        say(f"out-of-bag AUC {validation['out_of_bag_auc']:.3f} on {validation['out_of_bag_rows']} patients")
+        say(f"held-out AUC {validation['out_of_bag_auc']:.3f} on {validation['out_of_bag_rows']} patients "
+            "(each predicted by the repeats that held it out)")
     fingerprint = save_model(model, out, protect=(data_path,))
-    pairs_kept = [t.name for t in model.terms if t.kind == "pair"]
-    say(f"wrote {out}: {len(model.terms) - len(pairs_kept)} shapes, pairs: {', '.join(pairs_kept) or 'none'}; fingerprint {fingerprint[:12]}")
+    pairs_kept = [term_label(model, t) for t in model.terms if t.kind == "pair"]
+    say(f"wrote {out}: {len(model.terms) - len(pairs_kept)} shapes, pairs: {'; '.join(pairs_kept) or 'none'}; fingerprint {fingerprint[:12]}")
 
 
 command.renamed_options = RENAMED_OPTIONS

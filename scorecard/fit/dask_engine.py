@@ -257,7 +257,7 @@ class DaskTable:
                         del requests[i]
                         batch[i] = source.remote("finish", ())
                         if progress:
-                            progress(f"{what}: bag {i + 1}/{len(bags)} done, best at round {done.value['rounds']}")
+                            progress(f"{what}: repeat {i + 1}/{len(bags)} done, best at round {done.value['rounds']}")
                         break
                     if method in source.LOCAL:
                         answers[i] = getattr(source, method)(*arguments)
