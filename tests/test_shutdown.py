@@ -72,7 +72,7 @@ def cohort(tmp_path_factory) -> Path:
 def start_fit(cohort: Path, folder: Path) -> tuple[subprocess.Popen, list[int]]:
     """`scorecard fit` with many slow bags on two workers, started in its own session (as a shell's job)."""
     command = [sys.executable, "-m", "scorecard", "fit", str(cohort), "--outcome", "delirium", "--exclude", "patient_id",
-               "--bags", "60", "--learning-rate", "0.02", "--jobs", "2", "-o", str(folder / "fitted.model.json")]
+               "--repeats", "60", "--learning-rate", "0.02", "--jobs", "2", "-o", str(folder / "fitted.model.json")]
     process = subprocess.Popen(command, cwd=folder, stdout=subprocess.PIPE, stderr=subprocess.PIPE, text=True,
                                start_new_session=True, env={**os.environ, "PYTHONPATH": str(Path(__file__).parents[1]), "PYTHONFAULTHANDLER": "1"})
     workers = wait_until(lambda: children_of(process.pid) if process.poll() is None else ["ended"], "the fit's workers")
