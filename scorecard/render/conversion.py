@@ -142,11 +142,17 @@ class ConversionTable(Flowable):
         per = int((avail_height - header_h - 2) // row_h)
         if per < 3:
             return []  # too little room here: start on the next frame
-        first = per * self._groups
-        if first >= len(self.rows):
+        if per * self._groups >= len(self.rows):
             return [self]
-        return [ConversionTable(self.sheet, self.styles, self.rows[:first], self.bands[:first], self.continued, self.spread),
-                ConversionTable(self.sheet, self.styles, self.rows[first:], self.bands[first:], continued=True, spread=self.spread)]
+        # the first part lays out its own rows (its columns may be narrower, its figures may wrap): shrink it
+        # until it really fits, or reportlab would have to split it again and fail
+        for rows_each in range(per, 2, -1):
+            first = rows_each * self._groups
+            head = ConversionTable(self.sheet, self.styles, self.rows[:first], self.bands[:first], self.continued, self.spread)
+            if head.wrap(avail_width, avail_height)[1] <= avail_height:
+                return [head, ConversionTable(self.sheet, self.styles, self.rows[first:], self.bands[first:],
+                                              continued=True, spread=self.spread)]
+        return []  # too little room here: start on the next frame
 
     def draw(self):
         self._table.drawOn(self.canv, 0, 0)

@@ -31,6 +31,7 @@ from scorecard.render.tables import (
     total_block,
 )
 from scorecard.render.text import markup, sheet_has_negative_points
+from scorecard.render.too_long import LayoutError, too_long_message
 from scorecard.sheet.approval import approval_line
 from scorecard.sheet.printed import MEASURE_FIRST_RULE, number_text, prints_spread, units
 
@@ -307,7 +308,12 @@ def render_pdf(sheet: dict, layout: PageLayout, short_fingerprint: str) -> bytes
     UserError when the layout's page limits cannot hold the sheet, naming what does not fit.
     """
     styles = styles_for(layout)
-    data, placement = _render_sides(sheet, layout, styles, short_fingerprint)
+    try:
+        data, placement = _render_sides(sheet, layout, styles, short_fingerprint)
+    except LayoutError:
+        message = too_long_message(sheet, layout.name, lambda trial: _lays_out(trial, layout, styles, short_fingerprint))
+        raise UserError(message or f"the sheet does not fit layout '{layout.name}': a text or table is taller "
+                        "than a page; shorten the longest labels or choose another layout") from None
     moved = _cautions_moved_on(layout, placement)
     if moved is not None:
         # the cautions box landed on a page with nothing else: print it in the next section instead
@@ -323,6 +329,14 @@ def render_pdf(sheet: dict, layout: PageLayout, short_fingerprint: str) -> bytes
         # printed without it, and says so, rather than refusing the sheet
         return render_pdf(sheet, replace(layout, conversion_spread=False), short_fingerprint)
     return data
+
+
+def _lays_out(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: str) -> bool:
+    try:
+        _render_sides(sheet, layout, styles, short_fingerprint)
+    except LayoutError:
+        return False
+    return True
 
 
 def _render_sides(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: str) -> tuple[bytes, _Placement]:

@@ -495,3 +495,50 @@ def test_nomogram_labels_never_cover_each_other_or_a_leader(layout_name, which):
             for level, x0, x1, other in boxes:
                 if other != text and level * sign > 0 and abs(level) < depth:
                     assert not x0 < x < x1, (axis.heading, text, other)
+
+
+@pytest.mark.parametrize("field", ["label", "title"])
+def test_a_text_too_long_for_the_layout_is_named_with_the_length_that_fits(tmp_path, field):
+    # issue 14: a 2,000-character unbreakable text was a LayoutError traceback; now one line, exit 2, naming the
+    # field and how long it may be, and no PDF written. The length is checked by rendering it (reportlab).
+    from tests.render.sheets import finish
+    sheet = twelve_term_sheet()
+    if field == "label":
+        sheet["terms"][0]["label"] = "X" * 2000
+        path = "terms[0].label"
+    else:
+        sheet["title"] = "Y" * 2000
+        path = "title"
+    finish(sheet)
+    source = tmp_path / "long.sheet.json"
+    save_sheet(sheet, source)
+    out = tmp_path / "long.pdf"
+    result = CliRunner().invoke(main, ["render", str(source), "-o", str(out)])
+    assert result.exit_code == 2, result.output
+    message = result.output.strip()
+    assert "\n" not in message and message.startswith(f"error: {path}: 2,000 characters")
+    fits = int(re.search(r"at most ([\d,]+) characters", message).group(1).replace(",", ""))
+    assert 40 <= fits < 2000 and not out.exists()
+    # the length it names really is the longest that lays out
+    if field == "label":
+        sheet["terms"][0]["label"] = "X" * fits
+    else:
+        sheet["title"] = "Y" * fits
+    finish(sheet)
+    assert render_pdf(sheet, load_layout("ward-a4"), short_fingerprint(sheet))[:5] == b"%PDF-"
+
+
+def test_a_long_conversion_table_splits_over_large_print_pages():
+    # a long conversion split over large-print pages keeps every total, each once in reading order; the demo's
+    # own 0-96 table with its range column once made the first part too tall to split ("Splitting error"),
+    # which ConversionTable.split now guards by laying each first part out before offering it
+    from tests.render.sheets import finish
+    sheet = twelve_term_sheet()
+    sheet["terms"][0]["rows"][-1]["points"] += 60
+    finish(sheet)
+    assert len(sheet["conversion"]) > 90
+    pdf = render_pdf(sheet, load_layout("large-print-a4"), short_fingerprint(sheet))
+    with pdfplumber.open(io.BytesIO(pdf)) as doc:
+        text = " ".join((page.extract_text() or "") for page in doc.pages)
+    totals = {int(t.replace("\u2212", "-")) for t in re.findall(r"([\u2212-]?\d+) [<>]?[\d.]+%", text)}
+    assert {c["total"] for c in sheet["conversion"]} <= totals
