@@ -109,7 +109,16 @@ def handling_signals():
         if not isinstance(unraisable.exc_value, Interrupted) and not _state["signalled"]:
             previous_hook(unraisable)
 
+    previous_thread_hook = threading.excepthook
+
+    def quiet_thread_after_signal(args):
+        # the process pool's manager thread may trip over futures the shutdown cancelled (InvalidStateError):
+        # a consequence of the signal, not worth a traceback after the one line
+        if not _state["signalled"]:
+            previous_thread_hook(args)
+
     sys.unraisablehook = quiet_when_lost
+    threading.excepthook = quiet_thread_after_signal
     for s in SIGNALS:
         signal.signal(s, _on_signal)
     try:
@@ -119,6 +128,7 @@ def handling_signals():
             signal.signal(s, handler)
         if not _state["signalled"]:  # after a signal, stay quiet until the interpreter has finished exiting
             sys.unraisablehook = previous_hook
+            threading.excepthook = previous_thread_hook
         if _state["watchdog"] is not None:
             _state["watchdog"].cancel()
         _state["watchdog"] = None
