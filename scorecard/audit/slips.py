@@ -17,7 +17,7 @@ A slip's error depends only on the row a patient is in and their total, so the f
 neighbouring-row slip moves to another band. Tallies of the chunks of a streamed cohort add up, and integer
 counts make every figure the same as on the whole cohort at once.
 
-The audit's own recomputation, independent of the quantizer's (`scorecard.sheet.slips`), proved equal to it by
+The audit's own count, independent of the quantizer's (`scorecard.sheet.slips`, whose neighbour rule both use), proved equal to it by
 tests/quantize/test_quantize_slips.py.
 """
 
@@ -27,30 +27,7 @@ import numpy as np
 
 from scorecard.audit.paper import ScoredCohort, conversion_arrays, total_band_index
 from scorecard.audit.statistics import weighted_percentiles
-
-
-def _row_neighbours(term: dict, n_choices: int) -> list[list[int]]:
-    """Neighbouring printed rows (indices into the term's choices) of each choice of a single-row table."""
-    printed = [i for i, r in enumerate(term["rows"]) if not r.get("missing")]
-    out: list[list[int]] = [[] for _ in range(n_choices)]
-    for k, i in enumerate(printed):
-        out[i] = [printed[j] for j in (k - 1, k + 1) if 0 <= j < len(printed)]
-    return out
-
-
-def _cell_neighbours(term: dict, n_choices: int) -> list[list[int]]:
-    """Neighbouring cells of each cell of a pair grid (choices are cells i * n1 + j, then not measured)."""
-    n0, n1 = len(term["axes"][0]["rows"]), len(term["axes"][1]["rows"])
-    missing0 = {i for i, r in enumerate(term["axes"][0]["rows"]) if r.get("missing")}
-    missing1 = {j for j, r in enumerate(term["axes"][1]["rows"]) if r.get("missing")}
-    out: list[list[int]] = [[] for _ in range(n_choices)]
-    for i in range(n0):
-        for j in range(n1):
-            if i in missing0 or j in missing1:
-                continue
-            out[i * n1 + j] = [a * n1 + b for a, b in ((i - 1, j), (i + 1, j), (i, j - 1), (i, j + 1))
-                               if 0 <= a < n0 and 0 <= b < n1 and a not in missing0 and b not in missing1]
-    return out
+from scorecard.sheet.slips import cell_neighbours, row_neighbours  # which rows a slip reads: the sheet's rule
 
 
 def _summary(errors: np.ndarray, weights: np.ndarray, moved: int, patients: int) -> dict:
@@ -87,10 +64,10 @@ class SlipTally:
             if term["kind"] == "pair":
                 n0, n1 = len(term["axes"][0]["rows"]), len(term["axes"][1]["rows"])
                 points = np.append(np.asarray(term["points"], dtype=np.int64).reshape(-1), int(term["missing_points"]))
-                neighbours = _cell_neighbours(term, n0 * n1 + 1)
+                neighbours = cell_neighbours(term, n0 * n1 + 1)
             else:  # every printed row, then the 0-point 'not listed' choice scoring may add (paper.NOT_LISTED_TEXT)
                 points = np.array([int(r["points"]) for r in term["rows"]] + [0], dtype=np.int64)
-                neighbours = _row_neighbours(term, len(term["rows"]) + 1)
+                neighbours = row_neighbours(term, len(term["rows"]) + 1)
             self.points.append(points)
             self.neighbours.append(neighbours)
             self.counts.append(np.zeros((len(points), nt), dtype=np.int64))

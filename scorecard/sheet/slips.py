@@ -37,7 +37,7 @@ class Choices(Protocol):
     index: np.ndarray
 
 
-def _row_neighbours(term: dict, n_choices: int) -> list[list[int]]:
+def row_neighbours(term: dict, n_choices: int) -> list[list[int]]:
     """Neighbouring printed rows (indices into the term's choices) of each choice of a single-row table."""
     printed = [i for i, r in enumerate(term["rows"]) if not r.get("missing")]
     out: list[list[int]] = [[] for _ in range(n_choices)]
@@ -46,7 +46,7 @@ def _row_neighbours(term: dict, n_choices: int) -> list[list[int]]:
     return out
 
 
-def _cell_neighbours(term: dict, n_choices: int) -> list[list[int]]:
+def cell_neighbours(term: dict, n_choices: int) -> list[list[int]]:
     """Neighbouring cells of each cell of a pair grid (choices are cells i * n1 + j, then not measured)."""
     n0, n1 = len(term["axes"][0]["rows"]), len(term["axes"][1]["rows"])
     missing0 = {i for i, r in enumerate(term["axes"][0]["rows"]) if r.get("missing")}
@@ -92,7 +92,7 @@ def slip_figures(sheet: dict, total: np.ndarray, terms: Sequence[Choices]) -> di
 
     per_term, all_errors, all_moved = [], [], np.zeros(n, dtype=bool)
     for term, choices in zip(sheet["terms"], terms):
-        neighbours = (_cell_neighbours if term["kind"] == "pair" else _row_neighbours)(term, len(choices.points))
+        neighbours = (cell_neighbours if term["kind"] == "pair" else row_neighbours)(term, len(choices.points))
         errors, moved = [], np.zeros(n, dtype=bool)
         measured = np.zeros(n, dtype=bool)
         for side in range(4):
