@@ -1,16 +1,5 @@
-"""Slip robustness: how much a bedside slip would move a patient's risk, recomputed from the scored sheet.
-
-Two slips a nurse makes (common practice in hand-scoring audits: the eye lands one line off; an addition off by
-one):
-
-- **neighbouring row**: for every patient with the item measured, the row just above and just below the right
-  one in print order (the not-measured row is not a neighbour; in a pair grid the cells above, below, left and
-  right), each read instead of the right row, one at a time, the other tables unchanged;
-- **total off by one**: the total one higher and one lower (where the conversion table prints it).
-
-For each slip the risk error is risk(slipped total) − risk(right total), read from the conversion table. Per
-table and overall: the mean, 95th percentile and largest |risk error| over every (patient, slip), the share of
-slips that change nothing (same points), and how many patients would change band by at least one such slip.
+"""Slip robustness on the cohort the audit scored: the slips and figures `scorecard.sheet.slips` defines (a
+neighbouring row read instead of the right one; a total off by one), counted for `check`.
 
 A slip's error depends only on the row a patient is in and their total, so the figures are computed from a
 `SlipTally`: per table, the number of patients at each (row, total), plus the count of patients whom some
