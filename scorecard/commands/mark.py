@@ -8,6 +8,7 @@ from scorecard.commands._common import output_path, say
 from scorecard.exercise import mark_answers
 from scorecard.jsondoc import atomic_write_text, pretty_text
 from scorecard.tabular import read_csv
+from scorecard.sheet.printed import pair_name
 
 
 def _lines(marks: dict) -> list[str]:
@@ -24,7 +25,7 @@ def _lines(marks: dict) -> list[str]:
         out.append(f"  not answered: {', '.join(marks['not_answered'])}")
     out.append("per table: misread / answered, mean and largest |risk error| caused (percentage points)")
     for t in marks["per_table"]:
-        out.append(f"  {t['table']}: {t['misread']} / {t['answered']}, {t['mean_abs_risk_error'] * 100:.1f}, {t['largest_abs_risk_error'] * 100:.1f}")
+        out.append(f"  {_in_words(t['table'])}: {t['misread']} / {t['answered']}, {t['mean_abs_risk_error'] * 100:.1f}, {t['largest_abs_risk_error'] * 100:.1f}")
     out.append(f"slips: {marks['addition_slips']} in adding, {marks['conversion_slips']} reading the conversion, {marks['band_slips']} in the band")
     return out
 
@@ -57,3 +58,10 @@ def command(key_path, answers_path, output) -> None:
     if out is not None:
         atomic_write_text(out, pretty_text(marks), protect=(key_path, answers_path))
         say(f"marks written to {out}")
+
+
+def _in_words(table: str) -> str:
+    """A pair table named in words (the key holds column names only, not the sheet's labels)."""
+    parts = table.split(" x ")
+    return pair_name([p.replace("_", " ") for p in parts]) if len(parts) == 2 else table
+
