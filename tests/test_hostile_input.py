@@ -221,3 +221,17 @@ def test_fuzzed_model_fields_give_a_model_or_one_user_error(path, value):
         model_from_dict(doc)
     except UserError as exc:
         assert "\n" not in str(exc) and str(exc).startswith("model: ")
+
+
+@pytest.mark.parametrize("verb, option", [("fit", "--pair-min-gain"), ("fit", "--learning-rate"),
+                                          ("quantize", "--band-edge-weight"), ("quantize", "--risk-error-percentile")])
+def test_a_number_option_refuses_nan_before_any_work(tmp_path, verb, option):
+    # click's FloatRange lets nan through its bounds (IEEE 754: every comparison with nan is false)
+    from click.testing import CliRunner
+    from scorecard.cli import main
+    source = tmp_path / "never-read.csv"
+    result = CliRunner().invoke(main, [verb, str(source), "-o", str(tmp_path / "out.json"), option, "nan"]
+                                + (["--outcome", "y"] if verb == "fit" else []))
+    assert result.exit_code == 2
+    assert result.output.strip().splitlines() == [result.output.strip()] and "not a finite number" in result.output
+    assert not (tmp_path / "out.json").exists()

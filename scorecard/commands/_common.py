@@ -2,6 +2,7 @@
 
 from __future__ import annotations
 
+import math
 from pathlib import Path
 
 import click
@@ -34,6 +35,17 @@ def preview_folder(path: str | None) -> Path | None:
     """Check --preview before any work (scorecard.outputs), so a file given as the folder, or a folder that
     cannot be written, stops the command before the PDF is written."""
     return check_preview_folder(path) if path else None
+
+
+class FiniteRange(click.FloatRange):
+    """click's FloatRange, which lets nan and inf through its bounds (every comparison with nan is false):
+    a number option of ours is a finite number inside its range."""
+
+    def convert(self, value, param, ctx):
+        number = super().convert(value, param, ctx)
+        if not math.isfinite(number):
+            self.fail(f"{value!r} is not a finite number.", param, ctx)
+        return number
 
 
 class BadValue(ValueError):

@@ -8,7 +8,7 @@ import click
 import numpy as np
 import pandas as pd
 
-from scorecard.commands._common import FeatureValue, level_list, output_path, say
+from scorecard.commands._common import FeatureValue, FiniteRange, level_list, output_path, say
 from scorecard.errors import UserError
 from scorecard.jsondoc import file_sha256
 from scorecard.model import save_model
@@ -101,18 +101,18 @@ def _dask_engine(scheduler: str | None, workers: int):
 @click.option("--weights", "weights_column", metavar="COLUMN", help="Column of non-negative patient weights (sample weights).")
 @click.option("--pairs", "pairs_text", default="auto", show_default=True, metavar="N|auto", help="Number of two-feature terms; 'auto' keeps those that pass a held-out interaction test and gain at least --pair-min-gain (at most --max-pairs).")
 @click.option("--max-pairs", default=defaults.MAX_PAIRS, show_default=True, type=click.IntRange(0, 20), help="Most pairs 'auto' may keep.")
-@click.option("--pair-min-gain", default=defaults.PAIR_MIN_GAIN, show_default=True, type=click.FloatRange(0),
+@click.option("--pair-min-gain", default=defaults.PAIR_MIN_GAIN, show_default=True, type=FiniteRange(0),
               help="Held-out log-likelihood gain (nats per patient) a pair needs for 'auto': a pair can pass the test and still be too small to matter on a sheet.")
 @click.option("--repeats", "repeats_text", default="auto", show_default=True, metavar="N|auto",
               help="Repeat fits, each on its own held-out split; shapes are their mean, spread bands their standard deviation. 'auto': " + defaults.auto_rule(defaults.repeats_for) + ".")
 @click.option("--seed", default=0, show_default=True, type=click.IntRange(0), help="Seed of the repeats' splits; the same seed and data give the same bytes.")
-@click.option("--learning-rate", default=defaults.LEARNING_RATE, show_default=True, type=click.FloatRange(0, 1, min_open=True), help="Scale of each boosting step.")
+@click.option("--learning-rate", default=defaults.LEARNING_RATE, show_default=True, type=FiniteRange(0, 1, min_open=True), help="Scale of each boosting step.")
 @click.option("--held-out-share", "held_out_text", default="auto", show_default=True, metavar="SHARE|auto",
               help="Share of patients each repeat holds out to decide when to stop, from 0 to below 1. 'auto': " + defaults.auto_rule(defaults.held_out_share_for) + ".")
 @click.option("--shrinkage", "shrinkage_text", default="auto", show_default=True, metavar="VALUE|auto",
               help=f"Added to every leaf's sum of hessians: pulls leaves of few patients toward zero (0 or more). 'auto': chosen from "
                    f"{', '.join(f'{v:g}' for v in defaults.SHRINKAGE_CHOICES)} by held-out deviance under {defaults.CHOOSE_SHRINKAGE_BELOW:,} patients, else {defaults.SHRINKAGE:g}.")
-@click.option("--min-leaf", default=defaults.MIN_LEAF_PATIENTS, show_default=True, type=click.FloatRange(1), help="Fewest patients in any leaf of any step (raise it for small cohorts).")
+@click.option("--min-leaf", default=defaults.MIN_LEAF_PATIENTS, show_default=True, type=FiniteRange(1), help="Fewest patients in any leaf of any step (raise it for small cohorts).")
 @click.option("--bins", default=defaults.BINS, show_default=True, type=click.IntRange(2, 1024), help="Most bins per continuous feature.")
 @click.option("--name", default=None, help="Model name (default: the data file's name).")
 @click.option("--event", default=None, help="What the outcome is, printed on the sheet (default: the outcome column's name).")

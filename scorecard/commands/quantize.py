@@ -7,7 +7,7 @@ from dataclasses import replace
 
 import click
 
-from scorecard.commands._common import BadValue, FeatureValue, output_path, say
+from scorecard.commands._common import BadValue, FeatureValue, FiniteRange, output_path, say
 from scorecard.errors import CheckFailed, UserError
 from scorecard.jsondoc import atomic_write_bytes
 from scorecard.model import load_model
@@ -204,7 +204,7 @@ def in_model_units(doc: dict, model, conversions: dict) -> dict:
 @click.option("--min-band-agreement", type=OptionalFraction(), default=_shown(_DEFAULT.min_band_agreement), show_default=True,
               help="Smallest allowed share of patients whose band on the sheet is the band the exact model gives them "
                    "(used when --bands is given; none = not bounded).")
-@click.option("--risk-error-percentile", type=click.FloatRange(0, 100, min_open=True), default=_DEFAULT.risk_error_percentile,
+@click.option("--risk-error-percentile", type=FiniteRange(0, 100, min_open=True), default=_DEFAULT.risk_error_percentile,
               show_default=True, help="Which percentile of |sheet risk - model risk| --max-percentile-risk-error bounds (95 = p95).")
 @click.option("--max-percentile-risk-error", type=OptionalFraction(), default=_shown(_DEFAULT.max_percentile_risk_error),
               show_default=True, help="Largest allowed value of that percentile of |sheet risk - model risk| "
@@ -226,7 +226,7 @@ def in_model_units(doc: dict, model, conversions: dict) -> dict:
 @click.option("--band-edges", type=click.Choice(["searched", "at-risk-limits"]), default="searched", show_default=True,
               help="Where one band ends and the next begins: at the totals that put the most patients in their exact-model "
                    "band (searched), or where the printed risk crosses each band's limit.")
-@click.option("--band-edge-weight", type=click.FloatRange(0, 100), default=None,
+@click.option("--band-edge-weight", type=FiniteRange(0, 100), default=None,
               help="Extra weight, in the row search and rounding, on patients whose model risk is near a band limit "
                    "(0 = none; default: docs/quantization.md).")
 @click.option("--allow-negative", is_flag=True, help="Keep signed points (default: every table starts at 0 points).")
