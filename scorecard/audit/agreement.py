@@ -50,15 +50,17 @@ def _bound(name: str, what: str, value, limit, passed: bool, shown: str) -> dict
 
 def _risk_errors(diff: np.ndarray, limit: float, percentile: float) -> dict:
     a = np.abs(diff)
-    p99, p95, pq = np.percentile(a, [99, 95, percentile])
+    share = np.count_nonzero(a > limit + _SLACK) / len(a)
+    largest, mean = float(a.max()), float(a.mean())
+    p99, p95, pq = np.percentile(a, [99, 95, percentile], overwrite_input=True)  # partitions its own copy `a` in place
     return {
-        "max_abs_risk_error": float(a.max()),
+        "max_abs_risk_error": largest,
         "p99_abs_risk_error": float(p99),
         "p95_abs_risk_error": float(p95),
         "risk_error_percentile": float(percentile),
         "percentile_abs_risk_error": float(pq),
-        "mean_abs_risk_error": float(a.mean()),
-        "share_over_risk_error": float(np.count_nonzero(a > limit + _SLACK) / len(a)),
+        "mean_abs_risk_error": mean,
+        "share_over_risk_error": float(share),
     }
 
 
@@ -108,34 +110,45 @@ def _band_matrix(sheet: dict, model_risk: np.ndarray, total: np.ndarray) -> dict
         return None
     names = [b["name"] for b in sheet["bands"]]
     k = len(names)
-    counts = np.bincount(band_index(sheet, model_risk) * k + total_band_index(sheet, total), minlength=k * k).reshape(k, k)
+    counts = np.zeros(k * k, dtype=np.int64)
+    for part in statistics.blocks(len(total)):
+        counts += np.bincount(band_index(sheet, model_risk[part]) * k + total_band_index(sheet, total[part]), minlength=k * k)
+    counts = counts.reshape(k, k)
     return {"bands": names, "rows_are": "model band", "columns_are": "sheet band",
             "counts": counts.tolist(), "agreement": float(np.trace(counts) / counts.sum())}
 
 
 def _against_outcomes(y: np.ndarray, model_lo: np.ndarray, model_risk: np.ndarray, total: np.ndarray, sheet: dict,
                       sheet_risk: np.ndarray) -> dict | None:
-    """Both scores against the observed outcomes (1/0; -1 not known); patients come sorted by model_lo."""
+    """Both scores against the observed outcomes (1/0; -1 not known); patients come sorted by model_lo. When
+    every outcome is known (the usual case) the arrays are used as they are, not copied; the 0/1 outcomes stay
+    int8 and are turned into floats a block at a time."""
     known = y >= 0
-    if not known.any():
+    n_known = int(np.count_nonzero(known))
+    if n_known == 0:
         return None
-    yk = y[known].astype(float)
-    out: dict = {"n": int(known.sum()), "not_known": int((~known).sum()), "event_rate": float(yk.mean())}
-    one_class = yk.min() == yk.max()  # every outcome 0 (or 1): no intercept, slope or AUC is estimable
+    if n_known == len(y):
+        yk, model_lo, model_risk, total, sheet_risk = y, model_lo, model_risk, total, sheet_risk
+    else:
+        yk, model_lo, model_risk, total, sheet_risk = y[known], model_lo[known], model_risk[known], total[known], sheet_risk[known]
+    del known
+    events = int(np.count_nonzero(yk))
+    out: dict = {"n": n_known, "not_known": len(y) - n_known, "event_rate": events / n_known}
+    one_class = events in (0, n_known)  # every outcome 0 (or 1): no intercept, slope or AUC is estimable
     for who in ("model", "sheet"):
         if who == "model":
-            lo = model_lo[known]
-            risk = model_risk[known]
-            auc = None if one_class else statistics.sorted_auc(statistics.run_ids(lo), yk)
-            x, s, m = statistics.grouped(lo, yk)
+            risk = model_risk
+            auc = None if one_class else statistics.sorted_auc(statistics.run_ids(model_lo), yk)
+            calibration = (None, None) if one_class else statistics.logistic_calibration(model_lo, yk)  # one patient per x
         else:
-            tk = total[known]
-            risk = sheet_risk[known]
-            low = int(tk.min())
-            auc = None if one_class else statistics.weighted_auc(tk - low, int(tk.max()) - low + 1, yk, 1 - yk)
-            totals, s, m = statistics.grouped(tk, yk)
-            x = sheet_logodds(sheet, totals)
-        a, b = (None, None) if one_class else statistics.logistic_calibration(x, s, m)
+            risk = sheet_risk
+            low = int(total.min())
+            gs = (total - low).astype(np.int16 if int(total.max()) - low < 2**15 else np.int32, copy=False)
+            auc = None if one_class else statistics.auc_from_group_sums(*statistics.group_sums(gs, int(gs.max()) + 1, yk))
+            del gs
+            totals, s, m = statistics.grouped(total, yk)
+            calibration = (None, None) if one_class else statistics.logistic_calibration(sheet_logodds(sheet, totals), s, m)
+        a, b = calibration
         out[who] = {
             "auc": auc,
             "calibration_intercept": a,
@@ -179,8 +192,6 @@ def agreement_report(state: CheckState, replicates: int, seed: int, model_matche
     model_lo, total, y = patients["logodds"], patients["total"], patients["outcome"]
     first, risk_table, _ = conversion_arrays(sheet)
     model_risk = logistic(model_lo)
-    sheet_risk = risk_table[total - first]
-    diff = sheet_risk - model_risk
     bound = sheet["bound"]
     recalibrated = sheet.get("recalibration")
 
@@ -189,16 +200,20 @@ def agreement_report(state: CheckState, replicates: int, seed: int, model_matche
     # when the cohort has them, get their own section
     has_outcomes = y is not None and bool((y >= 0).any())
     basis = "outcomes expected from the model's risk"
+    # memory: the per-patient arrays are made when first needed and dropped when last used; every full-cohort
+    # sum runs a block at a time (`statistics.blocks`), so the working memory is a few arrays of the cohort
     ids = statistics.run_ids(model_lo)
     low_total = int(total.min())
-    gs = total - low_total
-    ngs = int(gs.max()) + 1
+    ngs = int(total.max()) - low_total + 1
+    gs = (total - low_total).astype(np.int16 if ngs <= 2**15 else np.int32, copy=False)  # tie group of the sheet's total
     auc_model = statistics.sorted_auc(ids, model_risk)
-    auc_sheet = statistics.weighted_auc(gs, ngs, model_risk, 1 - model_risk)
+    auc_sheet = statistics.auc_from_group_sums(*statistics.group_sums(gs, ngs, model_risk))
     if state.n >= PROGRESS_EVERY:
         say(f"bootstrap interval of the AUC loss ({replicates} resamples of {state.n:,} patients)")
     ci = statistics.bootstrap_auc_difference(ids, gs, ngs, model_risk, replicates=replicates, seed=seed)
     del ids
+    sheet_risk = risk_table[total - first]
+    diff = sheet_risk - model_risk
     totals, expected, counts = statistics.grouped(total, model_risk)
     cal_a, cal_b = statistics.logistic_calibration(sheet_logodds(sheet, totals), expected, counts)
     agreement = {
@@ -220,15 +235,18 @@ def agreement_report(state: CheckState, replicates: int, seed: int, model_matche
 
     inside = ~patients["outside"]
     cert = sheet["certificate"]
-    lo_err = np.abs(sheet_logodds(sheet, total) - model_lo)
-    worst_inside = float(lo_err[inside].max()) if inside.any() else 0.0
-    del lo_err
     by_total = {int(e["total"]): float(e["max_risk_error"]) for e in cert.get("risk_error_by_total", [])}
     risk_limit = np.array([by_total.get(int(t), float(cert["max_risk_error"])) for t in range(low_total, int(total.max()) + 1)])
-    over_chart = inside & (np.abs(diff) > risk_limit[gs] + _SLACK)
+    worst_inside, over_chart = 0.0, 0
+    for part in statistics.blocks(state.n):
+        ins = inside[part]
+        lo_err = np.abs(sheet_logodds(sheet, total[part][ins]) - model_lo[part][ins])
+        worst_inside = max(worst_inside, float(lo_err.max()) if len(lo_err) else 0.0)
+        over_chart += int(np.count_nonzero(np.abs(diff[part][ins]) > risk_limit[gs[part][ins]] + _SLACK))
     del gs
-    magnitude = float(np.ceil(np.abs(diff).max() * 1000) / 10) or 0.1  # percentage points, to 0.1
-    counts, edges = np.histogram(diff * 100, bins=HISTOGRAM_BINS, range=(-magnitude, magnitude))
+    magnitude = float(np.ceil(agreement["max_abs_risk_error"] * 1000) / 10) or 0.1  # percentage points, to 0.1
+    diff *= 100  # in place: percentage points for the histogram, the last use of the differences
+    counts, edges = np.histogram(diff, bins=HISTOGRAM_BINS, range=(-magnitude, magnitude))
     del diff  # the per-patient differences are no longer needed: memory for the outcome figures
     against = _against_outcomes(y, model_lo, model_risk, total, sheet, sheet_risk) if has_outcomes else None
 
@@ -257,7 +275,7 @@ def agreement_report(state: CheckState, replicates: int, seed: int, model_matche
                f"worst {worst_inside:.4f} vs {float(cert['max_logodds_error']):.4f} ({int(inside.sum())} patients inside)"),
         _bound("certificate_risk", "the sheet keeps its own certificate: no patient inside the training ranges exceeds its "
                "risk error at their total",
-               int(over_chart.sum()), 0, not over_chart.any(), f"{int(over_chart.sum())} patients over"),
+               over_chart, 0, over_chart == 0, f"{over_chart} patients over"),
         _bound("rows", "printed rows per block at most the bound", most_rows, bound["max_rows"],
                most_rows <= bound["max_rows"], f"{most_rows} vs {bound['max_rows']}"),
         _bound("total_points", "range of total points (highest - lowest) at most the bound", span, bound["max_total_points"],
@@ -281,7 +299,7 @@ def agreement_report(state: CheckState, replicates: int, seed: int, model_matche
         "against_outcomes": against,
         "certificate": {"max_logodds_error": float(cert["max_logodds_error"]), "worst_inside": worst_inside,
                         "max_risk_error": float(cert["max_risk_error"]),
-                        "patients_inside": int(inside.sum()), "over_risk_chart": int(over_chart.sum()),
+                        "patients_inside": int(inside.sum()), "over_risk_chart": over_chart,
                         "by_total": certificate_by_total(sheet)},
         "stored_achieved": sheet.get("achieved"),
         "histogram": {"unit": "percentage points (sheet risk - model risk)", "edges": edges.tolist(), "counts": counts.tolist()},

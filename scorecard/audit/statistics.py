@@ -77,10 +77,26 @@ class SortedAUC:
 def sorted_auc(ids: np.ndarray, w_pos: np.ndarray, w_neg: np.ndarray | None = None) -> float:
     """`weighted_auc` of an ascending score given by its `run_ids`; w_neg defaults to 1 - w_pos."""
     acc = SortedAUC()
-    for start in range(0, len(ids), BLOCK):
-        part = slice(start, start + BLOCK)
-        acc.add(ids[part], w_pos[part], 1.0 - w_pos[part] if w_neg is None else w_neg[part])
+    for part in blocks(len(ids)):
+        wp = w_pos[part].astype(float, copy=False)
+        acc.add(ids[part], wp, 1.0 - wp if w_neg is None else w_neg[part])
     return acc.auc()
+
+
+def blocks(n: int):
+    """Slices of `BLOCK` patients covering 0..n: every full-cohort sum below is taken a block at a time, so its
+    temporaries are of one block, and the order of additions is fixed by n alone (never by the chunking)."""
+    return [slice(start, start + BLOCK) for start in range(0, n, BLOCK)]
+
+
+def group_sums(groups: np.ndarray, n_groups: int, w_pos: np.ndarray, w_neg: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
+    """Positive and negative weight per group (`np.bincount`), a block at a time; w_neg defaults to 1 - w_pos."""
+    pos, neg = np.zeros(n_groups), np.zeros(n_groups)
+    for part in blocks(len(groups)):
+        wp = w_pos[part].astype(float, copy=False)
+        pos += np.bincount(groups[part], weights=wp, minlength=n_groups)
+        neg += np.bincount(groups[part], weights=1.0 - wp if w_neg is None else w_neg[part], minlength=n_groups)
+    return pos, neg
 
 
 def poisson_weight_table(size: int = 65536) -> np.ndarray:
@@ -126,30 +142,38 @@ def bootstrap_auc_difference(
     return float(low), float(high)
 
 
-def logistic_calibration(x: np.ndarray, successes: np.ndarray, trials: np.ndarray, iterations: int = 50) -> tuple[float, float]:
+def logistic_calibration(x: np.ndarray, successes: np.ndarray, trials: np.ndarray | None = None,
+                         iterations: int = 50) -> tuple[float, float]:
     """Intercept a and slope b maximising the binomial log-likelihood of logit P(event) = a + b x.
 
     Iteratively reweighted least squares (McCullagh & Nelder, Generalized Linear Models, 1989, ch. 4) on
     grouped data: `successes` events out of `trials` at each x (fractional counts allowed, so the model's own
     risk can be the response). The slope is Cox's calibration slope (Cox, Biometrika 1958): 1 and intercept 0
     mean the risks need no recalibration. Returns (nan, nan) when x does not vary.
+
+    `trials` None is one trial per x (patient-level data: successes 0/1, any integer or float type), taken as
+    it is, without a grouped or float copy of the arrays: the model's log-odds of tens of millions of patients
+    are nearly all distinct, so grouping them would only copy them.
     """
-    x = np.asarray(x, dtype=float)
-    s = np.asarray(successes, dtype=float)
-    m = np.asarray(trials, dtype=float)
-    keep = m > 0
-    x, s, m = x[keep], s[keep], m[keep]
-    if len(x) == 0 or np.ptp(x) == 0:
+    x = np.asarray(x)
+    s = np.asarray(successes)
+    if trials is not None:
+        m = np.asarray(trials, dtype=float)
+        keep = m > 0
+        x, s, m = np.asarray(x, dtype=float)[keep], np.asarray(s, dtype=float)[keep], m[keep]
+    if len(x) == 0 or not float(x.max()) > float(x.min()):
         return float("nan"), float("nan")
     a, b = 0.0, 0.0
-    rate = s.sum() / m.sum()
+    total = float(m.sum()) if trials is not None else float(len(x))
+    rate = float(sum(float(s[part].sum(dtype=float)) for part in blocks(len(s)))) / total
     if 0 < rate < 1:
         a = float(np.log(rate / (1 - rate)))
     for _ in range(iterations):
         # weighted least squares of the working response z on [1, x], its sums taken a block at a time
         sw = swx = swxx = swz = swxz = 0.0
-        for start in range(0, len(x), BLOCK):
-            xb, sb, mb = x[start:start + BLOCK], s[start:start + BLOCK], m[start:start + BLOCK]
+        for part in blocks(len(x)):
+            xb, sb = x[part].astype(float, copy=False), s[part].astype(float, copy=False)
+            mb = 1.0 if trials is None else m[part]
             eta = a + b * xb
             p = 1 / (1 + np.exp(-eta))
             w = np.maximum(mb * p * (1 - p), 1e-300)
@@ -205,24 +229,38 @@ def weighted_percentiles(values: np.ndarray, counts: np.ndarray, q) -> np.ndarra
 
 def brier(risk: np.ndarray, outcome: np.ndarray) -> float:
     """Mean squared difference between risk and the 0/1 outcome (Brier, Monthly Weather Review 1950)."""
-    return float(np.mean((np.asarray(risk, dtype=float) - outcome) ** 2))
+    risk, outcome = np.asarray(risk), np.asarray(outcome)
+    return sum(float(np.sum((risk[part] - outcome[part]) ** 2)) for part in blocks(len(risk))) / len(risk)
 
 
 def expected_brier(risk: np.ndarray, true_risk: np.ndarray) -> float:
     """Brier score expected when each outcome is drawn with probability `true_risk`:
     mean(q (1 - q) + (risk - q)^2), the same quantity as scikit-learn's brier_score_loss on every patient
     duplicated as an event (weight q) and a non-event (weight 1 - q)."""
-    q = np.asarray(true_risk, dtype=float)
-    return float(np.mean(q * (1 - q) + (np.asarray(risk, dtype=float) - q) ** 2))
+    risk, true_risk = np.asarray(risk), np.asarray(true_risk)
+    total = 0.0
+    for part in blocks(len(risk)):
+        q = true_risk[part].astype(float, copy=False)
+        total += float(np.sum(q * (1 - q) + (risk[part] - q) ** 2))
+    return total / len(risk)
 
 
 def calibration_table(risk: np.ndarray, outcome: np.ndarray, groups: int = 10) -> list[dict]:
     """Mean predicted risk and observed event rate in `groups` equal-sized groups of predicted risk
-    (deciles by default; common practice for calibration plots). Ties are kept together by a stable sort."""
-    order = np.argsort(np.asarray(risk, dtype=float), kind="stable")
-    out = []
-    for part in np.array_split(order, groups):
-        if len(part) == 0:
+    (deciles by default; common practice for calibration plots). Ties are kept together by a stable sort; risks
+    already in ascending order (the model's, in the check) are split as they are, by views."""
+    risk = np.asarray(risk, dtype=float)
+    ascending = all(bool(np.all(risk[part][1:] >= risk[part][:-1])) for part in blocks(len(risk))) and \
+        all(risk[e - 1] <= risk[e] for e in range(BLOCK, len(risk), BLOCK))
+    order = None if ascending else np.argsort(risk, kind="stable")
+    n = len(risk)
+    sizes = [n // groups + 1] * (n % groups) + [n // groups] * (groups - n % groups)  # np.array_split's sections
+    out, start = [], 0
+    for size in sizes:
+        if size == 0:
             continue
-        out.append({"n": int(len(part)), "predicted": float(np.mean(risk[part])), "observed": float(np.mean(outcome[part]))})
+        pick = slice(start, start + size) if ascending else order[start:start + size]
+        start += size
+        out.append({"n": int(size), "predicted": float(np.mean(risk[pick])),
+                    "observed": float(np.mean(np.asarray(outcome)[pick], dtype=float))})
     return out

@@ -105,6 +105,36 @@ def test_blocked_sums_give_the_whole_arrays_figures(monkeypatch):
         assert statistics.weighted_percentiles(values, counts, q) == pytest.approx(np.percentile(np.repeat(values, counts), q), abs=1e-12)
 
 
+
+def test_patient_level_forms_give_the_grouped_and_whole_array_figures(monkeypatch):
+    """The forms `check` uses on tens of millions of patients, without copies: a calibration fit on patient-level
+    int8 outcomes (one trial each), group sums and Brier scores a block at a time, and calibration deciles
+    split by views when the risks are already ascending, against statsmodels, scikit-learn and numpy."""
+    monkeypatch.setattr(statistics, "BLOCK", 7)
+    rng = np.random.default_rng(11)
+    score = np.sort(rng.normal(size=2000))  # distinct and ascending, as the model's sorted log-odds
+    y = (rng.random(2000) < 1 / (1 + np.exp(-0.8 * score))).astype(np.int8)
+    fit = sm.Logit(y.astype(float), sm.add_constant(score)).fit(disp=0)  # statsmodels logistic regression
+    assert statistics.logistic_calibration(score, y) == pytest.approx(tuple(fit.params), abs=1e-7)
+    assert np.isnan(statistics.logistic_calibration(np.full(5, 2.0), np.array([0, 1, 0, 1, 1], dtype=np.int8))).all()  # x does not vary
+    totals = rng.integers(0, 40, 2000).astype(np.int16)
+    p = rng.uniform(0.02, 0.9, 2000)
+    expected = roc_auc_score(np.r_[np.ones(2000), np.zeros(2000)], np.r_[totals, totals], sample_weight=np.r_[p, 1 - p])
+    assert statistics.auc_from_group_sums(*statistics.group_sums(totals, 40, p)) == pytest.approx(expected, abs=1e-12)  # scikit-learn
+    assert statistics.auc_from_group_sums(*statistics.group_sums(totals, 40, y)) == pytest.approx(roc_auc_score(y, totals), abs=1e-12)
+    risk = 1 / (1 + np.exp(-score))
+    assert statistics.brier(risk, y) == pytest.approx(brier_score_loss(y, risk), rel=1e-12)  # scikit-learn
+    expected_brier = brier_score_loss(np.r_[np.ones(2000), np.zeros(2000)], np.r_[risk, risk], sample_weight=np.r_[p, 1 - p])
+    assert statistics.expected_brier(risk, p) == pytest.approx(expected_brier, rel=1e-12)
+    # deciles of an ascending risk (views) equal those of the same patients shuffled (stable sort), numpy's split
+    shuffled = rng.permutation(2000)
+    by_views = statistics.calibration_table(risk, y)
+    assert by_views == statistics.calibration_table(risk[shuffled], y[shuffled])
+    for row, part in zip(by_views, np.array_split(np.arange(2000), 10)):
+        assert row["n"] == len(part)
+        assert row["predicted"] == pytest.approx(risk[part].mean(), rel=1e-12)
+        assert row["observed"] == pytest.approx(y[part].mean(), rel=1e-12)
+
 # -- the demo: quantize the true model, then audit it ------------------------------------------------
 
 
