@@ -48,11 +48,11 @@ def _bound(name: str, what: str, value, limit, passed: bool, shown: str) -> dict
     return {"name": name, "what": what, "value": value, "bound": limit, "pass": bool(passed), "shown": shown}
 
 
-def _risk_errors(diff: np.ndarray, limit: float, percentile: float) -> dict:
-    a = np.abs(diff)
+def _risk_errors(a: np.ndarray, limit: float, percentile: float) -> dict:
+    """The figures of |risk difference| `a` (reordered in place by the percentiles: the caller's last use)."""
     share = np.count_nonzero(a > limit + _SLACK) / len(a)
     largest, mean = float(a.max()), float(a.mean())
-    p99, p95, pq = np.percentile(a, [99, 95, percentile], overwrite_input=True)  # partitions its own copy `a` in place
+    p99, p95, pq = np.percentile(a, [99, 95, percentile], overwrite_input=True)
     return {
         "max_abs_risk_error": largest,
         "p99_abs_risk_error": float(p99),
@@ -213,9 +213,36 @@ def agreement_report(state: CheckState, replicates: int, seed: int, model_matche
     ci = statistics.bootstrap_auc_difference(ids, gs, ngs, model_risk, replicates=replicates, seed=seed)
     del ids
     sheet_risk = risk_table[total - first]
-    diff = sheet_risk - model_risk
     totals, expected, counts = statistics.grouped(total, model_risk)
     cal_a, cal_b = statistics.logistic_calibration(sheet_logodds(sheet, totals), expected, counts)
+    brier_model = statistics.expected_brier(model_risk, model_risk)
+    brier_sheet = statistics.expected_brier(sheet_risk, model_risk)
+    bands = _band_matrix(sheet, model_risk, total)
+    against = _against_outcomes(y, model_lo, model_risk, total, sheet, sheet_risk) if has_outcomes else None
+    diff = sheet_risk  # the sheet's risks become the differences in place: sheet_risk - model_risk
+    del sheet_risk
+    diff -= model_risk
+    del model_risk
+
+    inside = ~patients["outside"]
+    cert = sheet["certificate"]
+    by_total = {int(e["total"]): float(e["max_risk_error"]) for e in cert.get("risk_error_by_total", [])}
+    risk_limit = np.array([by_total.get(int(t), float(cert["max_risk_error"])) for t in range(low_total, int(total.max()) + 1)])
+    largest = max(float(diff.max()), -float(diff.min()))  # the largest |difference|, exactly
+    magnitude = float(np.ceil(largest * 1000) / 10) or 0.1  # percentage points, to 0.1
+    edges = np.histogram_bin_edges([], bins=HISTOGRAM_BINS, range=(-magnitude, magnitude))
+    counts = np.zeros(HISTOGRAM_BINS, dtype=np.int64)
+    worst_inside, over_chart = 0.0, 0
+    for part in statistics.blocks(state.n):
+        ins = inside[part]
+        lo_err = np.abs(sheet_logodds(sheet, total[part][ins]) - model_lo[part][ins])
+        worst_inside = max(worst_inside, float(lo_err.max()) if len(lo_err) else 0.0)
+        over_chart += int(np.count_nonzero(np.abs(diff[part][ins]) > risk_limit[gs[part][ins]] + _SLACK))
+        counts += np.histogram(diff[part] * 100, bins=HISTOGRAM_BINS, range=(-magnitude, magnitude))[0]  # same bins: counts add up
+    del gs
+    np.abs(diff, out=diff)  # the last use: |difference|, partitioned in place for the percentiles
+    errors = _risk_errors(diff, float(bound["max_risk_error"]), float(bound.get("risk_error_percentile", 95)))
+    del diff
     agreement = {
         "auc_basis": basis,
         "auc_model": auc_model,
@@ -223,32 +250,14 @@ def agreement_report(state: CheckState, replicates: int, seed: int, model_matche
         "auc_loss": auc_model - auc_sheet,
         "auc_loss_ci": list(ci),
         "bootstrap_replicates": replicates,
-        **_risk_errors(diff, float(bound["max_risk_error"]), float(bound.get("risk_error_percentile", 95))),
+        **errors,
         "calibration_intercept": cal_a,
         "calibration_slope": cal_b,
         "brier_basis": basis,
-        "brier_model": statistics.expected_brier(model_risk, model_risk),
-        "brier_sheet": statistics.expected_brier(sheet_risk, model_risk),
+        "brier_model": brier_model,
+        "brier_sheet": brier_sheet,
     }
-    bands = _band_matrix(sheet, model_risk, total)
     agreement["band_agreement"] = None if bands is None else bands["agreement"]
-
-    inside = ~patients["outside"]
-    cert = sheet["certificate"]
-    by_total = {int(e["total"]): float(e["max_risk_error"]) for e in cert.get("risk_error_by_total", [])}
-    risk_limit = np.array([by_total.get(int(t), float(cert["max_risk_error"])) for t in range(low_total, int(total.max()) + 1)])
-    worst_inside, over_chart = 0.0, 0
-    for part in statistics.blocks(state.n):
-        ins = inside[part]
-        lo_err = np.abs(sheet_logodds(sheet, total[part][ins]) - model_lo[part][ins])
-        worst_inside = max(worst_inside, float(lo_err.max()) if len(lo_err) else 0.0)
-        over_chart += int(np.count_nonzero(np.abs(diff[part][ins]) > risk_limit[gs[part][ins]] + _SLACK))
-    del gs
-    magnitude = float(np.ceil(agreement["max_abs_risk_error"] * 1000) / 10) or 0.1  # percentage points, to 0.1
-    diff *= 100  # in place: percentage points for the histogram, the last use of the differences
-    counts, edges = np.histogram(diff, bins=HISTOGRAM_BINS, range=(-magnitude, magnitude))
-    del diff  # the per-patient differences are no longer needed: memory for the outcome figures
-    against = _against_outcomes(y, model_lo, model_risk, total, sheet, sheet_risk) if has_outcomes else None
 
     scale = sheet["scale"]
     totals = np.array([c["total"] for c in sheet["conversion"]], dtype=float)
