@@ -27,7 +27,7 @@ from typing import Any
 
 import jsonschema
 
-from scorecard.errors import UserError
+from scorecard.errors import UserError, shown
 from scorecard.outputs import check_target, is_stdout
 from scorecard.shutdown import deferred, raise_if_received, track_temporary, untrack_temporary
 
@@ -294,13 +294,6 @@ def schema_error_line(err: jsonschema.ValidationError) -> str:
     # jsonschema's own message quotes the whole value; a 2,000-character text or a long list would swamp the line
     return f"{where}: {err.message.replace(repr(err.instance), shown(err.instance, quote=repr), 1)}"
 
-
-def shown(value, limit: int = 60, quote=None) -> str:
-    """A value as an error line quotes it: JSON (or `quote`), cut to `limit` characters with the full length said."""
-    text = quote(value) if quote else json.dumps(value, ensure_ascii=False)
-    if len(text) <= limit:
-        return text
-    return f"{text[:limit]}… ({len(text):,} characters)"
 
 
 # -- printed text shared by the model and sheet documents ------------------------------------------------

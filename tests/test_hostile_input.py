@@ -275,3 +275,23 @@ def test_a_number_option_refuses_nan_before_any_work(tmp_path, verb, option):
     assert result.exit_code == 2
     assert result.output.strip().splitlines() == [result.output.strip()] and "not a finite number" in result.output
     assert not (tmp_path / "out.json").exists()
+
+
+def test_fit_refuses_a_measurement_beyond_the_document_limit_before_fitting(files):
+    # one age of 1e308 fitted for the whole run, then the model document refused its training range on writing
+    frame = pd.read_csv(files / "cohort.csv")
+    frame["age"] = frame["age"].astype(float)
+    frame.loc[3, "age"] = 1e308
+    frame.to_csv(files / "huge.csv", index=False)
+    line = one_line_error(run("fit", files / "huge.csv", "--outcome", "delirium", "-o", files / "out.model.json"),
+                          "row 4, column 'age': 1e+308 is beyond ±1e+09 for a measurement")
+    assert "huge.csv" in line and "fitting" not in line and not list(files.glob("out*"))
+
+
+def test_a_cell_of_400_digits_is_quoted_short(files):
+    frame = pd.read_csv(files / "cohort.csv").astype({"age": object})
+    frame.loc[0, "age"] = "9" * 400
+    frame.to_csv(files / "digits.csv", index=False)
+    line = one_line_error(run("score", files / "sheet.json", files / "digits.csv", "-o", files / "out.csv"),
+                          "(402 characters) is not a number")
+    assert len(line) < 300 and not list(files.glob("out*"))

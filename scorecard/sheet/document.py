@@ -16,8 +16,8 @@ from typing import Any
 
 import jsonschema
 
-from scorecard.errors import UserError
-from scorecard.jsondoc import first_unprintable, schema_error_line, shown, schema_validator, atomic_write_text, fingerprint, normalise, pretty_text, read_json_file
+from scorecard.errors import UserError, shown
+from scorecard.jsondoc import first_unprintable, schema_error_line, schema_validator, atomic_write_text, fingerprint, normalise, pretty_text, read_json_file
 from scorecard.sheet.printed import is_on_grid, range_text, risk_text, units
 
 FORMAT_VERSION = 1
