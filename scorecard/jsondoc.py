@@ -27,7 +27,7 @@ from typing import Any
 
 import jsonschema
 
-from scorecard.errors import UserError
+from scorecard.errors import UserError, shown
 from scorecard.outputs import check_target, is_stdout
 from scorecard.shutdown import deferred, raise_if_received, track_temporary, untrack_temporary
 
@@ -199,7 +199,8 @@ def read_json_file(path: str | os.PathLike, what: str, allow_nonfinite: bool = F
     if not raw.strip():
         raise UserError(f"{p}: file is empty; expected a {what}")
     try:
-        text = raw.decode("utf-8")
+        # a byte-order mark at the start is how some editors save UTF-8; it is not part of the document
+        text = raw.decode("utf-8-sig")
     except UnicodeDecodeError:
         raise UserError(f"{p}: not UTF-8 text; expected a {what} (JSON)") from None
     problem = _too_deep_or_too_long(text)
@@ -207,9 +208,12 @@ def read_json_file(path: str | os.PathLike, what: str, allow_nonfinite: bool = F
         raise UserError(f"{p}: {problem}; expected a {what} as written by scorecard")
     try:
         return json.loads(text, parse_constant=float if allow_nonfinite else _refuse_constant,
-                          parse_float=float if allow_nonfinite else _finite_float)
+                          parse_float=float if allow_nonfinite else _finite_float, object_pairs_hook=_unique_keys)
     except json.JSONDecodeError as exc:
         raise UserError(f"{p}: not valid JSON at line {exc.lineno} column {exc.colno} ({exc.msg}); expected a {what}") from None
+    except _DuplicateKey as exc:
+        raise UserError(f"{p}: the field {shown(exc.args[0])} is given twice in one object (JSON keeps only the last, "
+                        "silently); keep one") from None
     except ValueError as exc:
         raise UserError(f"{p}: {exc}; numbers must be finite") from None
 
@@ -233,6 +237,18 @@ def _too_deep_or_too_long(text: str) -> str | None:
     if long_number:
         return f"a number has more than {MAX_DIGITS} digits ({long_number.group()[:12]}...)"
     return None
+
+
+class _DuplicateKey(Exception):
+    pass
+
+
+def _unique_keys(pairs: list[tuple[str, Any]]) -> dict:
+    doc = dict(pairs)
+    if len(doc) != len(pairs):
+        seen: set[str] = set()
+        raise _DuplicateKey(next(k for k, _ in pairs if k in seen or seen.add(k)))
+    return doc
 
 
 def _finite_float(text: str) -> float:
@@ -271,11 +287,13 @@ def schema_error_line(err: jsonschema.ValidationError) -> str:
         err = max(err.context, key=lambda e: (len(e.absolute_path), e.validator != "const"))
     where = field_path(err.absolute_path)
     if err.validator == "const":
-        return f"{where}: must be {json.dumps(err.validator_value)}, found {json.dumps(err.instance)}"
+        return f"{where}: must be {json.dumps(err.validator_value)}, found {shown(err.instance)}"
     if err.validator == "enum":
         allowed = ", ".join(json.dumps(v) for v in err.validator_value)
-        return f"{where}: {json.dumps(err.instance, ensure_ascii=False)} is not one of {allowed}"
-    return f"{where}: {err.message}"
+        return f"{where}: {shown(err.instance)} is not one of {allowed}"
+    # jsonschema's own message quotes the whole value; a 2,000-character text or a long list would swamp the line
+    return f"{where}: {err.message.replace(repr(err.instance), shown(err.instance, quote=repr), 1)}"
+
 
 
 # -- printed text shared by the model and sheet documents ------------------------------------------------

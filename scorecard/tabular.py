@@ -18,7 +18,7 @@ import numpy as np
 import pandas as pd
 
 from scorecard.csv_cells import unescape, unescape_column
-from scorecard.errors import UserError
+from scorecard.errors import UserError, shown
 from scorecard.suggest import did_you_mean
 
 MISSING_TOKENS = frozenset({"", "na", "n/a", "nan", "null", "none", "missing", "not measured", "."})
@@ -294,7 +294,7 @@ def numeric_column(frame: pd.DataFrame, name: str) -> np.ndarray:
     if bad.any():
         row = int(np.flatnonzero(bad)[0])
         raise UserError(
-            f"{source_of(frame)}: row {data_row(frame, row)}, column {name!r}: {col.iloc[row]!r} is not a number; "
+            f"{source_of(frame)}: row {data_row(frame, row)}, column {name!r}: {shown(col.iloc[row], quote=repr)} is not a number; "
             "use digits with a decimal point, or leave the cell empty for not measured"
         )
     return parsed

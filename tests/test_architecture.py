@@ -85,3 +85,12 @@ def test_developers_guide_cites_only_files_in_the_repository():
     missing = sorted(c for c in cited if not (ROOT / c).exists())
     assert not missing, f"DEVELOPERS.md cites files that are not in the repository: {missing}"
     assert "DESIGN" not in text, "DEVELOPERS.md points at design notes that are not in the repository"
+
+
+def test_no_merge_conflict_markers_were_committed():
+    # a merge once left '<<<<<<< HEAD' ... '>>>>>>> main' in DEVELOPERS.md (git's own marker lines)
+    marker = re.compile(r"^(<{7} |>{7} |={7}$)", re.M)
+    texts = [ROOT / "DEVELOPERS.md", ROOT / "README.md", ROOT / "pyproject.toml",
+             *(ROOT / "docs").glob("*.md"), *(ROOT / "scorecard").rglob("*.py"), *(ROOT / "tests").rglob("*.py")]
+    marked = [str(p.relative_to(ROOT)) for p in texts if p.exists() and marker.search(p.read_text("utf-8"))]
+    assert not marked, f"merge conflict markers left in {marked}"

@@ -51,6 +51,11 @@ def _verbs(f, model, sheet):
         "score": ["score", sheet, f / "cohort.csv", "-o", f"{out}.csv"],
         "check": ["check", sheet, "--model", f / "model.json", "--data", f / "cohort.csv", "-o", f"{out}.pdf"],
         "verify": ["verify", f / "missing.pdf", "--sheet", sheet],
+        "approve": ["approve", sheet, "--key", f / "missing.pem", "--name", "Dr A (invented)", "-o", f"{out}.sheet.json"],
+        "compare": ["compare", sheet, f / "sheet.json", "-o", f"{out}.pdf"],
+        "recalibrate": ["recalibrate", sheet, "--data", f / "cohort.csv", "--outcome", "delirium", "-o", f"{out}.sheet.json"],
+        "exercise": ["exercise", sheet, "-n", "5", "-o", f"{out}.pdf", "--key", f"{out}.csv"],
+        "export": ["export", sheet, "--format", "pmml", "-o", f"{out}.pmml"],
     }
 
 
@@ -60,16 +65,21 @@ HOSTILE_FILES = {
     # 10**400 does not fit a float; a 5,000-digit integer hit Python's integer-string limit
     "huge integer": ('{"intercept": 1' + "0" * 400 + "}", "more than 40 digits"),
     "5000 digits": ('{"a": ' + "7" * 5000 + "}", "more than 40 digits"),
+    # JSON keeps the last of two equal keys without a word: a second "intercept" would change every risk
+    "duplicate key": ('{"intercept": -2, "intercept": 5}', 'the field "intercept" is given twice'),
 }
+EVERY_DOCUMENT_VERB = ["predict", "review", "explain", "quantize", "edit", "render", "score", "check", "verify",
+                       "approve", "compare", "recalibrate", "exercise", "export"]
+MODEL_VERBS = ("predict", "review", "explain", "quantize", "edit")
 
 
 @pytest.mark.parametrize("case", sorted(HOSTILE_FILES))
-@pytest.mark.parametrize("verb", ["predict", "review", "explain", "quantize", "edit", "render", "score", "check", "verify"])
+@pytest.mark.parametrize("verb", EVERY_DOCUMENT_VERB)
 def test_hostile_documents_are_one_line_on_every_verb(files, verb, case):
     text, expected = HOSTILE_FILES[case]
     bad = files / "bad.json"
     bad.write_text(text)
-    model = bad if verb in ("predict", "review", "explain", "quantize", "edit") else files / "model.json"
+    model = bad if verb in MODEL_VERBS else files / "model.json"
     sheet = bad if model != bad else files / "sheet.json"
     one_line_error(run(*_verbs(files, model, sheet)[verb]), expected)
     assert not list(files.glob("out*"))
@@ -154,13 +164,43 @@ def test_a_sheet_number_too_large_for_a_float_is_named(files):
     one_line_error(run("render", files / "bad.sheet.json", "-o", files / "out.pdf"), "the number 1e400 is too large")
 
 
-def test_headers_that_differ_only_by_spaces_are_refused(files):
+def test_a_byte_order_mark_before_the_document_is_read_past(files):
+    # some editors save UTF-8 with a BOM (U+FEFF) first; Python's json refused it with 'decode using utf-8-sig'
+    (files / "bom.model.json").write_bytes(b"\xef\xbb\xbf" + (files / "model.json").read_bytes())
+    result = run("predict", files / "bom.model.json", files / "cohort.csv", "-o", files / "out.csv")
+    assert result.exit_code == 0, result.output
+
+
+def test_a_long_value_is_quoted_short_in_the_error_line(files):
+    doc = sheet_dict()
+    doc["terms"][0]["rows"][0]["text"] = "Z" * 2000
+    (files / "bad.sheet.json").write_text(pretty_text(doc))
+    line = one_line_error(run(*_verbs(files, files / "model.json", files / "bad.sheet.json")["render"]),
+                          "terms[0].rows[0].text: 'ZZZ")
+    assert "(2,002 characters) does not match the range" in line and len(line) < 300
+
+
+DATA_VERBS = {
+    "fit": lambda f, data: ["fit", data, "--outcome", "delirium", "-o", f / "out.model.json", "--repeats", "1"],
+    "predict": lambda f, data: ["predict", f / "model.json", data, "-o", f / "out.csv"],
+    "score": lambda f, data: ["score", f / "sheet.json", data, "-o", f / "out.csv"],
+    "check": lambda f, data: ["check", f / "sheet.json", "--model", f / "model.json", "--data", data, "-o", f / "out.pdf"],
+    "recalibrate": lambda f, data: ["recalibrate", f / "sheet.json", "--data", data, "--outcome", "delirium",
+                                    "-o", f / "out.sheet.json"],
+    "compare": lambda f, data: ["compare", f / "sheet.json", f / "sheet.json", "--data", data, "-o", f / "out.pdf"],
+    "review": lambda f, data: ["review", f / "model.json", "--data", data, "-o", f / "out.pdf"],
+}
+
+
+@pytest.mark.parametrize("verb", sorted(DATA_VERBS))
+def test_headers_that_differ_only_by_spaces_are_refused_by_every_verb(files, verb):
+    # pandas keeps 'age' and 'age ' apart; once names are stripped they were one key (a factorize TypeError)
     frame = pd.read_csv(files / "cohort.csv")
     frame.insert(1, "age ", frame["age"])
     frame.to_csv(files / "twice.csv", index=False)
-    line = one_line_error(run("score", files / "sheet.json", files / "twice.csv", "-o", files / "out.csv"),
+    line = one_line_error(run(*DATA_VERBS[verb](files, files / "twice.csv")),
                           "columns 'age' and 'age ' are the same name once spaces are removed")
-    assert "twice.csv" in line and not (files / "out.csv").exists()
+    assert "twice.csv" in line and not list(files.glob("out*"))
 
 
 def test_check_on_a_single_patient_is_refused_not_passed(files):
@@ -235,3 +275,23 @@ def test_a_number_option_refuses_nan_before_any_work(tmp_path, verb, option):
     assert result.exit_code == 2
     assert result.output.strip().splitlines() == [result.output.strip()] and "not a finite number" in result.output
     assert not (tmp_path / "out.json").exists()
+
+
+def test_fit_refuses_a_measurement_beyond_the_document_limit_before_fitting(files):
+    # one age of 1e308 fitted for the whole run, then the model document refused its training range on writing
+    frame = pd.read_csv(files / "cohort.csv")
+    frame["age"] = frame["age"].astype(float)
+    frame.loc[3, "age"] = 1e308
+    frame.to_csv(files / "huge.csv", index=False)
+    line = one_line_error(run("fit", files / "huge.csv", "--outcome", "delirium", "-o", files / "out.model.json"),
+                          "row 4, column 'age': 1e+308 is beyond ±1e+09 for a measurement")
+    assert "huge.csv" in line and "fitting" not in line and not list(files.glob("out*"))
+
+
+def test_a_cell_of_400_digits_is_quoted_short(files):
+    frame = pd.read_csv(files / "cohort.csv").astype({"age": object})
+    frame.loc[0, "age"] = "9" * 400
+    frame.to_csv(files / "digits.csv", index=False)
+    line = one_line_error(run("score", files / "sheet.json", files / "digits.csv", "-o", files / "out.csv"),
+                          "(402 characters) is not a number")
+    assert len(line) < 300 and not list(files.glob("out*"))

@@ -7,6 +7,7 @@ from __future__ import annotations
 
 import io
 import os
+from pathlib import Path
 
 import pandas as pd
 import pytest
@@ -55,6 +56,35 @@ def test_a_symlink_is_refused_and_its_target_untouched(files, verb):
     (files / "link.out").symlink_to(target)
     one_line_error(run(*_verbs(files, files / "link.out")[verb]), "is a symbolic link")
     assert (files / "link.out").is_symlink() and target.read_text() == "keep me"
+
+
+def _every_writer(f, out):
+    """Every verb that writes a file, its output (or its second output) at `out`, the rest valid."""
+    return {**_verbs(f, out),
+            "approve": ["approve", f / "sheet.json", "--key", f / "missing.pem", "--name", "Dr A (invented)", "-o", out],
+            "check --json": ["check", f / "sheet.json", "--model", f / "model.json", "--data", f / "cohort.csv",
+                             "-o", f / "report.pdf", "--json", out],
+            "compare": ["compare", f / "sheet.json", f / "sheet.json", "-o", out],
+            "exercise --key": ["exercise", f / "sheet.json", "-n", "5", "-o", f / "cards.pdf", "--key", out],
+            "export": ["export", f / "sheet.json", "--format", "pmml", "-o", out],
+            "fit": ["fit", f / "cohort.csv", "--outcome", "delirium", "-o", out],
+            "recalibrate": ["recalibrate", f / "sheet.json", "--data", f / "cohort.csv", "--outcome", "delirium", "-o", out],
+            "edit": ["edit", f / "model.json", "--remove-effect", "age", "-o", out],
+            "review": ["review", f / "model.json", "-o", out]}
+
+
+@pytest.mark.parametrize("verb", sorted(_every_writer(Path("."), "x")))
+def test_every_writer_refuses_a_link_and_a_read_only_file_before_any_work(files, verb):
+    target = files / "target.txt"
+    target.write_text("keep me")
+    (files / "link.out").symlink_to(target)
+    one_line_error(run(*_every_writer(files, files / "link.out")[verb]), "is a symbolic link")
+    locked = files / "locked.out"
+    locked.write_text("old\n")
+    locked.chmod(0o444)
+    one_line_error(run(*_every_writer(files, locked)[verb]), "is read-only; choose another")
+    assert target.read_text() == "keep me" and locked.read_text() == "old\n"
+    assert not {"report.pdf", "cards.pdf"} & {p.name for p in files.iterdir()}
 
 
 def test_a_folder_is_refused(files):

@@ -111,7 +111,7 @@ def _dask_engine(scheduler: str | None, workers: int):
               help="Share of patients each repeat holds out to decide when to stop, from 0 to below 1. 'auto': " + defaults.auto_rule(defaults.held_out_share_for) + ".")
 @click.option("--shrinkage", "shrinkage_text", default="auto", show_default=True, metavar="VALUE|auto",
               help=f"Added to every leaf's sum of hessians: pulls leaves of few patients toward zero (0 or more). 'auto': chosen from "
-                   f"{', '.join(f'{v:g}' for v in defaults.SHRINKAGE_CHOICES)} by held-out deviance under {defaults.CHOOSE_SHRINKAGE_BELOW:,} patients, else {defaults.SHRINKAGE:g}.")
+                   f"{', '.join(f'{v:g}' for v in defaults.SHRINKAGE_CHOICES)} (or a straight line per feature with steps on top, at {defaults.SHRINKAGE:g}) by held-out deviance under {defaults.CHOOSE_SHRINKAGE_BELOW:,} patients, else {defaults.SHRINKAGE:g}.")
 @click.option("--min-leaf", default=defaults.MIN_LEAF_PATIENTS, show_default=True, type=FiniteRange(1), help="Fewest patients in any leaf of any step (raise it for small cohorts).")
 @click.option("--bins", default=defaults.BINS, show_default=True, type=click.IntRange(2, 1024), help="Most bins per continuous feature.")
 @click.option("--name", default=None, help="Model name (default: the data file's name).")

@@ -126,9 +126,9 @@ class TableInMemory:
         return _run(_fit_bag, (function, self, *common), bags, jobs, progress, what)
 
 
-def _stage1_bag(table, n_slots, ordered, settings, rows):
+def _stage1_bag(table, n_slots, ordered, positions, settings, rows):
     """One bag's stage 1: its histogram source and the requests that fit it (`boosting.one_feature_terms`)."""
-    return table.one_feature_source(rows, n_slots), one_feature_terms(n_slots, ordered, settings)
+    return table.one_feature_source(rows, n_slots), one_feature_terms(n_slots, ordered, settings, positions)
 
 
 def _stage2_bag(table, layouts, settings, bag):
@@ -217,6 +217,8 @@ def fit_additive_terms(
     min_gain: float = 0.0,
     shrinkage_choices: tuple = (),
     trial_repeats: int = 8,
+    positions: list | None = None,
+    try_lines: bool = False,
     bag_fraction: float = 1.0,
     progress: Callable[[str], None] | None = None,
     names: list[str] | None = None,
@@ -227,24 +229,29 @@ def fit_additive_terms(
     n_features = len(n_slots)
     seeds = np.random.SeedSequence(seed).spawn(n_bags)
     bag_splits = [bag_rows(y, settings, bag_fraction, s) for s in seeds]
+    # candidates: (straight lines?, shrinkage); the lines, when tried, at the fit's own shrinkage
+    candidates = [(False, float(v)) for v in (shrinkage_choices or (settings.l2,))]
+    if try_lines and positions is not None:
+        candidates.append((True, float(settings.l2)))
     trials = {}
-    n_trial = max(1, min(trial_repeats, n_bags)) if len(shrinkage_choices) > 1 else n_bags
-    for shrinkage in shrinkage_choices or (settings.l2,):
-        trial = replace(settings, l2=float(shrinkage))
-        bags = table.run_bags(_stage1_bag, (n_slots, ordered, trial), bag_splits[:n_trial], progress,
-                              f"one-feature terms (shrinkage {shrinkage:g})" if shrinkage_choices else "one-feature terms")
-        trials[float(shrinkage)] = (_mean_held_loss(bags), bags)
-    # the shrinkage whose repeats have the lowest mean held-out deviance (the smaller one on a tie); its
-    # trial repeats are kept and the rest of its repeats are fitted now
-    chosen_l2 = min(trials, key=lambda value: (trials[value][0], value))
-    settings = replace(settings, l2=chosen_l2)
-    stage1 = trials[chosen_l2][1]
+    n_trial = max(1, min(trial_repeats, n_bags)) if len(candidates) > 1 else n_bags
+    for lines, shrinkage in candidates:
+        trial = replace(settings, l2=shrinkage, linear=lines)
+        what = ("one-feature terms (a line plus steps)" if lines else f"one-feature terms (shrinkage {shrinkage:g})") \
+            if len(candidates) > 1 else "one-feature terms"
+        bags = table.run_bags(_stage1_bag, (n_slots, ordered, positions, trial), bag_splits[:n_trial], progress, what)
+        trials[(lines, shrinkage)] = (_mean_held_loss(bags), bags)
+    # the candidate whose repeats have the lowest mean held-out deviance (on a tie: steps before lines, the
+    # smaller shrinkage); its trial repeats are kept and the rest of its repeats are fitted now
+    chosen_lines, chosen_l2 = min(trials, key=lambda key: (trials[key][0], key))
+    settings = replace(settings, l2=chosen_l2, linear=chosen_lines)
+    stage1 = trials[(chosen_lines, chosen_l2)][1]
     if len(stage1) < n_bags:
-        stage1 = stage1 + table.run_bags(_stage1_bag, (n_slots, ordered, settings), bag_splits[len(stage1):], progress,
-                                         "one-feature terms")
-    if progress and shrinkage_choices:
-        progress(f"shrinkage {chosen_l2:g} chosen by held-out deviance: "
-                 + ", ".join(f"{value:g}: {loss:.5f}" for value, (loss, _) in trials.items()))
+        stage1 = stage1 + table.run_bags(_stage1_bag, (n_slots, ordered, positions, settings), bag_splits[len(stage1):],
+                                         progress, "one-feature terms")
+    if progress and len(candidates) > 1:
+        progress(f"{'a line plus steps' if chosen_lines else f'shrinkage {chosen_l2:g}'} chosen by held-out deviance: "
+                 + ", ".join(f"{'line plus steps' if k[0] else f'{k[1]:g}'}: {loss:.5f}" for k, (loss, _) in trials.items()))
     slot_weight = table.slot_weights(n_slots)
 
     # stage 2: rank pairs on the residuals of the bag-mean one-feature model
@@ -303,7 +310,9 @@ def fit_additive_terms(
     oob_sum, oob_n = table.out_of_bag(bag_models, layouts, [held for _, held in bag_splits])
     report = {
         "shrinkage": chosen_l2,
-        "shrinkage_held_out_log_loss": {f"{value:g}": float(loss) for value, (loss, _) in trials.items()} if shrinkage_choices else None,
+        "shapes": "line plus steps" if chosen_lines else "steps",
+        "shrinkage_held_out_log_loss": {f"{k[1]:g}": float(loss) for k, (loss, _) in trials.items() if not k[0]} if shrinkage_choices else None,
+        "line_plus_steps_held_out_log_loss": next((float(loss) for k, (loss, _) in trials.items() if k[0]), None),
         "rounds_one_feature": [int(b["rounds"]) for b in stage1],
         "rounds_pairs": [int(b["rounds"]) for b in stage2],
         "held_out_log_loss": [float(b["held_loss"]) for b in stage2],

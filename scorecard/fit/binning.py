@@ -190,3 +190,24 @@ def coarse_bins(fine: FeatureBins, counts: np.ndarray, max_bins: int) -> tuple[n
     after = after[after < n - 1]  # cut after fine bin `after` = fine edge index `after`
     mapping = np.searchsorted(after, np.arange(n), side="left")
     return np.append(mapping, -1), fine.edges[after]
+
+
+def bin_positions(bins: FeatureBins, summary: ValueSummary) -> np.ndarray | None:
+    """Each measured bin's weighted mean training value, standardised (weighted mean 0, sd 1 over the
+    patients): the abscissa of a straight-line step (`trees.linear_step`). None for a categorical feature
+    (no order to draw a line along) or one with a single occupied bin."""
+    if bins.kind == "categorical" or len(summary.values) == 0:
+        return None
+    x = summary.values.astype(float)
+    w = summary.weight
+    codes = np.searchsorted(bins.edges, x, side="right")
+    weight = np.bincount(codes, weights=w, minlength=bins.n_bins)
+    total = np.bincount(codes, weights=w * x, minlength=bins.n_bins)
+    mean = np.divide(total, weight, out=np.zeros(bins.n_bins), where=weight > 0)
+    centre = np.sum(w * x) / np.sum(w)
+    sd = np.sqrt(np.sum(w * (x - centre) ** 2) / np.sum(w))
+    if not sd > 0:
+        return None
+    # an empty bin has no patients, so its position (0) moves no loss; it only gets the line's value at 0
+    position = (mean - centre) / sd
+    return np.where(weight > 0, position, 0.0)

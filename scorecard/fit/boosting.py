@@ -26,7 +26,7 @@ from typing import Callable, Generator, Protocol
 
 import numpy as np
 
-from scorecard.fit.trees import quadrant_step, step_tree
+from scorecard.fit.trees import linear_step, quadrant_step, step_tree
 
 
 @dataclass(frozen=True)
@@ -41,6 +41,8 @@ class BoostSettings:
     l2: float  # the shrinkage
     min_leaf: float
     held_out_share: float
+    linear: bool = False  # stage 1 first grows straight lines in each ordered feature's bin position
+    # (`linear_step`) to its best round, then steps on top of them to theirs
 
 
 def split_rows(y: np.ndarray, fraction: float, rng: np.random.Generator) -> tuple[np.ndarray, np.ndarray]:
@@ -232,8 +234,10 @@ def answer_with(source: HistogramSource, requests: Requests):
 
 
 @np.errstate(divide="ignore", invalid="ignore")
-def boost_terms(step: StepRule, columns: list[int], n_slots: list[int], offset: float, settings: BoostSettings) -> Requests:
-    """The cyclic boosting loop: every round, each of `columns` in turn gets one step fitted to its histogram.
+def boost_terms(step: StepRule, columns: list[int], n_slots: list[int], offset: float, settings: BoostSettings,
+                initial: list[np.ndarray] | None = None) -> Requests:
+    """The cyclic boosting loop: every round, each of `columns` in turn gets one step fitted to its histogram,
+    starting from the terms `initial` (None: zeros).
 
     Returns (terms: one array per column of the source, one value per slot; rounds; held-out loss) of the
     best round."""
@@ -241,6 +245,10 @@ def boost_terms(step: StepRule, columns: list[int], n_slots: list[int], offset: 
     yield ("start", offset)
     weights, events = yield ("fixed_histograms",)
     terms = [np.zeros(n) for n in n_slots]
+    for j, values in enumerate(initial or ()):
+        if np.any(values != 0):
+            terms[j] = values.copy()
+            yield ("move", j, terms[j])
     has_held = yield ("has_held",)
     stopper = _BestRound(has_held, (yield ("held_loss",)) if has_held else np.inf, terms, s)
     rounds = 0
@@ -261,9 +269,13 @@ def boost_terms(step: StepRule, columns: list[int], n_slots: list[int], offset: 
     return best, best_rounds, held_loss
 
 
-def one_feature_terms(n_slots: list[int], ordered: list[bool], settings: BoostSettings) -> Requests:
+def one_feature_terms(n_slots: list[int], ordered: list[bool], settings: BoostSettings, positions=None) -> Requests:
     """Stage 1 on one bag's source (columns = features' bins): {"intercept", "shapes" (one array per feature,
-    one value per slot), "rounds", "held_loss"}. Without held-out rows, all `max_rounds` rounds are run."""
+    one value per slot), "rounds", "held_loss"}. Without held-out rows, all `max_rounds` rounds are run.
+    With `settings.linear`, a first pass grows every ordered feature as a straight line in `positions[j]`
+    (its measured bins' standardised mean values; categorical features take tree steps) until the held-out
+    loss stops falling, and a second pass of tree steps continues from its best round: a line plus the shape
+    the held-out rows still support. "rounds" counts both passes."""
     s = settings
     weight, events = yield ("totals",)
     intercept = logodds_of_rate(events, weight)
@@ -273,7 +285,16 @@ def one_feature_terms(n_slots: list[int], ordered: list[bool], settings: BoostSe
     def step(j, G, H, C):
         return step_tree(G, H, C, ordered[j], s.leaves, s.l2, s.min_leaf)
 
-    shapes, rounds, held_loss = yield from boost_terms(step, active, n_slots, intercept, s)
+    def line(j, G, H, C):
+        if positions[j] is not None:
+            return linear_step(G, H, positions[j], s.l2)
+        return step(j, G, H, C)
+
+    lines, line_rounds = None, 0
+    if s.linear and positions is not None:
+        lines, line_rounds, _ = yield from boost_terms(line, active, n_slots, intercept, s)
+    shapes, rounds, held_loss = yield from boost_terms(step, active, n_slots, intercept, s, lines)
+    rounds += line_rounds
     return {"intercept": intercept, "shapes": shapes, "rounds": rounds, "held_loss": held_loss}
 
 

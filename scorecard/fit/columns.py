@@ -8,7 +8,8 @@ import numpy as np
 import pandas as pd
 
 from scorecard.errors import UserError
-from scorecard.tabular import FLAG_FALSE, FLAG_TRUE, flag_column, is_missing_text, numeric_column
+from scorecard.model.document import MAX_MEASUREMENT
+from scorecard.tabular import FLAG_FALSE, FLAG_TRUE, data_row, flag_column, is_missing_text, numeric_column, source_of
 
 MIN_EVENTS = 10  # below this no shape can be told from noise (common practice: >= 10 events per variable is already generous)
 
@@ -56,7 +57,14 @@ def feature_column(frame: pd.DataFrame, name: str, categorical: bool) -> tuple[n
         levels = text.to_numpy(dtype=object)
         levels[missing] = None
         return levels, "categorical"
-    return numeric_column(frame, name), "numeric"
+    values = numeric_column(frame, name)
+    # the model document refuses a training range beyond MAX_MEASUREMENT; say so now, not after the whole fit
+    beyond = np.abs(np.nan_to_num(values)) > MAX_MEASUREMENT
+    if beyond.any():
+        row = int(np.flatnonzero(beyond)[0])
+        raise UserError(f"{source_of(frame)}: row {data_row(frame, row)}, column {name!r}: {values[row]:g} is beyond "
+                        f"±{MAX_MEASUREMENT:g} for a measurement; check the units, or leave the cell empty if not measured")
+    return values, "numeric"
 
 
 def uninformative_reason(values: np.ndarray) -> str | None:

@@ -25,6 +25,12 @@ SHRINKAGE = 10.0
 # costs a fit per value, so SHRINKAGE is used.
 SHRINKAGE_CHOICES = (3.0, 10.0, 30.0, 100.0)
 CHOOSE_SHRINKAGE_BELOW = 5_000
+# Below CHOOSE_SHRINKAGE_BELOW one more candidate competes on the same held-out deviance: every ordered
+# feature first grown as a straight line in its bin's mean value, then steps on top from the line's best
+# round (at SHRINKAGE). In the study none of the step settings (shrinkage up to 1,000, a leaf minimum of 40,
+# patience 15) brought the 300-patient demo within 0.03 AUC of logistic regression, and the line did: with
+# few events per feature a straight line is the better bet, and the steps on top keep what the held-out
+# rows still support. The data decides, so cohorts whose shapes are not lines keep their steps.
 # Each choice is tried on the first 8 repeats (their mean held-out deviance decides); the chosen one's
 # other repeats are then fitted: trying every choice on all repeats cost twice the time for the same choice.
 SHRINKAGE_TRIAL_REPEATS = 8

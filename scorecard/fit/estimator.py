@@ -18,7 +18,7 @@ from sklearn.utils.validation import check_is_fitted, column_or_1d, validate_dat
 
 from scorecard.fit import defaults
 from scorecard.fit.bagging import TableInMemory, fit_additive_terms, logodds_of, pair_code
-from scorecard.fit.binning import UNSEEN, ValueSummary, categorical_bins, coarse_bins, numeric_bins
+from scorecard.fit.binning import UNSEEN, ValueSummary, bin_positions, categorical_bins, coarse_bins, numeric_bins
 from scorecard.fit.boosting import BoostSettings
 
 
@@ -222,6 +222,8 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
             coarse_maps=self.pair_maps_,
             settings=self._settings(resolved),
             shrinkage_choices=defaults.SHRINKAGE_CHOICES if resolved["shrinkage"] == "auto" else (),
+            positions=[bin_positions(b, summary) for b, summary in zip(self.bins_, summaries)],
+            try_lines=resolved["shrinkage"] == "auto",
             trial_repeats=defaults.SHRINKAGE_TRIAL_REPEATS,
             n_bags=resolved["repeats"],
             seed=int(self.random_state or 0),
@@ -245,6 +247,7 @@ class AdditiveRiskClassifier(ClassifierMixin, BaseEstimator):
                               for s in terms.ranking]
         self.fit_report_ = {k: v for k, v in terms.report.items() if not k.startswith("oob")}
         resolved["shrinkage"] = terms.report["shrinkage"]
+        resolved["shapes"] = terms.report["shapes"]
         self.settings_used_ = resolved
         self.fit_report_["rows"] = int(len(target))
         self.fit_report_["events"] = float(np.sum(w * target))

@@ -137,7 +137,7 @@ def model_document(
         "validation": {
             k: _finite_or_none(est.fit_report_[k])
             for k in ("out_of_bag_auc", "out_of_bag_log_loss", "out_of_bag_rows", "held_out_log_loss", "rounds_one_feature",
-                      "rounds_pairs", "shrinkage_held_out_log_loss")
+                      "rounds_pairs", "shrinkage_held_out_log_loss", "line_plus_steps_held_out_log_loss")
             if k in est.fit_report_
         },
         "pair_ranking": [

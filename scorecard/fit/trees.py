@@ -151,3 +151,17 @@ def quadrant_step(G2, H2, C2, l2, min_leaf) -> np.ndarray | None:
     g = np.bincount(quadrant.ravel(), weights=G2.ravel(), minlength=4)
     h = np.bincount(quadrant.ravel(), weights=H2.ravel(), minlength=4)
     return (-g / (h + l2))[quadrant]
+
+
+def linear_step(G: np.ndarray, H: np.ndarray, position: np.ndarray, l2: float):
+    """The Newton step of a straight line a + b * position over the measured bins (slots 0..n-2), the
+    not-measured slot n-1 getting its own value -G/(H + l2); `position` is each bin's standardised mean
+    value. The line minimises the second-order loss sum G v + H v^2 / 2 + l2 (a^2 + b^2) / 2 (a 2x2 solve
+    from the histogram), so a fit of such steps moves toward a ridge logistic regression on the feature."""
+    g, h, x = G[:-1], H[:-1], position
+    A = np.array([[h.sum() + l2, (h * x).sum()], [(h * x).sum(), (h * x * x).sum() + l2]])
+    b = -np.array([g.sum(), (g * x).sum()])
+    if not np.linalg.det(A) > 1e-12:
+        return None
+    a, slope = np.linalg.solve(A, b)
+    return np.append(a + slope * x, -G[-1] / (H[-1] + l2) if H[-1] > 0 else 0.0)

@@ -16,7 +16,7 @@ from typing import Any
 
 import jsonschema
 
-from scorecard.errors import UserError
+from scorecard.errors import UserError, shown
 from scorecard.jsondoc import first_unprintable, schema_error_line, schema_validator, atomic_write_text, fingerprint, normalise, pretty_text, read_json_file
 from scorecard.sheet.printed import is_on_grid, range_text, risk_text, units
 
@@ -95,7 +95,7 @@ def _check_continuous_rows(rows: list[dict], decimals: int, where: str) -> str |
             return f"{where}[{i}]: upper {r['upper']} must be above lower {r['lower']}"
         want = range_text(r["lower"], r["upper"], decimals)
         if r["text"] != want:
-            return f"{where}[{i}].text: {r['text']!r} does not match the range; it must print {want!r}"
+            return f"{where}[{i}].text: {shown(r['text'], quote=repr)} does not match the range; it must print {want!r}"
     return None
 
 

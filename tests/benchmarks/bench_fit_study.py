@@ -143,7 +143,8 @@ def study(name: str, X: pd.DataFrame, y: np.ndarray, cv_repeats: int, settings: 
             if key in losses:
                 losses[key].append(log_loss(yb, np.clip(p, 1e-12, 1 - 1e-12), labels=[0, 1]))
             if key == "ours":
-                chosen.append(model.settings_used_["shrinkage"])
+                used = model.settings_used_
+                chosen.append("line+steps" if used.get("shapes") == "line plus steps" else used["shrinkage"])
     auc = {k: float(np.mean(v)) for k, v in scores.items()}
     better = "lr" if auc["lr"] >= auc["hgb"] else "hgb"
     diff = np.array(scores["ours"]) - np.array(scores[better])
@@ -183,7 +184,7 @@ def main() -> None:
     settings = {k: _value(v) for k, v in (s.split("=", 1) for s in args.setting)}
     print(f"settings: {settings or 'the defaults'}; 5-fold CV x {args.cv_repeats} (x {args.large_cv_repeats} from 20,000 demo "
           f"patients{f', first {args.large_max_folds} folds' if args.large_max_folds else ''})")
-    print("| data | n | events | ours | LR | HGB | ours - LR | ours - better | SE | log-loss ours - LR | our fit | shrinkage chosen |")
+    print("| data | n | events | ours | LR | HGB | ours - LR | ours - better | SE | log-loss ours - LR | our fit | shapes chosen |")
     print("| --- | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | ---: | --- |")
     rows = []
     for name in args.datasets.split(","):

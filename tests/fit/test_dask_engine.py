@@ -21,7 +21,8 @@ from scorecard.demo import FEATURES, OUTCOME, cohort_csv_text, generate_cohort
 from scorecard.fit import AdditiveRiskClassifier
 from scorecard.fit.binning import ValueSummary
 
-SMALL = dict(repeats=2, n_jobs=1, pairs=1, max_rounds=60, random_state=4, shrinkage=10.0)  # pairs=1: stage 2 runs on the cluster too
+SMALL = dict(repeats=2, n_jobs=1, pairs=1, max_rounds=60, random_state=4)  # pairs=1: stage 2 runs on the cluster too; shrinkage auto: the
+# choice (steps at each shrinkage, a line plus steps) runs on the cluster too
 
 
 def _close(a, b, path="model"):

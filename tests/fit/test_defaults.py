@@ -10,6 +10,7 @@ from click.testing import CliRunner
 from scorecard.cli import main
 from scorecard.fit import AdditiveRiskClassifier, defaults
 from scorecard.fit.pairs import PairScore, choose_pairs, rank_pairs
+from scorecard.fit.trees import linear_step
 
 
 def test_estimator_defaults_are_the_chosen_ones():
@@ -81,12 +82,45 @@ def test_small_cohort_chooses_its_shrinkage_by_held_out_deviance():
     est = AdditiveRiskClassifier(repeats=2, n_jobs=1, max_rounds=60, learning_rate=0.1, pairs=0).fit(X, y)
     losses = est.fit_report_["shrinkage_held_out_log_loss"]
     assert set(losses) == {f"{v:g}" for v in defaults.SHRINKAGE_CHOICES}
-    assert est.settings_used_["shrinkage"] == float(min(losses, key=lambda k: (losses[k], float(k))))
+    lines = est.fit_report_["line_plus_steps_held_out_log_loss"]
+    best_steps = min(losses, key=lambda k: (losses[k], float(k)))
+    if lines < losses[best_steps]:
+        assert est.settings_used_["shapes"] == "line plus steps"
+    else:
+        assert est.settings_used_ == {**est.settings_used_, "shapes": "steps", "shrinkage": float(best_steps)}
     record = est.to_model().provenance
     assert record["settings_used"]["shrinkage"] == est.settings_used_["shrinkage"]
     assert record["settings"]["shrinkage"] == "auto"
     fixed = AdditiveRiskClassifier(repeats=2, n_jobs=1, max_rounds=60, learning_rate=0.1, pairs=0, shrinkage=3.0).fit(X, y)
     assert fixed.settings_used_["shrinkage"] == 3.0 and fixed.fit_report_["shrinkage_held_out_log_loss"] is None
+    assert fixed.settings_used_["shapes"] == "steps" and fixed.fit_report_["line_plus_steps_held_out_log_loss"] is None
+
+
+@pytest.mark.parametrize("truth, chosen", [("line", "line plus steps"), ("threshold", "steps")])
+def test_small_cohort_chooses_lines_or_steps_by_held_out_deviance(truth, chosen):
+    # simulated truth (ours): 400 patients, 8 features, a log-odds straight in each, or a jump of 2 at 0.5
+    # in each; the held-out deviance must pick the family the truth belongs to
+    rng = np.random.default_rng(7)
+    X = pd.DataFrame(rng.normal(size=(400, 8)), columns=[f"x{j}" for j in range(8)])
+    logodds = (0.5 * X if truth == "line" else np.where(X > 0.5, 1.0, -1.0)).sum(axis=1)
+    y = (rng.random(400) < 1 / (1 + np.exp(-logodds))).astype(int)
+    est = AdditiveRiskClassifier(repeats=2, n_jobs=1, max_rounds=300, learning_rate=0.1, pairs=0).fit(X, y)
+    assert est.settings_used_["shapes"] == chosen
+    assert est.to_model().provenance["settings_used"]["shapes"] == chosen
+
+
+def test_straight_line_step_is_the_weighted_least_squares_newton_step():
+    # reference: numpy's least squares on the working response -G/H with weights H (the Newton step of a
+    # line, common practice), ridge rows sqrt(l2) on both coefficients
+    rng = np.random.default_rng(3)
+    G, H, x = rng.normal(size=9), rng.uniform(0.5, 2.0, size=9), rng.normal(size=8)
+    l2 = 0.7
+    design = np.vstack([np.column_stack([np.ones(8), x]) * np.sqrt(H[:-1])[:, None], np.sqrt(l2) * np.eye(2)])
+    target = np.concatenate([-G[:-1] / np.sqrt(H[:-1]), [0.0, 0.0]])
+    a, b = np.linalg.lstsq(design, target, rcond=None)[0]
+    values = linear_step(G, H, x, l2)
+    np.testing.assert_allclose(values[:-1], a + b * x, rtol=1e-9)
+    assert values[-1] == pytest.approx(-G[-1] / (H[-1] + l2))
 
 
 @pytest.mark.parametrize("old, new", [("--bags", "--repeats"), ("--max-bins", "--bins"),

@@ -542,3 +542,35 @@ def test_a_long_conversion_table_splits_over_large_print_pages():
         text = " ".join((page.extract_text() or "") for page in doc.pages)
     totals = {int(t.replace("\u2212", "-")) for t in re.findall(r"([\u2212-]?\d+) [<>]?[\d.]+%", text)}
     assert {c["total"] for c in sheet["conversion"]} <= totals
+
+
+LONG_TEXTS = {  # where a careless user can put 2,000 characters without a space, and the field the error names
+    "label": (lambda s: s["terms"][0].update(label="X" * 2000), "terms[0].label"),
+    "level row": (lambda s: next(r for t in s["terms"] if t["kind"] == "categorical" for r in t["rows"]
+                                 if r.get("levels")).update(text="W" * 2000), ".rows[0].text"),
+    "title": (lambda s: s.update(title="Y" * 2000), "title"),
+}
+
+
+@pytest.mark.parametrize("layout", sorted(shipped_layouts()))
+@pytest.mark.parametrize("case", sorted(LONG_TEXTS))
+def test_a_long_unbreakable_text_is_one_line_in_every_shipped_layout(tmp_path, layout, case):
+    # issue 14: each layout once ended in reportlab's LayoutError; now exit 2, one line, no PDF. The pocket card
+    # has a one-page front: a long title there pushes tables off it, and the line names those (see _check_limits)
+    from tests.audit.handmade import sheet_dict
+    from tests.render.sheets import finish
+    sheet = sheet_dict()
+    change, field = LONG_TEXTS[case]
+    change(sheet)
+    finish(sheet)
+    source = tmp_path / "long.sheet.json"
+    save_sheet(sheet, source)
+    out = tmp_path / "long.pdf"
+    result = CliRunner().invoke(main, ["render", str(source), "--layout", layout, "-o", str(out)])
+    assert result.exit_code == 2, result.output
+    message = result.output.strip()
+    assert "\n" not in message and not out.exists(), message
+    if layout == "pocket-card" and case == "title":
+        assert "do not fit on it" in message
+    else:
+        assert field in message and "2,000 characters do not fit layout" in message and "at most" in message
