@@ -132,7 +132,10 @@ def pair_block(term: dict, styles: Styles, signed: bool, width: float) -> Flowab
     # the write-in box sits over the last one or two cells; the heading spans the others
     box = WriteInBox(box_w, _box_height(styles))
     title = Paragraph(markup(f"{term_heading(term)}: both together"), styles.heading)
-    heading = [title, box] if n_cols == 1 else [title] + [""] * (n_cols - 2) + [box, ""]
+    # the box sits over the last cell when it is wide enough, else over the last two; the heading spans the
+    # rest (a heading squeezed into the row-label column alone wrapped to six lines in a narrow column)
+    box_span = 1 if n_cols == 1 or cell_w >= points_w else 2
+    heading = [title] + [""] * (n_cols - box_span) + [box] + [""] * (box_span - 1)
     # the second feature's name spans its columns, the first feature's name heads the row labels
     over = [""] + [Paragraph(markup(axis_title(label1, axis1)), styles.body_center)] + [""] * (n_cols - 1)
     header = [Paragraph(markup(axis_title(label0, axis0)), styles.body)] + [
@@ -151,7 +154,7 @@ def pair_block(term: dict, styles: Styles, signed: bool, width: float) -> Flowab
         ("VALIGN", (0, 0), (-1, -1), "MIDDLE"),
         ("LEFTPADDING", (0, 0), (-1, -1), PAD), ("RIGHTPADDING", (0, 0), (-1, -1), PAD),
         ("TOPPADDING", (0, 0), (-1, -1), 0.6), ("BOTTOMPADDING", (0, 0), (-1, -1), 1.2),
-        ("BACKGROUND", (0, 0), (-3 if n_cols > 1 else 0, 0), TINT),
+        ("BACKGROUND", (0, 0), (-1 - box_span, 0), TINT),
         ("LINEBELOW", (0, 0), (-1, 0), 0.8, colors.black),
         ("SPAN", (1, 1), (-1, 1)),
         ("ALIGN", (-1, 0), (-1, 0), "RIGHT"),
@@ -161,8 +164,10 @@ def pair_block(term: dict, styles: Styles, signed: bool, width: float) -> Flowab
         ("SPAN", (0, last), (-1, last)),
         ("BOX", (0, 0), (-1, -1), 0.8, colors.black),
     ]
-    if n_cols > 1:
-        commands += [("SPAN", (0, 0), (-3, 0)), ("SPAN", (-2, 0), (-1, 0)), ("ALIGN", (-2, 0), (-1, 0), "RIGHT")]
+    if n_cols > box_span:
+        commands.append(("SPAN", (0, 0), (-1 - box_span, 0)))
+    if box_span == 2:
+        commands += [("SPAN", (-2, 0), (-1, 0)), ("ALIGN", (-2, 0), (-1, 0), "RIGHT")]
     table.setStyle(TableStyle(commands))
     return Tracked([table, Spacer(1, styles.body_pt * 0.6)], what=term_heading(term))
 
@@ -197,13 +202,22 @@ def record_block(sheet: dict, styles: Styles, width: float) -> Flowable:
     line_h = styles.body_pt * 2.1
     rows = [[Paragraph(markup(f), styles.body), ""] for f in RECORD_FIELDS]
     bands = [b["name"] for b in sheet.get("bands") or []]
+    spans = [("SPAN", (0, 0), (-1, 0))]
+    heights = [line_h] * len(rows)
     if bands:
-        rows.append([Paragraph("Band (ring one)", styles.body), Paragraph(markup("   /   ".join(bands)), styles.body)])
+        choices = "   /   ".join(bands)
+        if text_width(choices, styles.body_pt) + 2 * PAD + 1 <= width - label_w:
+            rows.append([Paragraph("Band (ring one)", styles.body), Paragraph(markup(choices), styles.body)])
+            heights.append(line_h)
+        else:  # a narrow column: the band names go on a line of their own under the label, not into the rule
+            rows.append([Paragraph("Band (ring one)<br/>" + markup(choices), styles.body), ""])
+            spans.append(("SPAN", (0, len(rows)), (-1, len(rows))))
+            heights.append(line_h + styles.body.leading)
     rows += [[Paragraph("Action taken", styles.body), ""], ["", ""]]
+    heights += [line_h, line_h]
     title = [[Paragraph("<b>RECORD OF THIS SCORING</b> (keep with the patient's notes)", styles.heading), ""]]
-    table = Table(title + rows, colWidths=[label_w, width - label_w], rowHeights=[None] + [line_h] * len(rows), hAlign="LEFT")
-    table.setStyle(TableStyle([
-        ("SPAN", (0, 0), (-1, 0)),
+    table = Table(title + rows, colWidths=[label_w, width - label_w], rowHeights=[None] + heights, hAlign="LEFT")
+    table.setStyle(TableStyle(spans + [
         ("VALIGN", (0, 0), (-1, -1), "BOTTOM"),
         ("LEFTPADDING", (0, 0), (-1, -1), PAD), ("RIGHTPADDING", (0, 0), (-1, -1), PAD),
         ("BACKGROUND", (0, 0), (-1, 0), TINT),
