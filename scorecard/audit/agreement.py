@@ -142,9 +142,8 @@ def _against_outcomes(y: np.ndarray, model_lo: np.ndarray, model_risk: np.ndarra
             calibration = (None, None) if one_class else statistics.logistic_calibration(model_lo, yk)  # one patient per x
         else:
             risk = sheet_risk
-            low = int(total.min())
-            gs = (total - low).astype(np.int16 if int(total.max()) - low < 2**15 else np.int32, copy=False)
-            auc = None if one_class else statistics.auc_from_group_sums(*statistics.group_sums(gs, int(gs.max()) + 1, yk))
+            gs, ngs, _ = statistics.total_groups(total)
+            auc = None if one_class else statistics.auc_from_group_sums(*statistics.group_sums(gs, ngs, yk))
             del gs
             totals, s, m = statistics.grouped(total, yk)
             calibration = (None, None) if one_class else statistics.logistic_calibration(sheet_logodds(sheet, totals), s, m)
@@ -203,9 +202,7 @@ def agreement_report(state: CheckState, replicates: int, seed: int, model_matche
     # memory: the per-patient arrays are made when first needed and dropped when last used; every full-cohort
     # sum runs a block at a time (`statistics.blocks`), so the working memory is a few arrays of the cohort
     ids = statistics.run_ids(model_lo)
-    low_total = int(total.min())
-    ngs = int(total.max()) - low_total + 1
-    gs = (total - low_total).astype(np.int16 if ngs <= 2**15 else np.int32, copy=False)  # tie group of the sheet's total
+    gs, ngs, low_total = statistics.total_groups(total)  # tie group of the sheet's total
     auc_model = statistics.sorted_auc(ids, model_risk)
     auc_sheet = statistics.auc_from_group_sums(*statistics.group_sums(gs, ngs, model_risk))
     if state.n >= PROGRESS_EVERY:

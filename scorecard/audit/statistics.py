@@ -89,6 +89,14 @@ def blocks(n: int):
     return [slice(start, start + BLOCK) for start in range(0, n, BLOCK)]
 
 
+def total_groups(total: np.ndarray) -> tuple[np.ndarray, int, int]:
+    """Tie group of each integer sheet total (total - lowest, int16 when it fits: a group per patient of tens of
+    millions), the number of groups and the lowest total."""
+    low = int(total.min())
+    n_groups = int(total.max()) - low + 1
+    return (total - low).astype(np.int16 if n_groups <= 2**15 else np.int32, copy=False), n_groups, low
+
+
 def group_sums(groups: np.ndarray, n_groups: int, w_pos: np.ndarray, w_neg: np.ndarray | None = None) -> tuple[np.ndarray, np.ndarray]:
     """Positive and negative weight per group (`np.bincount`), a block at a time; w_neg defaults to 1 - w_pos."""
     pos, neg = np.zeros(n_groups), np.zeros(n_groups)
