@@ -168,3 +168,39 @@ def _words_in_order(wanted: list[str], words: list[str], max_gap: int) -> bool:
         if ok:
             return True
     return False
+
+
+@pytest.mark.parametrize("layout", ["ward-a4", "ward-letter", "large-print-a4"])
+def test_the_conversion_runs_over_pages_one_part_a_page_and_how_to_score_fills_the_tables_last_page(demo, tmp_path, layout):
+    """Widow and orphan control (common practice in typesetting) on the demo sheet's long conversion table: one
+    part on each page, none of them a few stray totals; and on the ward sheets how to score follows the record on
+    the page the tables end on (alone on a page of its own it left that page and the one before half empty)."""
+    import re
+
+    from scorecard.render.conversion import MIN_PART_ROWS
+
+    out, _ = demo
+    pdf = tmp_path / f"{layout}.pdf"
+    result = CliRunner().invoke(main, ["render", str(out / "sheet.json"), "--layout", layout, "-o", str(pdf)])
+    assert result.exit_code == 0, result.output
+    row = re.compile(r"(?<!\S)\d+ [<>]?\d+(?:\.\d+)?%")
+    parts = []
+    for text in _page_texts(pdf):
+        lines = text.splitlines()
+        heads = [i for i, line in enumerate(lines) if line.startswith("Total Risk")]
+        assert len(heads) <= 1, (layout, lines)
+        if heads:
+            rows = 0
+            for line in lines[heads[0] + 1:]:
+                if not row.findall(line):
+                    break
+                rows += len(row.findall(line))
+            parts.append(rows)
+    conversion = load_sheet(out / "sheet.json")["conversion"]
+    assert sum(parts) == len(conversion), parts
+    assert len(parts) == 1 or min(parts) >= MIN_PART_ROWS, parts
+    if layout.startswith("ward"):
+        pages = [" ".join(t.split()) for t in _page_texts(pdf)]
+        record = [i for i, t in enumerate(pages) if "RECORD OF THIS SCORING" in t]
+        how = [i for i, t in enumerate(pages) if "How to score" in t]
+        assert record == how, (record, how)

@@ -20,6 +20,10 @@ BAND_TINTS = [colors.white, colors.Color(0.9, 0.9, 0.9), colors.Color(0.8, 0.8, 
 PAD = 2.0
 FIGURE_GAP = 2.0  # extra space before each right-aligned figure, so "37 99.6%" never runs together
 BAND_GAP = 8.0
+# a split conversion table starts a part only where at least this many rows per group fit: a sliver of a few
+# totals at the foot of a page costs the reader a page turn for nearly every patient (measured: the large-print
+# demo sheet put totals 0-2 alone under the total box, and took a page more)
+MIN_PART_ROWS = 8
 
 
 def band_tint(index: int, n_bands: int) -> colors.Color:
@@ -59,12 +63,15 @@ class ConversionTable(Flowable):
         self._groups = 1
 
     def _column_widths(self) -> list[float]:
-        s = self.styles.body_pt
-        total_w = max(text_width("Total", s, bold=True), max(text_width(total_text(r["total"]), s, bold=True) for r in self.rows)) + 2 * PAD + 2
-        risk_w = max(text_width("Risk", s, bold=True), max(text_width(r["text"], s) for r in self.rows)) + 2 * PAD + 2 + FIGURE_GAP
+        # widths from every total of the sheet, not this part's: each part of a split table has the columns
+        # and side-by-side groups of the whole (a part of narrow figures would take more groups than the
+        # rest, and the rest could then split again into the room left under it)
+        s, every = self.styles.body_pt, self.sheet["conversion"]
+        total_w = max(text_width("Total", s, bold=True), max(text_width(total_text(r["total"]), s, bold=True) for r in every)) + 2 * PAD + 2
+        risk_w = max(text_width("Risk", s, bold=True), max(text_width(r["text"], s) for r in every)) + 2 * PAD + 2 + FIGURE_GAP
         widths = [total_w, risk_w]
         if self.spread:
-            widths.append(max(text_width("Range", s, bold=True), max(text_width(spread_text(r), s) for r in self.rows)) + 2 * PAD + 2 + FIGURE_GAP)
+            widths.append(max(text_width("Range", s, bold=True), max(text_width(spread_text(r), s) for r in every)) + 2 * PAD + 2 + FIGURE_GAP)
         if self.band_names:
             widths.append(max(text_width("Band", s, bold=True), max(text_width(n, s) for n in self.band_names)) + PAD + BAND_GAP + 2)
         return widths
@@ -140,22 +147,82 @@ class ConversionTable(Flowable):
         row_h = max(table._rowHeights[1:] or [self.styles.body_pt * 1.5])
         header_h = table._rowHeights[0]
         per = int((avail_height - header_h - 2) // row_h)
-        if per < 3:
+        if per < MIN_PART_ROWS:
             return []  # too little room here: start on the next frame
         if per * self._groups >= len(self.rows):
             return [self]
-        # the first part lays out its own rows (its columns may be narrower, its figures may wrap): shrink it
-        # until it really fits, or reportlab would have to split it again and fail
-        for rows_each in range(per, 2, -1):
-            first = rows_each * self._groups
+        # the first part lays out its own rows: its columns may be narrower or wider than the whole table's, so
+        # its number of side-by-side groups and its row heights may differ. Take the most rows that really fit
+        # (fewer would leave room under it that the rest then splits into again: two tables on one page).
+        def head_of(first: int) -> "ConversionTable | None":
             head = ConversionTable(self.sheet, self.styles, self.rows[:first], self.bands[:first], self.continued, self.spread)
-            if head.wrap(avail_width, avail_height)[1] <= avail_height:
-                return [head, ConversionTable(self.sheet, self.styles, self.rows[first:], self.bands[first:],
-                                              continued=True, spread=self.spread)]
-        return []  # too little room here: start on the next frame
+            return head if head.wrap(avail_width, avail_height)[1] <= avail_height else None
+
+        # fewer rows here: start on the next frame; and leave at least MIN_PART_ROWS for the rest, so that the
+        # last totals are not a stray line or two overleaf that a reader may not look for
+        low, high = MIN_PART_ROWS * self._groups, len(self.rows) - MIN_PART_ROWS
+        if low > high:
+            return []
+        best = head_of(low)
+        if best is None:
+            return []
+        while low < high:  # the largest head that fits (its height grows with its rows, nearly always)
+            middle = (low + high + 1) // 2
+            head = head_of(middle)
+            if head is None:
+                high = middle - 1
+            else:
+                low, best = middle, head
+        first = low
+        rest = ConversionTable(self.sheet, self.styles, self.rows[first:], self.bands[first:], continued=True,
+                               spread=self.spread)
+        for part in (best, rest):
+            part.tracked_as = getattr(self, "tracked_as", None)
+        return [best, rest]
 
     def draw(self):
         self._table.drawOn(self.canv, 0, 0)
+
+
+class LeadAndFirstRows(Flowable):
+    """Blocks that lead into the conversion table (its heading; the total box, where the total is read off right
+    after it) kept on the frame where the table starts, with at least its first rows. A KeepTogether of them
+    with the table would move the lot to the next frame whenever the table is taller than the room left, and
+    leave that room empty (a page holding only "How to score", measured on the demo sheet); this splits the
+    table instead, so the lead moves on only when not even the table's first rows fit under it."""
+
+    def __init__(self, lead: list[Flowable], table: ConversionTable):
+        super().__init__()
+        self.lead, self.table = lead, table
+        self.tracked_many = tuple(dict.fromkeys(w for w in [getattr(f, "tracked_as", None) for f in lead]
+                                                + [getattr(table, "tracked_as", None)] if w))
+
+    def _lead_heights(self, avail_width, avail_height) -> list[float]:
+        return [f.wrap(avail_width, avail_height)[1] for f in self.lead]
+
+    def wrap(self, avail_width, avail_height):
+        self._heights = self._lead_heights(avail_width, avail_height)
+        lead_h = sum(self._heights)
+        table_w, table_h = self.table.wrap(avail_width, max(0.0, avail_height - lead_h))
+        self.width = max([table_w] + [f.width for f in self.lead if hasattr(f, "width")])
+        self.height = lead_h + table_h
+        return self.width, self.height
+
+    def split(self, avail_width, avail_height):
+        lead_h = sum(self._lead_heights(avail_width, avail_height))
+        if lead_h >= avail_height:
+            return []
+        parts = self.table.split(avail_width, avail_height - lead_h)
+        if len(parts) < 2:
+            return []  # not even the first rows fit under the lead here: all of it starts on the next frame
+        return [LeadAndFirstRows(self.lead, parts[0])] + parts[1:]
+
+    def draw(self):
+        y = self.height
+        for flowable, height in zip(self.lead, self._heights):
+            y -= height
+            flowable.drawOn(self.canv, 0, y)
+        self.table.drawOn(self.canv, 0, 0)
 
 
 SPREAD_NOTE = ("<b>Range:</b> patients with the same total differ: 8 in 10 of those with this total had an exact-model "
@@ -163,12 +230,15 @@ SPREAD_NOTE = ("<b>Range:</b> patients with the same total differ: 8 in 10 of th
                "\u2013 where fewer than 10 had the total. Act on the risk; the range says how far one patient may be from it.")
 
 
-def conversion_table_block(sheet: dict, styles: Styles, compact: bool = False, spread: bool = True) -> list[Flowable]:
+def conversion_table_block(sheet: dict, styles: Styles, compact: bool = False, spread: bool = True,
+                           lead: list[Flowable] = ()) -> list[Flowable]:
+    """The heading and the table (with at least its first rows under `lead` and the heading), then the note on
+    the range column."""
     # the outcome, horizon and population are in the header of this very page
     title = Paragraph("Total points \u2192 risk", styles.section)
     table = ConversionTable(sheet, styles, spread=spread)
     table.tracked_as = "the conversion table"
-    out: list[Flowable] = [KeepTogether([title, Spacer(1, 3), table])]
+    out: list[Flowable] = [LeadAndFirstRows([*lead, title, Spacer(1, 3)], table)]
     if prints_spread(sheet):  # what the range column means, or that it was left off to fit: after the table and
         # not kept with it (a note above it, or kept with it, pushed a table that just fits a page off its page)
         note = Paragraph(SPREAD_NOTE if table.spread else SPREAD_LEFT_OFF, styles.small)

@@ -10,7 +10,7 @@ import io
 from dataclasses import dataclass, field, replace
 
 from reportlab.lib import colors
-from reportlab.platypus import (BaseDocTemplate, Flowable, Frame, KeepTogether, NextPageTemplate, PageBreak, PageTemplate,
+from reportlab.platypus import (BaseDocTemplate, Flowable, Frame, NextPageTemplate, PageBreak, PageTemplate,
                                 Paragraph, Spacer)
 
 from scorecard import __version__
@@ -63,9 +63,9 @@ class _SheetDoc(BaseDocTemplate):
         self.placement = placement
 
     def afterFlowable(self, flowable):
-        what = getattr(flowable, "tracked_as", None)
-        if what:
-            self.placement.placed.append((what, self.page))
+        for what in getattr(flowable, "tracked_many", None) or [getattr(flowable, "tracked_as", None)]:
+            if what:
+                self.placement.placed.append((what, self.page))
         index = getattr(flowable, "section_start", None)
         if index is not None:
             self.placement.section_pages.setdefault(index, self.page)
@@ -226,7 +226,8 @@ def _story(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: s
         for part in section.parts:
             if part == "instructions":
                 story.append(instructions_block(sheet, styles, layout.compact))
-            elif part == "terms" and "instructions" not in section.parts:
+            elif part == "terms" and "instructions" not in section.parts[:section.parts.index("terms")]:
+                # the tables need the rounding rule where they are; the full instructions may come after them
                 how = (" Note the points of the patient's row in each table." if layout.compact else
                        " Write the points of the patient's row in the box beside each table's heading.")
                 story.append(Paragraph(markup(sheet["rounding_rule"]) + how + " " + markup(MEASURE_FIRST_RULE),
@@ -236,14 +237,15 @@ def _story(sheet: dict, layout: PageLayout, styles: Styles, short_fingerprint: s
             elif part == "terms":
                 story += [term_block(term, styles, signed, width) for term in sheet["terms"]]
             elif part == "total":
-                story.append(total_block(styles, width, layout.compact))
+                box = total_block(styles, width, layout.compact)
                 if _next_part(section, part) == "conversion_table":
                     # the total is read off in the table right after it: keep the box on the page the table
                     # starts on, so the reader never turns a page between adding up and reading the risk
-                    block = conversion_table_block(sheet, styles, layout.compact, layout.conversion_spread)
-                    story[-1] = KeepTogether([story[-1], block[0]])
-                    story += block[1:]
+                    story += conversion_table_block(sheet, styles, layout.compact, layout.conversion_spread,
+                                                    lead=box.flowables_tracked())
                     skip_conversion = True
+                else:
+                    story.append(box)
             elif part == "record":
                 story.append(record_block(sheet, styles, width))
             elif part == "ranges":

@@ -59,6 +59,10 @@ class Tracked(KeepTogether):
         for f in flowables:
             f.tracked_as = what
 
+    def flowables_tracked(self) -> list[Flowable]:
+        """The blocks kept together, each carrying the name, to lead into a block that keeps them itself."""
+        return list(self._content)
+
 
 def points_column_width(styles: Styles) -> float:
     widest = max(text_width(t, styles.body_pt, bold=True) for t in (f"{MINUS}88", "+88"))

@@ -157,6 +157,21 @@ def many_term_sheet(n_terms: int = 30) -> dict:
     return finish(sheet)
 
 
+def wide_total_sheet(factor: int = 10) -> dict:
+    """The 12-term sheet with every point multiplied by `factor`: a conversion table of a few hundred totals
+    (finer points, as on a 0-100 sheet), which runs over pages in every layout."""
+    sheet = copy.deepcopy(twelve_term_sheet())
+    for term in sheet["terms"]:
+        if term["kind"] == "pair":
+            term["points"] = [[p * factor for p in row] for row in term["points"]]
+            term["missing_points"] *= factor
+        else:
+            for row in term["rows"]:
+                row["points"] *= factor
+    sheet["scale"]["logodds_per_point"] /= factor
+    return finish(sheet)
+
+
 def with_markup_labels(sheet: dict) -> dict:
     """Labels and wording holding &, <, > that must print literally (not as markup)."""
     sheet = copy.deepcopy(sheet)

@@ -17,7 +17,7 @@ from scorecard.cli import main
 from scorecard.render import load_layout, render_pdf, shipped_layouts
 from scorecard.render.text import points_text, sheet_has_negative_points
 from scorecard.sheet import save_sheet, short_fingerprint, validate_sheet_dict
-from tests.render.sheets import many_term_sheet, twelve_term_sheet, with_markup_labels, without_negative_points
+from tests.render.sheets import many_term_sheet, twelve_term_sheet, wide_total_sheet, with_markup_labels, without_negative_points
 
 MM = 72 / 25.4
 
@@ -326,7 +326,7 @@ def test_category_by_flag_grid_and_a_sheet_without_bands(tmp_path):
     start = next(i for i, line in enumerate(lines) if " with " in line)  # the pair heading (it wraps in a column)
     grid = lines[start:start + 12]
     assert "Care home 0 +2" in grid and "If either is not measured: +1" in grid, grid
-    conversion = " ".join(_pages(pdf)[1][4].split())
+    conversion = next(text for text in (" ".join(page[4].split()) for page in _pages(pdf)) if "Total points → risk" in text)
     assert "sets no risk bands" in conversion and "Band" not in conversion.split("Total points → risk")[1][:200]
 
 
@@ -425,7 +425,7 @@ def test_a_term_left_off_prints_its_label_or_its_name_in_words():
     assert dropped_label(sheet, {"name": feature, "reason": "x"}) in printed
     assert dropped_label(sheet, {"name": "geriatric_review", "reason": "x"}) == "geriatric review"
     assert dropped_label(sheet, {"name": "geriatric_review", "label": "Geriatric review", "reason": "x"}) == "Geriatric review"
-    flat = " ".join(_pages(_render(sheet, "ward-a4"))[1][4].split())
+    flat = " ".join(" ".join(page[4].split()) for page in _pages(_render(sheet, "ward-a4")))
     assert "Left off this sheet: hearing (" in flat
 
 
@@ -574,3 +574,31 @@ def test_a_long_unbreakable_text_is_one_line_in_every_shipped_layout(tmp_path, l
         assert "do not fit on it" in message
     else:
         assert field in message and "2,000 characters do not fit layout" in message and "at most" in message
+
+
+ROW_OF_CONVERSION = re.compile(r"(?<!\S)[−-]?\d+ [<>]?\d+(?:\.\d+)?%")
+
+
+@pytest.mark.parametrize("name", ["ward-a4", "ward-letter", "large-print-a4"])
+def test_a_split_conversion_table_is_one_part_a_page_and_never_a_stray_line_or_two(name):
+    """Widow and orphan control (common practice in typesetting): a conversion table that runs over pages puts
+    one part on each page (a second part under the first, with other columns, was found on the large-print
+    demo sheet), and neither the first nor the last part is a sliver of a few totals."""
+    from scorecard.render.conversion import MIN_PART_ROWS
+
+    sheet = wide_total_sheet()
+    parts = []
+    for page in _pages(_render(sheet, name)):
+        lines = page[4].splitlines()
+        heads = [i for i, line in enumerate(lines) if line.startswith("Total Risk")]
+        assert len(heads) <= 1, (name, lines)
+        if heads:
+            rows = 0
+            for line in lines[heads[0] + 1:]:
+                found = len(ROW_OF_CONVERSION.findall(line))
+                if not found:
+                    break
+                rows += found
+            parts.append(rows)
+    assert sum(parts) == len(sheet["conversion"]) and len(parts) >= 2, parts  # the test sheet runs over a page
+    assert min(parts) >= MIN_PART_ROWS, parts
