@@ -209,24 +209,25 @@ def allocation_path(problem):
     return fit.path(smallest_plans(problem.curves, problem.weight, b.max_row_error, b.max_rows))
 
 
-PATH_TRIES = 3  # sheets at the top of the path (below a row limit) rounded and compared, the best kept
-
-
-def ours_at_most(problem, steps, rows: int, held_out: bool, bands: list[dict]):
-    """Our most accurate sheet on the allocation path with at most `rows` printed rows, rounded (full
-    rounding) within the same points limit the baseline had: chosen by mean |Δrisk| on the patients the sheet
-    is chosen on, like the baseline's points constant; figures on the held-out part when `held_out`.
-    Returns (printed rows, total points, figures) or None when no sheet on the path is that small."""
-    ks = [k for k, st in enumerate(steps) if st.printed <= rows]
+def ours_at_most(problem, steps, rows: int, held_out: bool, bands: list[dict], rounded: dict):
+    """Our most accurate sheet on the allocation path with at most `rows` printed rows, each sheet rounded
+    (full rounding) within the same points limit the baseline had: chosen by mean |Δrisk| on the patients the
+    sheet is chosen on, like the baseline's points constant (rounding makes a larger sheet on the path not
+    always the more accurate one); figures on the held-out part when `held_out`. `rounded` caches each path
+    sheet's rounding. Returns (printed rows, total points, figures) or None when no sheet is that small."""
     best = None
-    for k in ks[-PATH_TRIES:]:
-        design = design_of(problem, steps[k].plans, steps[k].printed)
-        cand = _attempt(problem, design, problem.bound.max_total_points, polish=True)
+    for k, step in enumerate(steps):
+        if step.printed > rows:
+            continue
+        if k not in rounded:
+            design = design_of(problem, step.plans, step.printed)
+            rounded[k] = _attempt(problem, design, problem.bound.max_total_points, polish=True)
+        cand = rounded[k]
         if cand is None:
             continue
         choose_mean = float(np.mean(np.abs(logistic(cand.sheet_logodds) - problem.population.risk)))
         if best is None or choose_mean < best[0]:
-            best = (choose_mean, steps[k].printed, cand)
+            best = (choose_mean, step.printed, cand)
     if best is None:
         return None
     _, printed, cand = best
@@ -255,7 +256,7 @@ def equal_rows(problem, held_out: bool, bands: list[dict], categories=range(2, 1
     print(f"ours given the baseline's rows ({where}; both within {problem.bound.max_total_points} points; our path reaches "
           f"{steps[-1].printed} rows):")
     print("  Framingham        rows points   mean   ΔAUC | ours (<= its rows) rows points   mean   ΔAUC | ratio mean  ΔAUC")
-    ratios, seen = [], set()
+    ratios, seen, rounded = [], set(), {}
     for c in categories:
         _, table, _ = baseline_at(problem, c, never)
         rows = table.printed_rows()
@@ -263,7 +264,7 @@ def equal_rows(problem, held_out: bool, bands: list[dict], categories=range(2, 1
             continue
         seen.add(rows)
         fb = baseline_figures(problem, table, held_out, bands)
-        ours = ours_at_most(problem, steps, rows, held_out, bands)
+        ours = ours_at_most(problem, steps, rows, held_out, bands, rounded)
         if ours is None:
             print(f"  {c:2d} categories    {rows:5d} {table.total_range:6d} {fb['mean_abs_risk_error'] * 100:6.2f} {fb['auc_loss']:.4f} | "
                   "no sheet on our path is this small")
