@@ -23,7 +23,7 @@ def test_help_has_an_example_of_the_verb(verb):
 # The old look the issue-13 audit removed (the list is issue 13's): a pair written "age x cognition" where a
 # user reads it, the repeat fits called bags, and the earlier edit options. `--merge-equal-levels` (quantize's
 # printing option) is not the old edit option `--merge`.
-OLD_LOOK = re.compile(r"\b(age|cognition|cognitive screen)( score)? x \w|\bbags?\b|--zero\b|--monotone\b|--clip\b|--merge\b(?!-)")
+OLD_LOOK = re.compile(r"\b(age|cognition|cognitive screen)(\s+score)?\s+x\s+\w|\bbags?\b|--zero\b|--monotone\b|--clip\b|--merge\b(?!-)")
 
 
 @pytest.mark.parametrize("verb", [""] + VERBS)

@@ -182,7 +182,7 @@ def audit_sheet(ctx: click.Context, folder: Path, sheet: Path, pdf: Path, model:
 @click.option("--seed", default=0, show_default=True, type=click.IntRange(min=0),
               help="Random seed; the same rows and seed always give the same cohorts, byte for byte.")
 @click.option("--without-pair", is_flag=True,
-              help="Generate from the additive truth without the age x cognition interaction.")
+              help="Generate from the additive truth without the interaction of age with cognitive screen score.")
 @click.option("--layout", default="ward-a4", show_default=True, metavar="NAME|FILE",
               help="Page layout of the printed sheet (see `scorecard render --help`).")
 @click.option("--cohort-only", is_flag=True,
