@@ -182,7 +182,7 @@ def audit_sheet(ctx: click.Context, folder: Path, sheet: Path, pdf: Path, model:
 @click.option("--seed", default=0, show_default=True, type=click.IntRange(min=0),
               help="Random seed; the same rows and seed always give the same cohorts, byte for byte.")
 @click.option("--without-pair", is_flag=True,
-              help="Generate from the additive truth without the age x cognition interaction.")
+              help="Generate from the additive truth without the interaction of age with cognitive screen score.")
 @click.option("--layout", default="ward-a4", show_default=True, metavar="NAME|FILE",
               help="Page layout of the printed sheet (see `scorecard render --help`).")
 @click.option("--cohort-only", is_flag=True,
@@ -197,9 +197,9 @@ def command(ctx: click.Context, output: str, rows: int, seed: int, without_pair:
     The scenario: adults aged 60 or over having surgery for a hip fracture; the outcome is delirium within
     5 days after the operation. A seeded generator draws the patients from a known true additive model with
     U-shaped sodium and temperature, a step at 36 hours to surgery, a plateau in regular medicines, albumin
-    often not measured (and not measuring it carries risk), one true pair (age x cognitive screen), and a
-    pre-operative review by the older-people's team that looks protective only because of how care was
-    given (its true effect is nil).
+    often not measured (and not measuring it carries risk), one true pair (age with cognitive screen
+    score), and a pre-operative review by the older-people's team that looks protective only because of
+    how care was given (its true effect is nil).
 
     \b
     Writes into DIR, in pipeline order:

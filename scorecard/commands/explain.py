@@ -15,6 +15,7 @@ from scorecard.commands._common import FeatureValue
 from scorecard.errors import UserError
 from scorecard.model import explain, load_model
 from scorecard.model.document import AdditiveModel
+from scorecard.sheet.printed import term_label
 from scorecard.tabular import is_missing_text, read_table
 from scorecard.suggest import did_you_mean
 
@@ -66,12 +67,18 @@ def explanation(model: AdditiveModel, frame: pd.DataFrame, row: int) -> dict:
     return result
 
 
+TERM_WIDTH = 36  # a long label wraps onto lines of its own, so the numbers stay in one column
+
+
 def table_text(model: AdditiveModel, result: dict, where: str) -> str:
+    """The explanation as a table; each term is named as the pages name it (`term_label`: a pair reads
+    'Age with cognitive screen score (0-10)'), the values by their column names, as --values takes them."""
     rows = []
     for entry in result["terms"]:
         shown = ", ".join(f"{n}={v if v != '' else 'not measured'}" for n, v in entry["values"].items())
-        rows.append((entry["term"], shown, entry["contribution"], "; ".join(entry["notes"])))
-    w_term = max([len("term")] + [len(r[0]) for r in rows])
+        label = textwrap.wrap(term_label(model, entry["term"]), TERM_WIDTH) or [entry["term"]]
+        rows.append((label, shown, entry["contribution"], "; ".join(entry["notes"])))
+    w_term = max([len("term")] + [len(line) for r in rows for line in r[0]])
     w_val = min(40, max([len("value")] + [len(r[1]) for r in rows]))
     lines = [
         f"{model.name} version {model.version}: {model.outcome['event']} ({model.outcome['horizon']})",
@@ -80,8 +87,9 @@ def table_text(model: AdditiveModel, result: dict, where: str) -> str:
         f"{'term':<{w_term}}  {'value':<{w_val}}  {'log-odds':>9}  {'odds x':>7}  note",
         f"{'-' * w_term}  {'-' * w_val}  {'-' * 9}  {'-' * 7}  ----",
     ]
-    for term, shown, contribution, note in rows:
-        lines.append(f"{term:<{w_term}}  {shown[:w_val]:<{w_val}}  {contribution:>+9.3f}  {math.exp(contribution):>7.2f}  {note}")
+    for label, shown, contribution, note in rows:
+        lines.append(f"{label[0]:<{w_term}}  {shown[:w_val]:<{w_val}}  {contribution:>+9.3f}  {math.exp(contribution):>7.2f}  {note}")
+        lines += [f"  {more}" for more in label[1:]]
     lines += [
         "",
         f"{'baseline (intercept)':<{w_term + w_val + 2}}  {result['baseline']:>+9.3f}",

@@ -24,6 +24,7 @@ from scorecard.errors import UserError
 from scorecard.model.document import AdditiveModel, Term
 from scorecard.review.isotonic import isotonic_projection
 from scorecard.review.weights import term_weights
+from scorecard.sheet.printed import term_label
 
 DIRECTIONS = ("increasing", "decreasing")
 DECLARATIONS = {
@@ -49,7 +50,9 @@ def remove_effect(model: AdditiveModel, term_name: str) -> tuple[AdditiveModel, 
     if term.missing_score is not None:
         term.missing_score = 0.0
     largest = float(np.max(np.abs(before))) if before.size else 0.0
-    what = (f"removed the effect of term {term_name!r}: every score set to 0 (largest removed |score| {largest:.3g} "
+    # a pair is named in words where it is read (the record's "term" keeps the JSON name the option took)
+    named = term_label(model, term) if term.kind == "pair" else f"term {term_name!r}"
+    what = (f"removed the effect of {named}: every score set to 0 (largest removed |score| {largest:.3g} "
             "log-odds); other terms unchanged")
     return edited, {"action": "remove_effect", "term": term_name, "what": what}
 

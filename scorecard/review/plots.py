@@ -587,15 +587,18 @@ def _pair(fig: Figure, model: AdditiveModel, term: Term, cohort: pd.DataFrame | 
     name = term_label(model, term)
     title = textwrap.wrap(f"{name}: the pair's own contribution, added to each feature's own term", 95)
     fig.text(LEFT, 0.908, "\n".join(title), fontsize=10, va="top")
-    fig.text(LEFT, 0.906 - 0.017 * len(title), "\n".join(textwrap.wrap(
+    caption = textwrap.wrap(
         f"Each panel draws the pair's contribution along {x_feature.label} for patients in one row of "
         f"{model.feature(term.features[other]).label}: black = patient-weighted mean over the panel's bins, grey "
         "area = their lowest to highest; thick grey steps = the default sheet's points for that row, boxed "
-        "(same log-odds scale in every panel); shaded strip = patients, darker = more.", 150)), fontsize=6.5, va="top")
+        "(same log-odds scale in every panel); shaded strip = patients, darker = more.", 150)
+    caption_top = 0.906 - 0.017 * len(title)
+    fig.text(LEFT, caption_top, "\n".join(caption), fontsize=6.5, va="top")
     n_panels = len(groups)
     cols = 1 if n_panels <= 3 else 2
     nrows = int(np.ceil(n_panels / cols))
-    top, bottom_edge = 0.835, 0.27
+    # the first panel's own title sits above it: start the panels below the caption's last line and that title
+    top, bottom_edge = min(0.835, caption_top - 0.0105 * len(caption) - 0.024), 0.27
     gap = 0.035
     height = (top - bottom_edge - gap * (nrows - 1)) / nrows
     width = (WIDTH - 0.06 * (cols - 1)) / cols

@@ -1,7 +1,8 @@
 """The pair rule at large n (issue 13): on a 1,000,000-patient demo cohort `pairs="auto"` must keep only the
-generator's true pair (age x cognition, docs/demo-cohort.md). Prints the ten best-ranked pairs with their
+generator's true pair (`age x cognition`: age with cognitive screen score, docs/demo-cohort.md), and at
+40,000 (--rows 40000) still keep it. Prints the ten best-ranked pairs (by their JSON names) with their
 held-out p-value and held-out gain per patient, which pairs the rule keeps, and which the significance test
-alone would keep; asserts nothing.
+alone would keep; asserts nothing. Figures: docs/fitting.md, "Pairs at large n".
 
     nice -n 10 .venv/bin/python tests/benchmarks/bench_pair_rule.py [--rows 1000000] [--repeats 12]
 

@@ -24,7 +24,9 @@ def _without(doc: dict, term_name: str) -> dict:
 def test_removing_an_effect_changes_only_that_term(name):
     model = true_model()
     edited, record = remove_effect(model, name)
-    assert record["action"] == "remove_effect" and "removed the effect" in record["what"]
+    assert record["action"] == "remove_effect" and "removed the effect" in record["what"] and record["term"] == name
+    if model.term(name).kind == "pair":  # issue 13: the history a user reads names a pair in words
+        assert name not in record["what"] and "Age with cognitive screen score" in record["what"]
     before, after = model.to_dict(), edited.to_dict()
     assert _without(before, name) == _without(after, name)  # intercept, features, other terms, provenance
     zeroed = edited.term(name)

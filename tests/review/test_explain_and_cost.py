@@ -83,3 +83,29 @@ def test_edit_cost_against_observed_outcome_uses_scikit_learns_auc(care_model, c
     assert cost["delta_auc"] < 0
     without = edit_cost(care_model, edited, cohort_frame, None)
     assert without["against"] == "the unedited model's risks" and without["delta_auc"] < 0
+
+
+def test_explain_table_names_terms_as_the_pages_do(care_model_path, cohort_csv, run_cli):
+    # issue 13: a pair reads "Age with cognitive screen score (0–10)" wherever a user reads it, never its
+    # JSON name "age x cognition"; one-feature terms by their labels, as on the review and sheet pages
+    from scorecard.sheet.printed import term_label
+
+    model = load_model(care_model_path)
+    table = run_cli("explain", care_model_path, "--row", 7, "--data", cohort_csv).stdout
+    doc = json.loads(run_cli("explain", care_model_path, "--row", 7, "--data", cohort_csv, "--json").stdout)
+    pairs = [t for t in model.terms if t.kind == "pair"]
+    assert pairs, "the fixture's model has the demo's pair"
+    for term in pairs:
+        assert term.name not in table
+    lines = table.splitlines()
+    header = next(k for k, line in enumerate(lines) if line.startswith("term "))
+    width = lines[header + 1].index("  ")  # the dashes under the term column
+    labels = []  # the term column read back, a wrapped label's further lines ("  ...") joined on
+    for line in lines[header + 2:]:
+        if not line.strip():
+            break
+        if line.startswith("  "):
+            labels[-1] += " " + line.strip()
+        else:
+            labels.append(line[:width].strip())
+    assert labels == [term_label(model, entry["term"]) for entry in doc["terms"]]
