@@ -21,6 +21,7 @@ Only this module imports dask; the in-memory fit never loads it.
 
 from __future__ import annotations
 
+import gc
 import itertools
 import logging
 from concurrent.futures import ThreadPoolExecutor
@@ -117,7 +118,7 @@ class DaskEngine:
         self.partition_rows = int(partition_rows)
         self.cluster = None
         if scheduler:
-            self.client = distributed.Client(scheduler, timeout=timeout)
+            self.client = _connected_client(scheduler, timeout)
         else:
             self.cluster = distributed.LocalCluster(
                 n_workers=int(workers), threads_per_worker=1, processes=processes, dashboard_address=None,
@@ -150,6 +151,23 @@ class DaskEngine:
             data = self.client.scatter(([c[a:b] for c in columns], y[a:b], w[a:b]), workers=[worker], direct=True)
             actors.append(self.client.submit(_new_partition, data, actor=True, workers=[worker], pure=False))
         return ClusterColumns(self, [f.result() for f in actors], bounds)
+
+
+def _connected_client(scheduler: str, timeout: float) -> "distributed.Client":
+    """A client of the running scheduler, or the error it gave, re-raised with the same type and message.
+
+    A Client that fails to connect stays half made until the garbage collector finds it, and its __del__ then
+    closes it: seen to deadlock when that happened inside a later Client's start (both wait on the shared
+    event-loop runner). The failure's traceback, which holds the half-made client, is dropped here and the
+    collector run at once, so the close happens now, with no other client starting."""
+    failure = None
+    try:
+        return distributed.Client(scheduler, timeout=timeout)
+    except (OSError, ValueError, TypeError) as exc:  # refused, timed out, or not an address
+        failure = (type(exc), str(exc))
+    gc.collect()
+    kind, message = failure
+    raise (kind if kind in (OSError, TimeoutError, ValueError, TypeError) else OSError)(message)
 
 
 def _new_partition(data):

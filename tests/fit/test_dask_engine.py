@@ -143,6 +143,27 @@ def test_an_unreachable_scheduler_fails_within_its_timeout_instead_of_hanging():
         DaskEngine(scheduler="tcp://127.0.0.1:9", timeout=1)  # port 9 (discard): nothing listens here
 
 
+def test_failed_connections_one_after_another_never_hang():
+    """A client that failed to connect was closed by the garbage collector whenever it ran, and that deadlocked
+    when it ran inside the next client's start (seen in the suite: the 5th of a row of failed connections hung).
+    Each attempt runs in a fresh process with a deadline, so a hang fails the test instead of stopping the run."""
+    pytest.importorskip("distributed")
+    import subprocess
+    import sys
+
+    script = (
+        "from scorecard.fit.dask_engine import DaskEngine\n"
+        "for address in ['tcp://127.0.0.1:9', 'host:8786x'] * 4:\n"
+        "    try:\n"
+        "        DaskEngine(scheduler=address, timeout=1)\n"
+        "    except (OSError, ValueError, TypeError):\n"
+        "        pass\n"
+        "print('done')\n"
+    )
+    done = subprocess.run([sys.executable, "-c", script], capture_output=True, text=True, timeout=90)
+    assert done.returncode == 0 and done.stdout.strip() == "done", done.stderr[-500:]
+
+
 @pytest.mark.parametrize("extra", [["--workers", "2"], ["--scheduler", "tcp://127.0.0.1:8786"]])
 def test_cluster_options_need_engine_dask(cohort_file, tmp_path, extra):
     result = CliRunner().invoke(main, ["fit", str(cohort_file), "--outcome", OUTCOME, *extra, "-o", str(tmp_path / "m.json")])
