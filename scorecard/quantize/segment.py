@@ -56,16 +56,19 @@ def segment_table(scores: np.ndarray, weights: np.ndarray, allowed: np.ndarray) 
     with np.errstate(invalid="ignore", divide="ignore"):
         mean = np.where(dw > 0, ds / np.where(dw > 0, dw, 1.0), 0.0)
         cost = np.maximum(dq - ds * mean, 0.0).sum(axis=2)
-    # largest and smallest score inside each row (per column group), for the cap and the certificate
+    # largest and smallest score inside each row (per column group), for the cap and the certificate: the
+    # extremes of each stretch between neighbouring nodes, then running extremes over the stretches from u on
     n_nodes = len(nodes)
+    if np.any(np.diff(nodes) <= 0):
+        raise ValueError("segment_table: allowed cut positions must be strictly increasing, between 1 and P - 1")
+    later = np.triu(np.ones((n_nodes - 1, n_nodes - 1), dtype=bool))[:, :, None]  # stretch j at or after u
+    run_max = np.maximum.accumulate(np.where(later, np.maximum.reduceat(s, nodes[:-1], axis=0)[None], -_INF), axis=1)
+    run_min = np.minimum.accumulate(np.where(later, np.minimum.reduceat(s, nodes[:-1], axis=0)[None], _INF), axis=1)
+    row_mean = mean[:-1, 1:]  # row u..v for v = u + 1.. (stretches u..v - 1)
+    with np.errstate(invalid="ignore"):
+        dev = np.maximum(run_max - row_mean, row_mean - run_min).max(axis=2)
     deviation = np.full((n_nodes, n_nodes), _INF)
-    for u in range(n_nodes - 1):
-        start = nodes[u]
-        run_max = np.maximum.accumulate(s[start:], axis=0)
-        run_min = np.minimum.accumulate(s[start:], axis=0)
-        ends = nodes[u + 1:] - start - 1  # last piece of row u..v
-        dev = np.maximum(run_max[ends] - mean[u, u + 1:], mean[u, u + 1:] - run_min[ends])
-        deviation[u, u + 1:] = dev.max(axis=1)
+    deviation[:-1, 1:] = np.where(later[:, :, 0], dev, _INF)
     upper = np.triu(np.ones((n_nodes, n_nodes), dtype=bool), k=1)
     cost = np.where(upper, cost, _INF)
     return SegmentTable(nodes=nodes, cost=cost, deviation=deviation, value=mean)
