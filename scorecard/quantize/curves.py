@@ -19,7 +19,7 @@ from scorecard.model import AdditiveModel
 from scorecard.model.document import Feature, Term
 from scorecard.model.predict import axis_bins, feature_values, level_bins, step_bins
 from scorecard.quantize.nice import candidate_cuts, cut_boundary
-from scorecard.quantize.segment import best_segmentations, rows_of_pieces, segment_table, smallest_cap
+from scorecard.quantize.segment import best_segmentations, rows_of_pieces, segment_table, segmentations_by_rows, smallest_cap
 from scorecard.sheet.printed import COMPLETED, NOT_MEASURED_TEXT, ROUNDED, flag_text, pair_name, range_text, read_units_array
 
 EPS_WEIGHT = 1e-6  # share of the mean weight given to every piece, so unpopulated pieces still get a value
@@ -183,22 +183,41 @@ class ContinuousCurve(Curve):
         """(k, cost, plan, cap used) for every k = 1..max_rows rows that meets the cap: the exact DP
         (`segment`) of the piece values `target` with weights `piece_weight` (the model's own curve, or a
         partial residual when backfitting). The cap is raised to the smallest `max_rows` rows can meet."""
+        found, cap_used = self.cut_choices(target, piece_weight, max_rows, cap, nice)
+        return [(k, cost, self.plan(k, cuts), cap_used) for k, cost, cuts in found]
+
+    def cut_choices(self, target: np.ndarray, piece_weight: np.ndarray, max_rows: int, cap: float,
+                    nice: bool = True, wanted: range | None = None,
+                    first: bool = False) -> tuple[list[tuple[int, float, list[int]]], float]:
+        """`segmentations` without building the plans (the backfitting keeps one of them): ([(k, cost, cuts)
+        for every k that meets the cap], cap used); only the k in `wanted` (default all), and with `first`
+        only the smallest such k that meets the cap."""
         n = self.n_main
         allowed = self.axis["allowed"] if nice else self.axis["edge_allowed"]
         allowed = allowed[(allowed > 0) & (allowed < n)]
         table = segment_table(target[:n], piece_weight[:n], allowed)
         rows_limit = min(max_rows, len(allowed) + 1)
-        cap_used = max(cap, smallest_cap(table, rows_limit) * (1 + 1e-9) + 1e-12)
-        out = []
-        for k, found in enumerate(best_segmentations(table, rows_limit, cap_used), start=1):
-            if found is None:
-                continue
-            cost, cuts = found
-            row = rows_of_pieces(n, cuts)
-            extra, _ = self.special_rows(k)
-            plan = RowPlan(np.concatenate([row, extra]), k + len(extra), k + len(extra), {"cuts": cuts, "k": (k,)})
-            out.append((k, cost, plan, cap_used))
-        return out
+        # the smallest cap rows_limit rows can meet is at most the one-row deviation: when even that is within
+        # the cap, the cap stands and the minimax DP is not needed
+        whole = table.whole_deviation()
+        if rows_limit >= 1 and whole * (1 + 1e-9) + 1e-12 <= cap:
+            cap_used = cap
+        else:
+            cap_used = max(cap, smallest_cap(table, rows_limit) * (1 + 1e-9) + 1e-12)
+        found = []
+        last = rows_limit if wanted is None else min(rows_limit, max(wanted, default=0))
+        for k, f in segmentations_by_rows(table, last, cap_used, wanted):
+            if f is not None:
+                found.append((k, f[0], f[1]))
+                if first:
+                    break
+        return found, cap_used
+
+    def plan(self, k: int, cuts: list[int]) -> RowPlan:
+        """The plan of k ranged rows cut at these pieces, then the special rows."""
+        row = rows_of_pieces(self.n_main, cuts)
+        extra, _ = self.special_rows(k)
+        return RowPlan(np.concatenate([row, extra]), k + len(extra), k + len(extra), {"cuts": cuts, "k": (k,)})
 
     def sheet_term(self, layout: RowPlan, points: list[int]) -> dict:
         d = self.feature.decimals

@@ -17,6 +17,7 @@ Jenks-Fisher optimal 1-D grouping, Fisher, JASA 1958), exact in O(k m^2) for m a
 from __future__ import annotations
 
 from dataclasses import dataclass
+from functools import cached_property, lru_cache
 
 import numpy as np
 
@@ -28,9 +29,37 @@ class SegmentTable:
     """Costs of every candidate row [node u, node v) of one curve; nodes are 0, the allowed cuts, and P."""
 
     nodes: np.ndarray  # piece index where each node starts (first 0, last P)
-    cost: np.ndarray  # (m+2, m+2) weighted squared error of the row u..v (inf when u >= v or the cap is broken)
-    deviation: np.ndarray  # (m+2, m+2) largest |score - row value| over the pieces of the row
+    cost: np.ndarray  # (m+2, m+2) weighted squared error of the row u..v (inf when u >= v)
     value: np.ndarray  # (m+2, m+2, G) the row's value (weighted mean per column group)
+    scores: np.ndarray  # (P, G) the piece values tabulated
+
+    @cached_property
+    def deviation(self) -> np.ndarray:
+        """(m+2, m+2) largest |score - row value| over the pieces of the row (inf when u >= v): the extremes
+        of each stretch between neighbouring nodes, then running extremes over the stretches from u on.
+        Worked out only when a cap may bind (`within`), as most backfitting steps never need it."""
+        s, nodes, n_nodes = self.scores, self.nodes, len(self.nodes)
+        later, _ = _triangles(n_nodes)
+        run_max = np.maximum.accumulate(np.where(later, np.maximum.reduceat(s, nodes[:-1], axis=0)[None], -_INF), axis=1)
+        run_min = np.minimum.accumulate(np.where(later, np.minimum.reduceat(s, nodes[:-1], axis=0)[None], _INF), axis=1)
+        row_mean = self.value[:-1, 1:]  # row u..v for v = u + 1.. (stretches u..v - 1)
+        with np.errstate(invalid="ignore"):
+            dev = np.maximum(run_max - row_mean, row_mean - run_min).max(axis=2)
+        deviation = np.full((n_nodes, n_nodes), _INF)
+        deviation[:-1, 1:] = np.where(later[:, :, 0], dev, _INF)
+        return deviation
+
+    def whole_deviation(self) -> float:
+        """deviation[0, -1] (the whole curve as one row), without the table."""
+        m = self.value[0, -1]
+        return float(np.maximum(self.scores.max(axis=0) - m, m - self.scores.min(axis=0)).max())
+
+    def within(self, cap: float) -> bool:
+        """True when every row meets the cap, proved without the deviation table: each row's value lies
+        between the lowest and highest score of all pieces, and both are within the cap of it (rounding is
+        monotone, so the table's |score - value| <= cap follows for every row)."""
+        hi, lo = float(self.scores.max()), float(self.scores.min())
+        return bool(hi - float(self.value.min()) <= cap and float(self.value.max()) - lo <= cap)
 
 
 def segment_table(scores: np.ndarray, weights: np.ndarray, allowed: np.ndarray) -> SegmentTable:
@@ -38,37 +67,49 @@ def segment_table(scores: np.ndarray, weights: np.ndarray, allowed: np.ndarray) 
 
     `scores`, `weights`: (P,) or (P, G) - G > 1 when the curve has several columns that share the same cuts
     (a pair grid segmented along one axis, each column group keeping its own value); the cost then sums over
-    the columns. `allowed`: sorted piece indices (1..P-1) where a row may start."""
+    the columns. `allowed`: strictly increasing piece indices (1..P-1) where a row may start."""
     s = np.asarray(scores, dtype=float)
     w = np.asarray(weights, dtype=float)
     if s.ndim == 1:
         s, w = s[:, None], w[:, None]
     n_pieces = s.shape[0]
     nodes = np.concatenate([[0], np.asarray(allowed, dtype=np.int64), [n_pieces]])
-    zero = np.zeros((1, s.shape[1]))
-    cw = np.vstack([zero, np.cumsum(w, axis=0)])
-    cs = np.vstack([zero, np.cumsum(w * s, axis=0)])
-    cq = np.vstack([zero, np.cumsum(w * s * s, axis=0)])
-    a, b = nodes[:, None], nodes[None, :]
-    dw = cw[b] - cw[a]  # (N, N, G)
-    ds = cs[b] - cs[a]
-    dq = cq[b] - cq[a]
+    if np.any(nodes[1:] <= nodes[:-1]):
+        raise ValueError("segment_table: allowed cut positions must be strictly increasing, between 1 and P - 1")
+    positive, divisor = _weight_frame(w.tobytes(), w.shape, nodes.tobytes())
+    ws = w * s
+    ds = _row_sums(ws, nodes)  # (N, N, G): sum over the pieces of row u..v
+    dq = _row_sums(ws * s, nodes)
     with np.errstate(invalid="ignore", divide="ignore"):
-        mean = np.where(dw > 0, ds / np.where(dw > 0, dw, 1.0), 0.0)
+        mean = np.where(positive, ds / divisor, 0.0)
         cost = np.maximum(dq - ds * mean, 0.0).sum(axis=2)
-    # largest and smallest score inside each row (per column group), for the cap and the certificate
-    n_nodes = len(nodes)
-    deviation = np.full((n_nodes, n_nodes), _INF)
-    for u in range(n_nodes - 1):
-        start = nodes[u]
-        run_max = np.maximum.accumulate(s[start:], axis=0)
-        run_min = np.minimum.accumulate(s[start:], axis=0)
-        ends = nodes[u + 1:] - start - 1  # last piece of row u..v
-        dev = np.maximum(run_max[ends] - mean[u, u + 1:], mean[u, u + 1:] - run_min[ends])
-        deviation[u, u + 1:] = dev.max(axis=1)
-    upper = np.triu(np.ones((n_nodes, n_nodes), dtype=bool), k=1)
+    _, upper = _triangles(len(nodes))
     cost = np.where(upper, cost, _INF)
-    return SegmentTable(nodes=nodes, cost=cost, deviation=deviation, value=mean)
+    return SegmentTable(nodes=nodes, cost=cost, value=mean, scores=s)
+
+
+def _row_sums(x: np.ndarray, nodes: np.ndarray) -> np.ndarray:
+    """(N, N, G): x summed over the pieces from node u to node v (a difference of cumulative sums)."""
+    c = np.cumsum(x, axis=0)[nodes - 1]
+    c[0] = 0.0  # node 0 starts before the first piece
+    return c[None, :] - c[:, None]
+
+
+@lru_cache(maxsize=128)
+def _weight_frame(w_bytes: bytes, shape: tuple, nodes_bytes: bytes) -> tuple[np.ndarray, np.ndarray]:
+    """What a table needs of the weights alone (rows with weight, and the divisor of their mean), kept: the
+    backfitting segments each term's changing residual thousands of times under the same weights."""
+    w = np.frombuffer(w_bytes).reshape(shape)
+    dw = _row_sums(w, np.frombuffer(nodes_bytes, dtype=np.int64))
+    positive = dw > 0
+    return positive, np.where(positive, dw, 1.0)
+
+
+@lru_cache(maxsize=64)
+def _triangles(n_nodes: int) -> tuple[np.ndarray, np.ndarray]:
+    """(stretch j at or after node u, as (N-1, N-1, 1)) and (node v after node u, (N, N))."""
+    later = np.triu(np.ones((n_nodes - 1, n_nodes - 1), dtype=bool))[:, :, None]
+    return later, np.triu(np.ones((n_nodes, n_nodes), dtype=bool), k=1)
 
 
 def best_segmentations(table: SegmentTable, max_rows: int, cap: float = _INF) -> list[tuple[float, list[int]] | None]:
@@ -78,29 +119,33 @@ def best_segmentations(table: SegmentTable, max_rows: int, cap: float = _INF) ->
         subject to |s_i - mean_r| <= cap for every piece,
 
     or None when no k-row segmentation meets the cap. Exact (dynamic programming over the allowed cuts)."""
-    cost = np.where(table.deviation <= cap, table.cost, _INF)
+    return [found for _k, found in segmentations_by_rows(table, max_rows, cap)]
+
+
+def segmentations_by_rows(table: SegmentTable, max_rows: int, cap: float = _INF, wanted=None):
+    """`best_segmentations` one k at a time, (k, found): the caller may stop early, and the cuts are traced
+    back only for the k in `wanted` (default every k; found is None for the others)."""
+    cost = table.cost if table.within(cap) else np.where(table.deviation <= cap, table.cost, _INF)
     n_nodes = len(table.nodes)
+    columns = np.arange(n_nodes)
     best = np.full(n_nodes, _INF)
     best[0] = 0.0
     back = []
-    out: list[tuple[float, list[int]] | None] = []
-    for _k in range(1, max_rows + 1):
+    for k in range(1, max_rows + 1):
         total = best[:, None] + cost  # (from u, to v)
         arg = np.argmin(total, axis=0)
-        new = total[arg, np.arange(n_nodes)]
+        best = total[arg, columns]
         back.append(arg)
-        best = new
         end = best[-1]
-        if not np.isfinite(end):
-            out.append(None)
+        if not np.isfinite(end) or (wanted is not None and k not in wanted):
+            yield k, None
             continue
         cuts = []
         v = n_nodes - 1
         for step in range(len(back) - 1, 0, -1):
             v = int(back[step][v])
             cuts.append(int(table.nodes[v]))
-        out.append((float(end), sorted(cuts)))
-    return out
+        yield k, (float(end), sorted(cuts))
 
 
 def smallest_cap(table: SegmentTable, rows: int) -> float:

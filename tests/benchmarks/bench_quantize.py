@@ -1,6 +1,7 @@
 """Benchmark: our quantizer against the Framingham points method, and its speed on a large model.
 
 Run: python tests/benchmarks/bench_quantize.py   (prints figures; ratios are measured in the same run)
+     python tests/benchmarks/bench_quantize.py --speed   (the speed section only: 40 terms x 256 bins)
      python tests/benchmarks/bench_quantize.py --held-out   (issue 10 item 6: held-out band agreement, p95, largest,
      rows and points of today's search, the earlier search and the Framingham baseline at equal rows)
 
@@ -407,6 +408,9 @@ def main() -> None:
             frontier(model, choose, audit, rows, points)
         return
 
+    if "--speed" in sys.argv:
+        speed()
+        return
     bound = Bound()
     if "--held-out" in sys.argv:  # issue 10, item 6 only
         from scorecard.demo import generate_cohort
@@ -424,7 +428,10 @@ def main() -> None:
     compare("breast cancer spline model (569 patients)", model, data, bound)
     old_and_new("demo true model", true_model(), None, bound)
     old_and_new("breast cancer spline model", model, data, bound)
+    speed()
 
+
+def speed() -> None:
     print("\n== speed: 40 terms x 256 bins ==")
     big = large_model()
     lenient = Bound(max_auc_loss=0.01, max_risk_error=0.10, risk_error_share=0.05, max_rows=6, max_total_points=100)

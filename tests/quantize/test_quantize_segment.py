@@ -94,3 +94,28 @@ def test_nice_cuts_are_whole_steps():
     assert cuts[0] == 61 and cuts[-1] == 100 and np.all(np.diff(cuts) == 1)
     half_degrees = candidate_cuts(30.0, 42.0, 1)  # 120 tenths -> steps of 0.2 degrees
     assert np.all(half_degrees % 2 == 0)
+
+
+@settings(max_examples=80, deadline=None)
+@given(st.integers(min_value=2, max_value=9), st.integers(min_value=1, max_value=3), st.floats(0.05, 3), st.data())
+def test_row_deviation_and_cap_shortcut_match_every_row(n, groups, cap, data):
+    """The vectorised table of largest |score - row value| equals the row-by-row definition (numpy max over the
+    row's pieces), for one or several column groups; and `within(cap)` only says yes when every row meets it."""
+    values = st.floats(-3, 3, allow_nan=False)
+    s = np.array(data.draw(st.lists(st.lists(values, min_size=groups, max_size=groups), min_size=n, max_size=n)))
+    w = np.array(data.draw(st.lists(st.lists(st.floats(0.01, 5), min_size=groups, max_size=groups), min_size=n, max_size=n)))
+    allowed = sorted(data.draw(st.sets(st.sampled_from(list(range(1, n))), max_size=n - 1)))
+    table = segment_table(s, w, allowed)
+    nodes = table.nodes
+    for u in range(len(nodes)):
+        for v in range(len(nodes)):
+            if v <= u:
+                assert table.deviation[u, v] == np.inf
+                continue
+            piece = s[nodes[u]:nodes[v]]
+            mean = (w[nodes[u]:nodes[v]] * piece).sum(axis=0) / w[nodes[u]:nodes[v]].sum(axis=0)
+            assert np.isclose(table.deviation[u, v], np.abs(piece - mean).max(), rtol=1e-9, atol=1e-12)
+    assert np.isclose(table.whole_deviation(), table.deviation[0, -1], rtol=0, atol=0)
+    finite = table.deviation[np.isfinite(table.deviation)]
+    if table.within(cap):
+        assert (finite <= cap).all()
