@@ -59,6 +59,7 @@ class ConversionTable(Flowable):
         self.bands = row_bands(sheet) if bands is None else bands
         self.band_names = [b["name"] for b in sheet.get("bands") or []]
         self.continued = continued
+        self.continues = False  # set on the first part of a split: a note under it says where the rest is
         self._table = None
         self._groups = 1
 
@@ -134,19 +135,38 @@ class ConversionTable(Flowable):
         table.setStyle(TableStyle(commands))
         return table
 
+    def _notes(self) -> tuple[Paragraph | None, Paragraph | None]:
+        """Where the parts of a split table meet, each says where the other is: a nurse whose total is not
+        in the part in front of her is told where to look, and a part that starts mid-table says what it is."""
+        if not self.rows:
+            return None, None
+        span = f"{total_text(self.rows[0]['total'])} to {total_text(self.rows[-1]['total'])}"
+        above = Paragraph(f"<b>Total points \u2192 risk, continued:</b> totals {span}", self.styles.body) if self.continued else None
+        below = Paragraph(f"Totals above {total_text(self.rows[-1]['total'])}: the table goes on in the next column or "
+                          "page.", self.styles.small) if self.continues else None
+        return above, below
+
+    def _notes_height(self, avail_width: float) -> float:
+        return sum(n.wrap(avail_width, 1e6)[1] + 2 for n in self._notes() if n is not None)
+
     def wrap(self, avail_width, avail_height):
         self._table = self._build(avail_width)
-        self.width, self.height = self._table.wrap(avail_width, avail_height)
+        table_w, table_h = self._table.wrap(avail_width, avail_height)
+        self._above, self._below = self._notes()
+        self._above_h = self._above.wrap(avail_width, avail_height)[1] + 2 if self._above else 0.0
+        self._below_h = self._below.wrap(avail_width, avail_height)[1] + 2 if self._below else 0.0
+        self.width, self.height = table_w, table_h + self._above_h + self._below_h
         return self.width, self.height
 
     def split(self, avail_width, avail_height):
         table = self._build(avail_width)
         _, height = table.wrap(avail_width, avail_height)
-        if height <= avail_height:
+        notes_h = self._notes_height(avail_width)
+        if height + notes_h <= avail_height:
             return [self]
         row_h = max(table._rowHeights[1:] or [self.styles.body_pt * 1.5])
         header_h = table._rowHeights[0]
-        per = int((avail_height - header_h - 2) // row_h)
+        per = int((avail_height - notes_h - header_h - 2) // row_h)
         if per < MIN_PART_ROWS:
             return []  # too little room here: start on the next frame
         if per * self._groups >= len(self.rows):
@@ -156,6 +176,7 @@ class ConversionTable(Flowable):
         # (fewer would leave room under it that the rest then splits into again: two tables on one page).
         def head_of(first: int) -> "ConversionTable | None":
             head = ConversionTable(self.sheet, self.styles, self.rows[:first], self.bands[:first], self.continued, self.spread)
+            head.continues = True
             return head if head.wrap(avail_width, avail_height)[1] <= avail_height else None
 
         # fewer rows here: start on the next frame; and leave at least MIN_PART_ROWS for the rest, so that the
@@ -176,12 +197,17 @@ class ConversionTable(Flowable):
         first = low
         rest = ConversionTable(self.sheet, self.styles, self.rows[first:], self.bands[first:], continued=True,
                                spread=self.spread)
+        rest.continues = self.continues
         for part in (best, rest):
             part.tracked_as = getattr(self, "tracked_as", None)
         return [best, rest]
 
     def draw(self):
-        self._table.drawOn(self.canv, 0, 0)
+        if self._above is not None:
+            self._above.drawOn(self.canv, 0, self.height - self._above_h + 2)
+        self._table.drawOn(self.canv, 0, self._below_h)
+        if self._below is not None:
+            self._below.drawOn(self.canv, 0, 0)
 
 
 class LeadAndFirstRows(Flowable):

@@ -602,3 +602,40 @@ def test_a_split_conversion_table_is_one_part_a_page_and_never_a_stray_line_or_t
             parts.append(rows)
     assert sum(parts) == len(sheet["conversion"]) and len(parts) >= 2, parts  # the test sheet runs over a page
     assert min(parts) >= MIN_PART_ROWS, parts
+
+
+@pytest.mark.parametrize("name", ["ward-a4", "large-print-a4"])
+def test_each_part_of_a_split_conversion_table_says_where_the_other_totals_are(name):
+    """A nurse whose total is past the foot of a part is told where the table goes on, and a part that starts
+    mid-table names its totals (continuation lines: common practice in typesetting tables over pages)."""
+    sheet = wide_total_sheet()
+    parts = []  # (first total, last total, page text) per part
+    for page in _pages(_render(sheet, name)):
+        text = page[4]
+        lines = text.splitlines()
+        heads = [i for i, line in enumerate(lines) if line.startswith("Total Risk")]
+        if not heads:
+            continue
+        totals = []
+        for line in lines[heads[0] + 1:]:
+            found = ROW_OF_CONVERSION.findall(line)
+            if not found:
+                break
+            totals += [int(cell.split()[0].replace("\u2212", "-")) for cell in found]
+        parts.append((min(totals), max(totals), " ".join(lines)))
+    assert len(parts) >= 2, parts
+    for k, (first, last, text) in enumerate(parts):
+        continues = f"Totals above {last}: the table goes on in the next column or page."
+        continued = f"Total points \u2192 risk, continued: totals {first} to {last}"
+        assert (continues in text) == (k < len(parts) - 1), (k, last, text)
+        assert (continued in text) == (k > 0), (k, first, last, text)
+
+
+def test_a_conversion_table_on_one_page_carries_no_continuation_line():
+    from tests.audit.handmade import sheet_dict
+    from tests.render.sheets import finish
+    sheet = sheet_dict()
+    finish(sheet)
+    text = " ".join(page[4] for page in _pages(_render(sheet, "ward-a4")))
+    assert "Total Risk" in text
+    assert "the table goes on" not in text and "continued: totals" not in text
