@@ -62,17 +62,19 @@ class Backfit:
         self.curves, self.y, self.w = curves, np.asarray(y, dtype=float), np.asarray(w, dtype=float)
         self.max_rows, self.cap, self.nice = max_rows, cap, nice
         self.piece_w = [c.piece_weights(self.w) for c in curves]
+        # the patients' own weight per piece (piece_w less its small floor), for `target`
+        self._raw_w = [np.bincount(c.patient_piece, weights=self.w, minlength=len(c.scores)) for c in curves]
         self.sw = float(self.w.sum())
         self.plans: list[RowPlan] = []
         self.values: list[np.ndarray] = []
         self.parts: list[np.ndarray] = []
         self.total = np.zeros_like(self.y)  # sum of the parts, kept up to date term by term
         self.intercept = 0.0
-        # kept because they are asked for thousands of times along the path: each patient's own model score
-        # per term, the residual y - fitted of the current state (None once the state moves), and per term
-        # the patients' rows under its last applied piece-to-row map (a re-segmentation often keeps the cuts)
-        self._own = [c.scores[c.patient_piece] for c in curves]
+        # kept because they are asked for thousands of times along the path: the residual y - fitted of the
+        # current state and its weighted form (None once the state moves), and per term the patients' rows
+        # under its last applied piece-to-row map (a re-segmentation often keeps the cuts)
         self._residual: np.ndarray | None = None
+        self._weighted_residual: np.ndarray | None = None
         self._patient_rows: list[tuple[bytes, np.ndarray] | None] = [None] * len(curves)
 
     # -- state --------------------------------------------------------------------------------------
@@ -87,7 +89,7 @@ class Backfit:
             self.parts.append(v[plan.row_of_piece[curve.patient_piece]])
         self.total = np.sum(self.parts, axis=0)
         self.intercept = _dot(self.w, self.y - self.total) / self.sw
-        self._residual = None
+        self._residual = self._weighted_residual = None
         self.sweep(resegment=False)
 
     def fitted(self) -> np.ndarray:
@@ -99,6 +101,12 @@ class Backfit:
             self._residual = self.y - self.fitted()
         return self._residual
 
+    def weighted_residual(self) -> np.ndarray:
+        """w (y - fitted) of the current state, shared by every term's target until the state moves."""
+        if self._weighted_residual is None:
+            self._weighted_residual = self.w * self.residual()
+        return self._weighted_residual
+
     def objective(self) -> float:
         r = self.residual()
         return _dot(self.w, r * r)
@@ -107,8 +115,12 @@ class Backfit:
         """Per piece of term t: the weighted mean partial residual, written as the model's own score plus
         the mean error of everything else, so a piece no patient falls in keeps its own curve's score."""
         curve = self.curves[t]
-        others = self.residual() + self.parts[t] - self._own[t]
-        shift = np.bincount(curve.patient_piece, weights=self.w * others, minlength=len(curve.scores))
+        # every patient of a piece has the same sheet value and own score there, so the patients' sum of
+        # w (sheet value - own score) is the piece's weight times that difference: only w (y - fitted), the
+        # same for every term, is summed over patients
+        shift = np.bincount(curve.patient_piece, weights=self.weighted_residual(), minlength=len(curve.scores))
+        sheet_value = self.values[t][self.plans[t].row_of_piece]
+        shift += self._raw_w[t] * (sheet_value - curve.scores)
         return curve.scores + shift / self.piece_w[t]
 
     def _cost(self, t: int, target: np.ndarray, plan: RowPlan, values: np.ndarray) -> float:
@@ -125,7 +137,7 @@ class Backfit:
         self.total += new - self.parts[t]
         self.parts[t] = new
         self.intercept = _dot(self.w, self.y - self.total) / self.sw
-        self._residual = None
+        self._residual = self._weighted_residual = None
 
     # -- one term -----------------------------------------------------------------------------------
     def candidates(self, t: int, target: np.ndarray, grow: bool) -> list[tuple[float, RowPlan, np.ndarray]]:

@@ -90,3 +90,28 @@ def test_a_term_resegmented_alone_equals_exhaustive_search_over_its_cuts():
         # the DP weighs pieces no patient falls in by a tiny amount as well, hence the relative tolerance
         assert got <= best * (1 + 1e-6) + 1e-9
         assert got >= best * (1 - 1e-6) - 1e-9
+
+
+@settings(max_examples=10, deadline=None)
+@given(seed=st.integers(0, 10_000), grows=st.integers(0, 8))
+def test_each_term_target_is_the_weighted_mean_partial_residual_of_its_piece(seed, grows):
+    """The backfitting target (partial residuals, Hastie and Tibshirani's backfitting), recomputed here from its
+    definition patient by patient: per piece, the weighted mean of y - intercept - every other term's sheet value
+    (its own model score where no patient falls), with numpy only."""
+    curves, y, w = _problem(seed)
+    fit = Backfit(curves, y, w, max_rows=4, cap=np.inf)
+    fit.start(smallest_plans(curves, w, np.inf, 4))
+    for _ in range(grows):
+        fit.grow_once()
+    for t, curve in enumerate(curves):
+        values = [fit.values[u][fit.plans[u].row_of_piece[c.patient_piece]] for u, c in enumerate(curves)]
+        partial = y - fit.intercept - (np.sum(values, axis=0) - values[t])
+        expected = curve.scores.astype(float).copy()
+        for piece in range(len(curve.scores)):
+            inside = curve.patient_piece == piece
+            if inside.any():
+                # the code keeps a small weight floor on every piece (piece_weights); it pulls the mean towards
+                # the model's own score by that floor's share
+                floor = fit.piece_w[t][piece] - w[inside].sum()
+                expected[piece] = (np.sum(w[inside] * partial[inside]) + floor * curve.scores[piece]) / fit.piece_w[t][piece]
+        np.testing.assert_allclose(fit.target(t), expected, rtol=1e-9, atol=1e-9)
