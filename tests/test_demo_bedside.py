@@ -174,7 +174,8 @@ def _words_in_order(wanted: list[str], words: list[str], max_gap: int) -> bool:
 def test_the_conversion_runs_over_pages_one_part_a_page_and_how_to_score_fills_the_tables_last_page(demo, tmp_path, layout):
     """Widow and orphan control (common practice in typesetting) on the demo sheet's long conversion table: one
     part on each page, none of them a few stray totals; and on the ward sheets how to score follows the record on
-    the page the tables end on (alone on a page of its own it left that page and the one before half empty)."""
+    the page the tables end on (alone on a page of its own it left that page and the one before half empty), with
+    the rules for values outside the printed ranges."""
     import re
 
     from scorecard.render.conversion import MIN_PART_ROWS
@@ -204,3 +205,7 @@ def test_the_conversion_runs_over_pages_one_part_a_page_and_how_to_score_fills_t
         record = [i for i, t in enumerate(pages) if "RECORD OF THIS SCORING" in t]
         how = [i for i, t in enumerate(pages) if "How to score" in t]
         assert record == how, (record, how)
+        # what to do with a value outside the printed ranges, not measured or another category is a scoring
+        # rule: it stands with how to score (it was two pages away, after the band table)
+        edges = [i for i, t in enumerate(pages) if "Outside the printed ranges" in t]
+        assert edges == how, (edges, how)
