@@ -161,7 +161,7 @@ class Problem:
     design: "Design | None" = None  # the chosen allocation, set by `search`
     confirm: Population | None = None  # held-out patients: a sheet is offered only if it meets the bound there too
     confirm_curves: list[Curve] | None = None
-    steps: list = field(default_factory=list)  # the allocation path (backfit.Step), set by `search`
+    steps: list = field(default_factory=list)  # the allocation path (backfit.Step), set by `allocation_path`
     frontier: list = field(default_factory=list)  # alternative sheets (`frontier`)
     slip_choice: list = field(default_factory=list)  # the roundings the chosen sheet was picked among (`_finish`)
     band_edge_search: bool = True  # band edges at the totals that maximise band agreement (`band_edges`)
@@ -434,6 +434,16 @@ def edge_weight_factor(logodds: np.ndarray, bands: list[dict], extra: float) -> 
     return 1.0 + extra * np.exp(-0.5 * (d / BAND_EDGE_WIDTH) ** 2)
 
 
+def allocation_path(problem: Problem) -> list:
+    """The per-patient allocation path (`backfit.Step`s, from the fewest rows up to every term's limit) for the
+    problem's bound: worked out once and kept on the problem."""
+    if not problem.steps:
+        bound = problem.bound
+        fit = Backfit(problem.curves, problem.population.logodds, problem.weight, bound.max_rows, bound.max_row_error)
+        problem.steps = fit.path(smallest_plans(problem.curves, problem.weight, bound.max_row_error, bound.max_rows))
+    return problem.steps
+
+
 def search(problem: Problem, progress: Callable[[str], None] | None = None) -> Candidate:
     """The simplest passing candidate on the per-patient allocation path (`backfit`): the smallest sheet on
     the path that meets every bound (bisection along the path, each sheet judged at the largest total
@@ -441,9 +451,7 @@ def search(problem: Problem, progress: Callable[[str], None] | None = None) -> C
     meets the bound there as well, so one that just meets it in sample and misses it held out is not offered."""
     say = progress or (lambda _m: None)
     bound = problem.bound
-    fit = Backfit(problem.curves, problem.population.logodds, problem.weight, bound.max_rows, bound.max_row_error)
-    steps = fit.path(smallest_plans(problem.curves, problem.weight, bound.max_row_error, bound.max_rows))
-    problem.steps = steps
+    steps = allocation_path(problem)
     say(f"backfitting path: {len(steps)} sheets from {steps[0].printed} to {steps[-1].printed} printed rows over "
         f"{len(problem.curves)} terms, each row given where it lowers the per-patient error most")
     cache: dict[int, tuple[Design, Candidate | None]] = {}

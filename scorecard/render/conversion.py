@@ -51,15 +51,16 @@ class ConversionTable(Flowable):
     """
 
     def __init__(self, sheet: dict, styles: Styles, rows: list[dict] | None = None, bands: list | None = None,
-                 continued: bool = False, spread: bool = True):
+                 continued: bool = False, spread: bool = True, continues: bool = False):
         super().__init__()
         self.sheet, self.styles = sheet, styles
         self.spread = spread and prints_spread(sheet)
         self.rows = sheet["conversion"] if rows is None else rows
         self.bands = row_bands(sheet) if bands is None else bands
         self.band_names = [b["name"] for b in sheet.get("bands") or []]
-        self.continued = continued
-        self.continues = False  # set on the first part of a split: a note under it says where the rest is
+        # a part of a split table: `continued` starts mid-table (a heading over it names its totals),
+        # `continues` has more after it (a line under it says where)
+        self.continued, self.continues = continued, continues
         self._table = None
         self._groups = 1
 
@@ -135,33 +136,30 @@ class ConversionTable(Flowable):
         table.setStyle(TableStyle(commands))
         return table
 
-    def _notes(self) -> tuple[Paragraph | None, Paragraph | None]:
-        """Where the parts of a split table meet, each says where the other is: a nurse whose total is not
-        in the part in front of her is told where to look, and a part that starts mid-table says what it is."""
-        if not self.rows:
-            return None, None
-        span = f"{total_text(self.rows[0]['total'])} to {total_text(self.rows[-1]['total'])}"
-        above = Paragraph(f"<b>Total points \u2192 risk, continued:</b> totals {span}", self.styles.body) if self.continued else None
-        below = Paragraph(f"Totals above {total_text(self.rows[-1]['total'])}: the table goes on in the next column or "
-                          "page.", self.styles.small) if self.continues else None
-        return above, below
-
-    def _notes_height(self, avail_width: float) -> float:
-        return sum(n.wrap(avail_width, 1e6)[1] + 2 for n in self._notes() if n is not None)
+    def _notes(self, avail_width: float) -> tuple[tuple[Paragraph | None, float], tuple[Paragraph | None, float]]:
+        """(note, height) over and under this part. Where the parts of a split table meet, each says where the
+        other is: a nurse whose total is not in the part in front of her is told where to look, and a part
+        that starts mid-table says what it is."""
+        above = below = None
+        if self.rows and self.continued:
+            span = f"{total_text(self.rows[0]['total'])} to {total_text(self.rows[-1]['total'])}"
+            above = Paragraph(f"<b>Total points \u2192 risk, continued:</b> totals {span}", self.styles.body)
+        if self.rows and self.continues:
+            below = Paragraph(f"Totals above {total_text(self.rows[-1]['total'])}: the table goes on in the next column "
+                              "or page.", self.styles.small)
+        return tuple((note, note.wrap(avail_width, 1e6)[1] + 2 if note else 0.0) for note in (above, below))
 
     def wrap(self, avail_width, avail_height):
         self._table = self._build(avail_width)
         table_w, table_h = self._table.wrap(avail_width, avail_height)
-        self._above, self._below = self._notes()
-        self._above_h = self._above.wrap(avail_width, avail_height)[1] + 2 if self._above else 0.0
-        self._below_h = self._below.wrap(avail_width, avail_height)[1] + 2 if self._below else 0.0
+        (self._above, self._above_h), (self._below, self._below_h) = self._notes(avail_width)
         self.width, self.height = table_w, table_h + self._above_h + self._below_h
         return self.width, self.height
 
     def split(self, avail_width, avail_height):
         table = self._build(avail_width)
         _, height = table.wrap(avail_width, avail_height)
-        notes_h = self._notes_height(avail_width)
+        notes_h = sum(h for _, h in self._notes(avail_width))
         if height + notes_h <= avail_height:
             return [self]
         row_h = max(table._rowHeights[1:] or [self.styles.body_pt * 1.5])
@@ -175,8 +173,8 @@ class ConversionTable(Flowable):
         # its number of side-by-side groups and its row heights may differ. Take the most rows that really fit
         # (fewer would leave room under it that the rest then splits into again: two tables on one page).
         def head_of(first: int) -> "ConversionTable | None":
-            head = ConversionTable(self.sheet, self.styles, self.rows[:first], self.bands[:first], self.continued, self.spread)
-            head.continues = True
+            head = ConversionTable(self.sheet, self.styles, self.rows[:first], self.bands[:first], self.continued, self.spread,
+                                   continues=True)
             return head if head.wrap(avail_width, avail_height)[1] <= avail_height else None
 
         # fewer rows here: start on the next frame; and leave at least MIN_PART_ROWS for the rest, so that the
@@ -196,8 +194,7 @@ class ConversionTable(Flowable):
                 low, best = middle, head
         first = low
         rest = ConversionTable(self.sheet, self.styles, self.rows[first:], self.bands[first:], continued=True,
-                               spread=self.spread)
-        rest.continues = self.continues
+                               spread=self.spread, continues=self.continues)
         for part in (best, rest):
             part.tracked_as = getattr(self, "tracked_as", None)
         return [best, rest]

@@ -40,7 +40,7 @@ from scorecard.model import logistic, model_from_dict  # noqa: E402
 from scorecard.quantize import Bound  # noqa: E402
 from scorecard.quantize.accuracy import quick_figures  # noqa: E402
 from scorecard.quantize.framingham import framingham_span, framingham_table  # noqa: E402
-from scorecard.quantize.quantizer import _attempt, build_sheet, design_of, prepare, search, search_by_term_error  # noqa: E402
+from scorecard.quantize.quantizer import _attempt, allocation_path, build_sheet, design_of, prepare, search, search_by_term_error  # noqa: E402
 from scorecard.quantize.backfit import Backfit, smallest_plans  # noqa: E402
 from scorecard.quantize.curves import build_curves  # noqa: E402
 from scorecard.quantize.population import evaluation_population  # noqa: E402
@@ -203,13 +203,6 @@ def compare(label: str, model, data, bound: Bound) -> dict:
 # -- equal rows, both directions -------------------------------------------------------------------------
 
 
-def allocation_path(problem):
-    """The per-patient allocation path `search` chooses among (every sheet from the fewest rows up)."""
-    b = problem.bound
-    fit = Backfit(problem.curves, problem.population.logodds, problem.weight, b.max_rows, b.max_row_error)
-    return fit.path(smallest_plans(problem.curves, problem.weight, b.max_row_error, b.max_rows))
-
-
 def ours_at_most(problem, steps, rows: int, held_out: bool, bands: list[dict], rounded: dict):
     """Our most accurate sheet on the allocation path with at most `rows` printed rows, each sheet rounded
     (full rounding) within the same points limit the baseline had: chosen by mean |Δrisk| on the patients the
@@ -232,19 +225,16 @@ def ours_at_most(problem, steps, rows: int, held_out: bool, bands: list[dict], r
     if best is None:
         return None
     _, printed, cand = best
-    if held_out:
-        figs = quick_figures(problem.confirm.logodds, cand.confirm_logodds, problem.bound.max_risk_error, None, bands)
-    else:
-        figs = quick_figures(problem.population.logodds, cand.sheet_logodds, problem.bound.max_risk_error, problem.auc_model, bands)
-    return printed, cand.total_range, figs
+    return printed, cand.total_range, figures_on(problem, cand.confirm_logodds if held_out else cand.sheet_logodds,
+                                                 held_out, bands)
 
 
-def baseline_figures(problem, table, held_out: bool, bands: list[dict]) -> dict:
+def figures_on(problem, sheet_logodds, held_out: bool, bands: list[dict]) -> dict:
+    """A sheet's figures on the held-out part (`sheet_logodds` of those patients) or on the patients it is
+    chosen on."""
     if held_out:
-        return quick_figures(problem.confirm.logodds, table.sheet_logodds(problem.confirm_curves), problem.bound.max_risk_error,
-                             None, bands)
-    return quick_figures(problem.population.logodds, table.sheet_logodds(problem.curves), problem.bound.max_risk_error,
-                         problem.auc_model, bands)
+        return quick_figures(problem.confirm.logodds, sheet_logodds, problem.bound.max_risk_error, None, bands)
+    return quick_figures(problem.population.logodds, sheet_logodds, problem.bound.max_risk_error, problem.auc_model, bands)
 
 
 def equal_rows(problem, held_out: bool, bands: list[dict], categories=range(2, 16)) -> list[float]:
@@ -264,7 +254,7 @@ def equal_rows(problem, held_out: bool, bands: list[dict], categories=range(2, 1
         if rows in seen:
             continue
         seen.add(rows)
-        fb = baseline_figures(problem, table, held_out, bands)
+        fb = figures_on(problem, table.sheet_logodds(problem.confirm_curves if held_out else problem.curves), held_out, bands)
         ours = ours_at_most(problem, steps, rows, held_out, bands, rounded)
         if ours is None:
             print(f"  {c:2d} categories    {rows:5d} {table.total_range:6d} {fb['mean_abs_risk_error'] * 100:6.2f} {fb['auc_loss']:.4f} | "
