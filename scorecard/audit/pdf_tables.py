@@ -76,6 +76,19 @@ class PrintedPage:
         """The page's running text, one string per column of text (see `text_passages`)."""
         return text_passages(self.words)
 
+    def tables_in_reading_order(self) -> list[PrintedTable]:
+        """The tables as a reader meets them: down each column of the page, then the next column to the right.
+        Tables that overlap horizontally share a column (a full-width table joins every column into one);
+        ordering by height alone read a table continued at the top of the right column before the part it
+        continues, lower in the left one."""
+        columns: list[list[PrintedTable]] = []
+        for table in sorted(self.tables, key=lambda t: t.x0):
+            if columns and table.x0 < max(t.x1 for t in columns[-1]) - 1.0:
+                columns[-1].append(table)
+            else:
+                columns.append([table])
+        return [t for column in columns for t in sorted(column, key=lambda t: t.top)]
+
 
 def _lines(words: list[Word]) -> list[list[Word]]:
     """Words grouped into lines, top to bottom: a word joins a line when its middle is within half a word

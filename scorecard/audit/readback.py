@@ -84,7 +84,7 @@ def _heading_rows(pages: list[PrintedPage], term: dict) -> list[tuple[PrintedTab
     """Every (table, row index) whose row is this term's heading, in page order."""
     found = []
     for page in pages:
-        for table in sorted(page.tables, key=lambda t: (t.top, t.x0)):
+        for table in page.tables_in_reading_order():
             for i, row in enumerate(table.rows):
                 words = reading_order(row.words)
                 if words and words[0].bold and _heading_matches(row.text(), term):
@@ -216,7 +216,7 @@ class _Checker:
         entries: list[tuple[int, list[Word]]] = []
         with_range: set[bool] = set()
         for page in self.pages:
-            for table in sorted(page.tables, key=lambda t: (t.top, t.x0)):
+            for table in page.tables_in_reading_order():
                 for i, row in enumerate(table.rows):
                     heads = [" ".join(w.text for w in c) for c in row.cells()]
                     if _is_conversion_header(row):

@@ -276,3 +276,25 @@ def test_pocket_card_prints_the_range_where_it_fits_and_says_so_where_not(lpp, p
     assert (" ".join(SPREAD_LEFT_OFF.split()) in " ".join(text.split())) == (not printed)
     mismatches, summary = verify_printed(sheet, data, "card.pdf")
     assert mismatches == [] and "identical bytes" in summary, [m.line() for m in mismatches]
+
+
+CONVERSION_IN_COLUMNS = TABLES_ONLY.replace('name = "tables-only"', 'name = "conversion-in-columns"').replace(
+    'parts = ["terms", "total"]', 'parts = ["ranges", "total", "conversion_table", "terms"]').replace(
+    'parts = ["instructions", "conversion_table", "bands", "ranges", "cautions"]', 'parts = ["instructions", "bands", "cautions"]')
+
+
+def test_a_table_continued_at_the_top_of_the_next_column_is_read_after_the_part_it_continues(tmp_path):
+    """Reading order of a two-column page (common practice in typesetting: down a column, then the next): the
+    conversion table starts low in the left column, under the range rules and the total box, and goes on at
+    the top of the right column. Read by height alone, the right column's totals came first and every entry
+    was reported as a difference."""
+    from tests.render.sheets import wide_total_sheet
+
+    sheet = wide_total_sheet()
+    (tmp_path / "columns.toml").write_text(CONVERSION_IN_COLUMNS)
+    pages = pdf_pages(render_pdf(sheet, load_layout(str(tmp_path / "columns.toml")), short_fingerprint(sheet)), tmp_path)
+    first = pages[0]
+    left, right = sorted((t for t in first.tables if any(row.text().startswith("Total Risk") for row in t.rows)),
+                         key=lambda t: t.x0)
+    assert right.x0 > left.x1 and right.top < left.top  # the case under test: the rest is higher, to the right
+    assert verify_pages(sheet, pages).mismatches == []
